@@ -1,0 +1,14 @@
+"""The one exception type that reaches the user as a one-line message.
+
+Every problem with what the user gave us (a file, a key, a value) raises
+:class:`InputError`. The CLI prints ``gisgrade: error: <message>`` and exits
+with status 2; anything else is a bug and keeps its traceback.
+"""
+
+
+class InputError(Exception):
+    """Bad input: the message names the file, key or value at fault."""
+
+    def __init__(self, message: str):
+        # One line, always: the CLI promises a single-line error.
+        super().__init__(" ".join(str(message).split()))
