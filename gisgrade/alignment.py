@@ -1,0 +1,395 @@
+"""Alignment: the centerline, its working CRS, and the stations along it.
+
+Reading files and choosing the CRS happen in :func:`read_alignment` and
+:func:`locate_crossings` (the edge); the stationing itself is pure numpy
+(:func:`station_positions`, :func:`interpolate_xy`, :func:`tangent_angle`).
+
+Stations are horizontal distances along the centerline in a projected CRS
+(the *working CRS*). A line drawn in a geographic CRS is projected to the UTM
+zone of its centroid, on the line's own datum, and its length is compared with
+the geodesic length on the ellipsoid (pyproj.Geod) so the grid-vs-ground
+difference is on record.
+
+Station kinds are bit flags (:data:`REGULAR`, :data:`VERTEX`, ...), so a
+station can be a vertex and a crossing at once, and later stages can add
+kinds (zone boundaries, fittings) without a new column.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+import pyproj
+import shapely
+from shapely.geometry import LineString, MultiLineString
+
+from .errors import InputError
+
+#: Station kind flags.
+REGULAR, VERTEX, CROSSING, END = 1, 2, 4, 8
+
+#: Stations closer than this (m) to a special station are dropped as duplicates.
+STATION_TOLERANCE = 1e-3
+
+
+@dataclass(frozen=True)
+class Alignment:
+    """The centerline in its working CRS, oriented in the direction of flow."""
+
+    line: LineString  # working CRS, flow direction
+    crs: pyproj.CRS  # working (projected) CRS
+    source_crs: pyproj.CRS
+    length: float  # m, in the working CRS
+    geodesic_length: float  # m, on the source CRS's ellipsoid
+    start_station: float = 0.0  # m, station of the first point
+    notes: tuple[str, ...] = field(default=())
+
+    @property
+    def coords(self) -> np.ndarray:
+        return np.asarray(self.line.coords)[:, :2]
+
+    @property
+    def vertex_stations(self) -> np.ndarray:
+        return cumulative_length(self.coords)
+
+
+@dataclass(frozen=True)
+class Crossings:
+    """Where the centerline crosses other features (columns as arrays)."""
+
+    station: np.ndarray  # m along the line (0 at the first point)
+    x: np.ndarray
+    y: np.ndarray
+    bottom: np.ndarray  # m, crossed feature's bottom elevation (vertical datum of the DEM)
+    clearance: np.ndarray  # m, required vertical separation
+    angle_deg: np.ndarray  # acute angle between the two lines, degrees
+    name: np.ndarray  # str, feature name (or layer key and feature index)
+    layer: np.ndarray  # str, project-file key of the crossing layer
+
+    @classmethod
+    def empty(cls) -> "Crossings":
+        f = np.empty(0)
+        s = np.empty(0, dtype=object)
+        return cls(f, f, f, f, f, f, s, s)
+
+    def __len__(self) -> int:
+        return len(self.station)
+
+
+# --------------------------------------------------------------------------
+# Pure stationing
+# --------------------------------------------------------------------------
+
+
+def cumulative_length(coords: np.ndarray) -> np.ndarray:
+    """Distance (m) from the first vertex to each vertex of a polyline.
+
+    >>> cumulative_length(np.array([[0.0, 0.0], [3.0, 4.0], [3.0, 10.0]])).tolist()
+    [0.0, 5.0, 11.0]
+    """
+    seg = np.hypot(*np.diff(coords, axis=0).T)
+    return np.concatenate([[0.0], np.cumsum(seg)])
+
+
+def station_positions(length: float, spacing: float, special=(), tol: float = STATION_TOLERANCE):
+    """Stations every ``spacing`` plus the ``special`` ones, and their kinds.
+
+    ``special`` is a sequence of ``(stations, kind_flag)`` pairs (vertices,
+    crossings, ...). A regular station within ``tol`` of a special one is
+    dropped so the special station keeps its exact value; special stations
+    that coincide merge their flags. Returns ``(station, kind)``.
+
+    >>> s, k = station_positions(25.0, 10.0, [(np.array([0.0, 12.0, 25.0]), VERTEX)])
+    >>> s.tolist(), k.tolist()
+    ([0.0, 10.0, 12.0, 20.0, 25.0], [11, 1, 2, 1, 10])
+    """
+    regular = np.arange(0.0, length, spacing)
+    parts = [np.array([length])]
+    flags = [np.array([END])]
+    for values, flag in special:
+        v = np.clip(np.asarray(values, dtype=float), 0.0, length)
+        parts.append(v)
+        flags.append(np.full(v.shape, flag))
+    sp = np.concatenate(parts)
+    sf = np.concatenate(flags)
+    order = np.argsort(sp, kind="stable")
+    sp, sf = sp[order], sf[order]
+    # Drop regular stations that sit on a special one.
+    idx = np.searchsorted(sp, regular)
+    near_left = np.abs(regular - sp[np.clip(idx - 1, 0, len(sp) - 1)]) <= tol
+    near_right = np.abs(sp[np.clip(idx, 0, len(sp) - 1)] - regular) <= tol
+    keep = ~(near_left | near_right)
+    # Station 0 is always a regular station and the start.
+    allv = np.concatenate([sp, regular[keep]])
+    allf = np.concatenate([sf, np.full(keep.sum(), REGULAR)])
+    order = np.argsort(allv, kind="stable")
+    allv, allf = allv[order], allf[order]
+    # Merge special stations that coincide within tol: OR their flags.
+    group = np.concatenate([[0], np.cumsum(np.diff(allv) > tol)])
+    station = allv[np.concatenate([[True], np.diff(group) > 0])]
+    kind = np.zeros(len(station), dtype=np.int64)
+    np.bitwise_or.at(kind, group, allf)
+    kind[0] |= REGULAR
+    return station, kind
+
+
+def interpolate_xy(coords: np.ndarray, station: np.ndarray):
+    """Planar coordinates of stations along a polyline (exact, piecewise linear).
+
+    >>> x, y = interpolate_xy(np.array([[0.0, 0.0], [3.0, 4.0]]), np.array([0.0, 2.5, 5.0]))
+    >>> x.tolist(), y.tolist()
+    ([0.0, 1.5, 3.0], [0.0, 2.0, 4.0])
+    """
+    cum = cumulative_length(coords)
+    return np.interp(station, cum, coords[:, 0]), np.interp(station, cum, coords[:, 1])
+
+
+def tangent_angle(coords: np.ndarray, station: np.ndarray) -> np.ndarray:
+    """Direction (radians from +x) of the polyline segment holding each station."""
+    cum = cumulative_length(coords)
+    seg = np.clip(np.searchsorted(cum, station, side="right") - 1, 0, len(coords) - 2)
+    d = coords[seg + 1] - coords[seg]
+    return np.arctan2(d[:, 1], d[:, 0])
+
+
+def crossing_angle(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Acute angle (degrees, 0-90) between directions ``a`` and ``b`` (radians).
+
+    >>> crossing_angle(np.array([0.0]), np.array([np.pi * 0.75])).round(6).tolist()
+    [45.0]
+    """
+    diff = np.abs(np.degrees(a - b)) % 180.0
+    return np.minimum(diff, 180.0 - diff)
+
+
+# --------------------------------------------------------------------------
+# Edges: files and CRS
+# --------------------------------------------------------------------------
+
+
+def read_vector(path: Path, key: str, layer=None, where=None):
+    """Read a GeoJSON/GeoPackage layer as a GeoDataFrame, errors naming the file."""
+    import geopandas as gpd
+    import pyogrio
+
+    try:
+        gdf = gpd.read_file(path, layer=layer, where=where, engine="pyogrio")
+    except (pyogrio.errors.DataSourceError, pyogrio.errors.DataLayerError) as exc:
+        raise InputError(f"{key}: cannot read {path.name} ({_first_line(exc)})") from None
+    except Exception as exc:  # GDAL raises a variety of errors for bad SQL or files
+        raise InputError(f"{key}: cannot read {path.name} ({_first_line(exc)})") from None
+    if gdf.crs is None:
+        raise InputError(f"{key}: {path.name} has no coordinate reference system")
+    gdf = gdf[~(gdf.geometry.isna() | gdf.geometry.is_empty)]
+    return gdf
+
+
+def _first_line(exc: Exception) -> str:
+    text = str(exc).strip().splitlines()
+    return text[0] if text else type(exc).__name__
+
+
+def working_crs(crs: pyproj.CRS, lon: float, lat: float) -> pyproj.CRS:
+    """A projected CRS for stationing: ``crs`` itself if projected, else the
+    UTM zone holding (lon, lat) on the same datum (WGS 84 zones as fallback)."""
+    if crs.is_projected:
+        return crs
+    from pyproj.aoi import AreaOfInterest
+    from pyproj.database import query_utm_crs_info
+
+    aoi = AreaOfInterest(lon, lat, lon, lat)
+    datum = crs.datum.name if crs.datum is not None else "WGS 84"
+    for name in (datum, "WGS 84"):
+        try:
+            infos = query_utm_crs_info(datum_name=name, area_of_interest=aoi)
+        except Exception:  # unknown datum name in the database
+            infos = []
+        if infos:
+            return pyproj.CRS.from_authority(infos[0].auth_name, infos[0].code)
+    zone = int((lon + 180.0) // 6.0) % 60 + 1
+    return pyproj.CRS.from_epsg((32600 if lat >= 0 else 32700) + zone)
+
+
+def merge_parts(geom, key: str, file: str) -> LineString:
+    """One LineString from a (Multi)LineString whose parts touch end to end.
+
+    Parts are joined in the order given (a part may be reversed to meet its
+    neighbour). Parts that do not touch are an input error naming where the
+    gap is and how wide it is (in the geometry's own units).
+    """
+    if isinstance(geom, LineString):
+        return geom
+    if not isinstance(geom, MultiLineString):
+        raise InputError(f"{key}: {file} holds a {geom.geom_type}, expected a LineString")
+    parts = [np.asarray(p.coords)[:, :2] for p in geom.geoms if not p.is_empty]
+    line = parts[0]
+    for i, part in enumerate(parts[1:], start=1):
+        ends = [(line[-1], part[0], False, False), (line[-1], part[-1], False, True),
+                (line[0], part[0], True, False), (line[0], part[-1], True, True)]
+        if i > 1:  # only the first part may be flipped to meet the second
+            ends = ends[:2]
+        gaps = [float(np.hypot(*(a - b))) for a, b, _, _ in ends]
+        j = int(np.argmin(gaps))
+        tol = 1e-9 * max(1.0, float(np.abs(line).max()))
+        if gaps[j] > tol:
+            a = ends[0][0]
+            raise InputError(
+                f"{key}: {file}: part {i + 1} of the multipart line does not touch part {i} "
+                f"(gap of {gaps[0]:.3f} CRS units at {a[0]:.6f}, {a[1]:.6f})"
+            )
+        _, _, flip_line, flip_part = ends[j]
+        if flip_line:
+            line = line[::-1]
+        if flip_part:
+            part = part[::-1]
+        line = np.vstack([line, part[1:]])
+    return LineString(line)
+
+
+def read_alignment(path: Path, *, layer=None, reverse=False, where=None,
+                   start_station=0.0, key="alignment.path") -> Alignment:
+    """Read the centerline and put it in its working CRS, in flow direction.
+
+    One feature is expected. If the layer holds several and they join end to
+    end into one line, they are merged (noted); otherwise the user must pick
+    one (an input error says how many there are).
+    """
+    gdf = read_vector(path, key, layer=layer, where=where)
+    if len(gdf) == 0:
+        raise InputError(f"{key}: {path.name} holds no line features")
+    notes = []
+    if len(gdf) == 1:
+        geom = gdf.geometry.iloc[0]
+    else:
+        merged = shapely.line_merge(shapely.union_all(gdf.geometry.values))
+        if not isinstance(merged, LineString):
+            raise InputError(
+                f"{key}: {path.name} holds {len(gdf)} separate lines; keep one route per "
+                f"file or layer (alignment.layer selects a layer)"
+            )
+        geom = merged
+        notes.append(f"{len(gdf)} features in {path.name} joined end to end into one centerline")
+    line = merge_parts(geom, key, path.name)
+    if line.length == 0:
+        raise InputError(f"{key}: {path.name}: the centerline has zero length")
+
+    src = pyproj.CRS.from_user_input(gdf.crs)
+    geo = src.geodetic_crs or pyproj.CRS.from_epsg(4326)
+    to_geo = pyproj.Transformer.from_crs(src, geo, always_xy=True)
+    coords = np.asarray(line.coords)[:, :2]
+    lon, lat = to_geo.transform(coords[:, 0], coords[:, 1])
+    geod = geo.get_geod() or pyproj.Geod(ellps="WGS84")
+    geodesic = float(geod.line_length(lon, lat))
+
+    work = working_crs(src, float(np.mean(lon)), float(np.mean(lat)))
+    if work != src:
+        fwd = pyproj.Transformer.from_crs(src, work, always_xy=True)
+        x, y = fwd.transform(coords[:, 0], coords[:, 1])
+        coords = np.column_stack([x, y])
+        notes.append(f"centerline CRS {src.name} is geographic; stationed in {work.name}")
+    if reverse:
+        coords = coords[::-1]
+        notes.append("centerline reversed (alignment.reverse = true): flow runs against the digitized direction")
+    if not np.all(np.isfinite(coords)):
+        raise InputError(f"{key}: {path.name}: coordinates do not transform to {work.name}")
+    line = LineString(coords)
+    length = float(line.length)
+    notes.append(
+        f"length {length:.2f} m in {work.name} vs {geodesic:.2f} m geodesic "
+        f"({(length - geodesic) / geodesic * 100:+.3f} %)"
+    )
+    return Alignment(line, work, src, length, geodesic, start_station, tuple(notes))
+
+
+def locate_crossings(alignment: Alignment, layers, vertical_factor: float = 1.0) -> Crossings:
+    """Find where each crossing layer's features cross the centerline.
+
+    ``layers`` are :class:`~gisgrade.project.CrossingLayerConfig`. Bottom
+    elevations are read in the DEM's vertical unit and returned in metres.
+    A feature crossed twice gives two crossings; a feature that does not
+    reach the line is skipped.
+    """
+    rows = []
+    coords = alignment.coords
+    for cfg in layers:
+        gdf = read_vector(cfg.path, f"{cfg.key}.path", layer=cfg.layer)
+        if cfg.bottom_field not in gdf.columns:
+            raise InputError(
+                f"{cfg.key}.bottom_field = {cfg.bottom_field!r}: no such attribute in "
+                f"{cfg.path.name} (has {', '.join(c for c in gdf.columns if c != 'geometry')})"
+            )
+        gdf = gdf.to_crs(alignment.crs)
+        geoms = gdf.geometry.values
+        hits = shapely.intersection(geoms, alignment.line)
+        names = gdf["name"].astype(str).values if "name" in gdf.columns else None
+        for i, hit in enumerate(hits):
+            if hit.is_empty:
+                continue
+            points = shapely.get_parts(shapely.extract_unique_points(hit))
+            if len(points) == 0:
+                continue
+            bottom = gdf[cfg.bottom_field].iloc[i]
+            try:
+                bottom = float(bottom)
+            except (TypeError, ValueError):
+                bottom = math.nan
+            if not math.isfinite(bottom):
+                raise InputError(
+                    f"{cfg.key}.bottom_field: feature {i} of {cfg.path.name} crosses the line "
+                    f"but its {cfg.bottom_field!r} is {gdf[cfg.bottom_field].iloc[i]!r}"
+                )
+            feat = np.asarray(shapely.get_coordinates(geoms[i]))
+            s_line = shapely.line_locate_point(alignment.line, points)
+            feat_line = LineString(feat) if len(feat) >= 2 else None
+            if feat_line is not None and isinstance(geoms[i], LineString):
+                s_feat = shapely.line_locate_point(feat_line, points)
+                a_feat = tangent_angle(feat, s_feat)
+                angle = crossing_angle(tangent_angle(coords, s_line), a_feat)
+            else:
+                angle = np.full(len(points), np.nan)
+            name = names[i] if names is not None else f"{cfg.path.stem}#{i}"
+            xy = shapely.get_coordinates(points)
+            for k in range(len(points)):
+                rows.append((s_line[k], xy[k, 0], xy[k, 1], bottom * vertical_factor,
+                             cfg.clearance, angle[k], name, cfg.key))
+    if not rows:
+        return Crossings.empty()
+    rows.sort(key=lambda r: r[0])
+    cols = list(zip(*rows))
+    return Crossings(*(np.asarray(c, dtype=float) for c in cols[:6]),
+                     name=np.asarray(cols[6], dtype=object), layer=np.asarray(cols[7], dtype=object))
+
+
+def stations(alignment: Alignment, spacing: float, crossings: Crossings):
+    """Station, x, y and kind flags for the whole line (pure given the inputs)."""
+    special = [(alignment.vertex_stations, VERTEX)]
+    if len(crossings):
+        special.append((crossings.station, CROSSING))
+    s, kind = station_positions(alignment.length, spacing, special)
+    x, y = interpolate_xy(alignment.coords, s)
+    return s, x, y, kind
+
+
+def format_station(station_m, units: str = "SI") -> np.ndarray:
+    """Station labels in the trade's formats.
+
+    SI: kilometres + metres (``1+250.00``); US: hundreds of feet + feet
+    (``12+50.00``). Negative stations get a leading minus.
+
+    >>> format_station([0.0, 1250.0, 12.345]).tolist()
+    ['0+000.00', '1+250.00', '0+012.35']
+    >>> format_station([381.0], "US").tolist()
+    ['12+50.00']
+    """
+    s = np.asarray(station_m, dtype=float)
+    if units.upper() == "US":
+        value, unit, width = s / 0.3048, 100.0, 5
+    else:
+        value, unit, width = s, 1000.0, 6
+    cents = np.round(np.abs(value) * 100).astype(np.int64)
+    major, minor = np.divmod(cents, int(unit * 100))
+    sign = np.where(value < 0, "-", "")
+    out = [f"{sg}{M}+{m / 100:0{width}.2f}" for sg, M, m in zip(sign, major, minor)]
+    return np.asarray(out, dtype=object)

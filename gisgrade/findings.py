@@ -1,0 +1,99 @@
+"""Findings: where the main breaks a planning check, as station ranges.
+
+Pure functions over the station arrays. Each finding is one contiguous run
+of stations that fails one check in one scenario, with the worst value in
+the run and its station. Later issues add air valves and drains here.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+
+#: Columns of the findings table (``findings.csv``).
+COLUMNS = ["scenario", "check", "severity", "from_station_m", "to_station_m",
+           "worst_station_m", "worst_value", "unit", "limit", "message"]
+
+
+@dataclass(frozen=True)
+class Thresholds:
+    """Planning checks (defaults: common practice, see docs/hydraulics.md)."""
+
+    min_pressure: float = 140e3  # Pa: 20 psi floor under all demands (common practice)
+    max_pressure: float = 550e3  # Pa: upper end of normal working pressure, 80 psi (common practice)
+    min_velocity: float = 0.0  # m/s: 0 disables the check
+    max_velocity: float = 3.0  # m/s: upper end even in fire flow (common practice)
+
+
+def runs(mask: np.ndarray) -> np.ndarray:
+    """Start and end index (inclusive) of each run of True in ``mask``.
+
+    >>> runs(np.array([0, 1, 1, 0, 1], dtype=bool)).tolist()
+    [[1, 2], [4, 4]]
+    """
+    m = np.concatenate([[False], np.asarray(mask, dtype=bool), [False]])
+    edges = np.flatnonzero(np.diff(m.astype(np.int8)))
+    return edges.reshape(-1, 2) - np.array([0, 1])
+
+
+def range_findings(station, value, mask, *, scenario, check, severity, unit, limit,
+                   worst="min", text="{check}") -> list[dict]:
+    """One finding per run of ``mask``, reporting the worst ``value`` in it."""
+    out = []
+    for a, b in runs(mask):
+        seg = value[a:b + 1]
+        k = a + int(np.argmin(seg) if worst == "min" else np.argmax(seg))
+        out.append(dict(
+            scenario=scenario, check=check, severity=severity,
+            from_station_m=float(station[a]), to_station_m=float(station[b]),
+            worst_station_m=float(station[k]), worst_value=float(value[k]), unit=unit,
+            limit=float(limit), message=text.format(check=check, value=value[k], limit=limit),
+        ))
+    return out
+
+
+def pressure_findings(station, pressure, hgl, top, velocity, scenario: str,
+                      limits: Thresholds = Thresholds()) -> list[dict]:
+    """Low, high and sub-atmospheric pressure, and velocity, for one scenario.
+
+    ``pressure`` in Pa at the pipe axis, ``hgl`` and ``top`` (top of pipe) in
+    m, ``velocity`` in m/s. Sub-atmospheric means the HGL is below the top of
+    the pipe (field notes: air entry, contamination, column separation).
+    """
+    kpa = pressure / 1e3
+    out = []
+    out += range_findings(station, hgl - top, hgl < top, scenario=scenario,
+                          check="sub-atmospheric", severity="critical", unit="m", limit=0.0,
+                          text="HGL {value:.2f} m below the top of pipe")
+    low = (pressure < limits.min_pressure) & (hgl >= top)
+    out += range_findings(station, kpa, low, scenario=scenario, check="low pressure",
+                          severity="warning", unit="kPa", limit=limits.min_pressure / 1e3,
+                          text="pressure {value:.0f} kPa below {limit:.0f} kPa")
+    out += range_findings(station, kpa, pressure > limits.max_pressure, scenario=scenario,
+                          check="high pressure", severity="warning", unit="kPa",
+                          limit=limits.max_pressure / 1e3, worst="max",
+                          text="pressure {value:.0f} kPa above {limit:.0f} kPa")
+    if limits.max_velocity > 0:
+        out += range_findings(station, velocity, velocity > limits.max_velocity,
+                              scenario=scenario, check="high velocity", severity="warning",
+                              unit="m/s", limit=limits.max_velocity, worst="max",
+                              text="velocity {value:.2f} m/s above {limit:.2f} m/s")
+    if limits.min_velocity > 0:
+        slow = (velocity < limits.min_velocity) & (velocity > 0)
+        out += range_findings(station, velocity, slow, scenario=scenario, check="low velocity",
+                              severity="note", unit="m/s", limit=limits.min_velocity,
+                              text="velocity {value:.2f} m/s below {limit:.2f} m/s")
+    return out
+
+
+def cover_findings(station, cover, min_cover) -> list[dict]:
+    """Stations where the designed pipe has less than the minimum cover."""
+    short = cover < np.asarray(min_cover) - 1e-6
+    return range_findings(station, cover, short, scenario="design", check="cover",
+                          severity="critical", unit="m", limit=float(np.min(min_cover)),
+                          text="cover {value:.2f} m below the minimum {limit:.2f} m")
+
+
+def table(findings: list[dict]) -> pd.DataFrame:
+    return pd.DataFrame(findings, columns=COLUMNS)

@@ -1,0 +1,99 @@
+"""Map layers in one GeoPackage (``layers.gpkg``), in the working CRS.
+
+- ``pipe_pieces``: one line per pair of consecutive stations, carrying the
+  lowest and highest pressure of each scenario and a display colour (hex) for
+  the first flow scenario's lowest pressure, from the perceptual, colour-vision
+  friendly *cividis* colormap (Nuñez et al. 2018);
+- ``crossings``: one point per crossing with required and achieved clearance;
+- ``stations``: one point per station with ground, pipe and cover.
+"""
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import shapely
+
+#: Colormap for pressure colours on the pipe pieces.
+PRESSURE_CMAP = "cividis"
+
+
+def pressure_colours(values: np.ndarray, vmin: float, vmax: float) -> np.ndarray:
+    """Hex colours (``#rrggbb``) for ``values`` on the pressure colormap.
+
+    >>> pressure_colours(np.array([0.0, 1.0]), 0.0, 1.0).tolist()
+    ['#00224e', '#fee838']
+    """
+    import matplotlib
+
+    cmap = matplotlib.colormaps[PRESSURE_CMAP]
+    span = vmax - vmin if vmax > vmin else 1.0
+    rgba = cmap(np.clip((values - vmin) / span, 0.0, 1.0))
+    rgb = np.round(rgba[:, :3] * 255).astype(int)
+    return np.array([f"#{r:02x}{g:02x}{b:02x}" for r, g, b in rgb], dtype=object)
+
+
+def pipe_pieces(result) -> "pd.DataFrame":
+    """Attributes and geometry of the pipe pieces between stations."""
+    t = result.table
+    s = t["station_m"].to_numpy()
+    xy = t[["x", "y"]].to_numpy()
+    geom = shapely.linestrings(np.stack([xy[:-1], xy[1:]], axis=1))
+    cover = t["cover_m"].to_numpy()
+    data = {
+        "from_station_m": s[:-1], "to_station_m": s[1:],
+        "length_m": np.diff(s),
+        "grade_pct": np.diff(t["top_m"].to_numpy()) / np.diff(s) * 100.0,
+        "cover_min_m": np.minimum(cover[:-1], cover[1:]),
+    }
+    first_flow = None
+    for name, g in result.gradelines.groupby("scenario", sort=False):
+        p = g["pressure_kpa"].to_numpy()
+        data[f"{name}_pmin_kpa"] = np.minimum(p[:-1], p[1:])
+        data[f"{name}_pmax_kpa"] = np.maximum(p[:-1], p[1:])
+        if first_flow is None and (g["flow_m3_s"].to_numpy() > 0).any():
+            first_flow = name
+    first_flow = first_flow or result.gradelines["scenario"].iloc[0]
+    pmin = data[f"{first_flow}_pmin_kpa"]
+    data["colour_scenario"] = first_flow
+    data["colour"] = pressure_colours(pmin, float(pmin.min()), float(pmin.max()))
+    frame = pd.DataFrame(data)
+    frame["geometry"] = geom
+    return frame
+
+
+def crossing_points(result) -> "pd.DataFrame":
+    c = result.crossings
+    t = result.table
+    s0 = t["station_m"].iloc[0]
+    station = c.station + s0
+    top = np.interp(station, t["station_m"], t["top_m"])
+    return pd.DataFrame({
+        "station_m": station, "name": c.name.astype(str), "layer": c.layer.astype(str),
+        "angle_deg": c.angle_deg, "bottom_m": c.bottom, "clearance_required_m": c.clearance,
+        "top_of_pipe_m": top, "clearance_achieved_m": c.bottom - top,
+        "geometry": shapely.points(c.x, c.y),
+    })
+
+
+def station_points(result) -> "pd.DataFrame":
+    t = result.table
+    cols = [c for c in ("station_m", "ground_m", "top_m", "axis_m", "invert_m", "cover_m",
+                        "kind") if c in t.columns]
+    frame = t[cols].copy()
+    frame["geometry"] = shapely.points(t["x"].to_numpy(), t["y"].to_numpy())
+    return frame
+
+
+def write_layers(result, folder: Path) -> None:
+    import geopandas as gpd
+
+    path = folder / "layers.gpkg"
+    crs = result.alignment.crs
+    layers = {"pipe_pieces": pipe_pieces(result), "crossings": crossing_points(result),
+              "stations": station_points(result)}
+    for i, (name, frame) in enumerate(layers.items()):
+        gdf = gpd.GeoDataFrame(frame, geometry="geometry", crs=crs)
+        gdf.to_file(path, layer=name, driver="GPKG", engine="pyogrio",
+                    mode="w" if i == 0 else "a")

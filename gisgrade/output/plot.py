@@ -1,0 +1,108 @@
+"""The profile sheet: ground, pipe, grade lines and a pressure strip.
+
+Upper panel: ground line, the pipe (top of pipe to invert, filled), each
+scenario's HGL (solid) and EGL (dashed; the static line dotted), crossings
+(the crossed feature's bottom and the required clearance) and bends. Lower
+strip: pressure at the pipe axis per scenario against the planning limits.
+The vertical exaggeration is measured from the drawn axes and printed.
+"""
+from __future__ import annotations
+
+from pathlib import Path
+
+import matplotlib
+
+matplotlib.use("Agg")
+import matplotlib.pyplot as plt  # noqa: E402
+import numpy as np  # noqa: E402
+from matplotlib.ticker import FuncFormatter  # noqa: E402
+
+from ..cautions import SHORT  # noqa: E402
+
+FT = 0.3048  # international foot, m
+
+#: Line styles of our own choosing; scenario lines cycle through SCENARIO_COLOURS.
+GROUND = dict(color="#7a5c3a", lw=1.2)
+PIPE_FILL = dict(color="#5b6770", alpha=0.55, lw=0)
+SCENARIO_COLOURS = ["#1b5e9e", "#b8412c", "#2f8f6a", "#7b4fa0", "#c7962a"]
+STATIC = dict(color="#444444", lw=1.0, ls=":")
+
+
+def vertical_exaggeration(ax) -> float:
+    """Ratio of the vertical to the horizontal drawing scale of ``ax``."""
+    fig = ax.figure
+    bbox = ax.get_window_extent().transformed(fig.dpi_scale_trans.inverted())
+    x0, x1 = ax.get_xlim()
+    y0, y1 = ax.get_ylim()
+    return (abs(x1 - x0) / bbox.width) / (abs(y1 - y0) / bbox.height)
+
+
+def plot_profile(result, path: Path) -> None:
+    from ..alignment import format_station
+
+    units = result.project.output.units
+    k = 1.0 / FT if units == "US" else 1.0
+    zunit = "ft" if units == "US" else "m"
+    t = result.table
+    s = t["station_m"].to_numpy()
+    fig, (ax, axp) = plt.subplots(
+        2, 1, figsize=(13, 7.5), sharex=True, gridspec_kw=dict(height_ratios=[3, 1], hspace=0.08)
+    )
+    ax.plot(s, t["ground_m"] * k, label="ground", **GROUND)
+    ax.fill_between(s, t["invert_m"] * k, t["top_m"] * k, label="pipe (top to invert)", **PIPE_FILL)
+
+    plimit = result.project.checks
+    flow_i = 0
+    for name, g in result.gradelines.groupby("scenario", sort=False):
+        hgl, egl = g["hgl_m"].to_numpy() * k, g["egl_m"].to_numpy() * k
+        p = g["pressure_kpa"].to_numpy()
+        if (g["flow_m3_s"].to_numpy() == 0).all():
+            ax.plot(s, hgl, label=f"static HGL", **STATIC)
+            axp.plot(s, p, **STATIC)
+            continue
+        colour = SCENARIO_COLOURS[flow_i % len(SCENARIO_COLOURS)]
+        flow_i += 1
+        ax.plot(s, hgl, color=colour, lw=1.6, label=f"HGL {name}")
+        ax.plot(s, egl, color=colour, lw=1.0, ls="--", label=f"EGL {name}")
+        axp.plot(s, p, color=colour, lw=1.4, label=name)
+
+    c = result.crossings
+    if len(c):
+        cs = c.station + s[0]
+        ax.scatter(cs, c.bottom * k, marker="v", color="#222222", zorder=5, s=28,
+                   label="crossed feature bottom")
+        ax.vlines(cs, (c.bottom - c.clearance) * k, c.bottom * k, color="#222222", lw=2.5,
+                  label="required clearance")
+        for x, z, name in zip(cs, c.bottom * k, c.name):
+            ax.annotate(str(name), (x, z), xytext=(3, -12), textcoords="offset points",
+                        fontsize=7, color="#222222")
+    if len(result.bends):
+        b = result.bends["station_m"].to_numpy()
+        ax.scatter(b, np.interp(b, s, t["axis_m"]) * k, marker="D", s=14, color="#c7962a",
+                   zorder=6, label="vertical bend")
+
+    axp.axhspan(min(axp.get_ylim()[0], 0), 0, color="#d9534f", alpha=0.12, lw=0)
+    axp.axhline(plimit.min_pressure / 1e3, color="#d9534f", lw=0.8, ls="-.")
+    axp.axhline(plimit.max_pressure / 1e3, color="#8a6d3b", lw=0.8, ls="-.")
+    axp.text(s[0], plimit.min_pressure / 1e3, f" min {plimit.min_pressure / 1e3:.0f} kPa",
+             fontsize=7, va="bottom", color="#d9534f")
+    axp.text(s[0], plimit.max_pressure / 1e3, f" max {plimit.max_pressure / 1e3:.0f} kPa",
+             fontsize=7, va="bottom", color="#8a6d3b")
+    axp.set_ylabel("Pressure at axis (kPa)")
+    ax.set_ylabel(f"Elevation ({zunit})")
+    station_unit = "hundreds ft + ft" if units == "US" else "km + m"
+    axp.set_xlabel(f"Station ({station_unit})")
+    axp.xaxis.set_major_formatter(FuncFormatter(lambda v, _: format_station([v], units)[0]))
+    ax.grid(True, lw=0.3, color="#cccccc")
+    axp.grid(True, lw=0.3, color="#cccccc")
+    ax.legend(loc="upper right", fontsize=7, ncol=3, framealpha=0.9)
+    axp.legend(loc="upper right", fontsize=7, ncol=4, framealpha=0.9)
+    ax.set_xlim(s[0], s[-1])
+    fig.canvas.draw()
+    # x is in metres; in US display y is in feet, so convert y back to metres.
+    ve = vertical_exaggeration(ax) / (FT if units == "US" else 1.0)
+    ax.set_title(f"{result.project.path.stem}: profile along the centerline "
+                 f"(vertical exaggeration {ve:.0f}x)", fontsize=10, loc="left")
+    fig.text(0.01, 0.005, SHORT, fontsize=7, color="#555555")
+    fig.savefig(path, dpi=130, bbox_inches="tight")
+    plt.close(fig)

@@ -1,0 +1,116 @@
+"""The run summary: key figures as JSON (``summary.json``) and as text."""
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import numpy as np
+
+from .. import __version__
+from ..cautions import CAUTIONS
+
+
+def summarize(result, profile=None) -> dict:
+    """Key figures of a run, plain JSON-able values, SI units in the key names."""
+    t = result.table
+    s = t["station_m"].to_numpy()
+    line = result.alignment
+    out = {
+        "gisgrade_version": __version__,
+        "project": str(result.project.path),
+        "working_crs": line.crs.to_string(),
+        "length_m": round(line.length, 3),
+        "geodesic_length_m": round(line.geodesic_length, 3),
+        "stations": int(len(t)),
+        "first_station_m": float(s[0]),
+        "last_station_m": float(s[-1]),
+        "ground_min_m": float(t["ground_m"].min()),
+        "ground_max_m": float(t["ground_m"].max()),
+        "cover_min_m": float(t["cover_m"].min()),
+        "cover_max_m": float(t["cover_m"].max()),
+        "notes": list(line.notes),
+        "crossings": [
+            {"name": str(n), "station_m": float(st + s[0]), "angle_deg": _num(a),
+             "clearance_required_m": float(c),
+             "clearance_achieved_m": float(b - np.interp(st + s[0], s, t["top_m"]))}
+            for n, st, a, c, b in zip(result.crossings.name, result.crossings.station,
+                                      result.crossings.angle_deg, result.crossings.clearance,
+                                      result.crossings.bottom)
+        ],
+        "scenarios": [],
+        "findings": int(len(result.findings)),
+        "relaxations": [_plain(r) for r in result.relaxations],
+        "bends": int(len(result.bends)),
+        "cautions": CAUTIONS,
+    }
+    if profile is not None:
+        out["excavation_m3"] = float(profile.excavation_volume)
+        out["pipe_length_3d_m"] = float(profile.length_3d)
+    for name, g in result.gradelines.groupby("scenario", sort=False):
+        p = g["pressure_kpa"].to_numpy()
+        i, j = int(np.argmin(p)), int(np.argmax(p))
+        out["scenarios"].append({
+            "scenario": name, "flow_m3_s": float(g["flow_m3_s"].iloc[0]),
+            "velocity_max_m_s": float(g["velocity_m_s"].max()),
+            "pressure_min_kpa": float(p[i]), "pressure_min_station_m": float(s[i]),
+            "pressure_max_kpa": float(p[j]), "pressure_max_station_m": float(s[j]),
+            "hgl_end_m": float(g["hgl_m"].iloc[-1]),
+        })
+    return out
+
+
+def _num(v):
+    v = float(v)
+    return None if not np.isfinite(v) else v
+
+
+def _plain(obj):
+    if isinstance(obj, dict):
+        return {k: _plain(v) for k, v in obj.items()}
+    if hasattr(obj, "__dataclass_fields__"):
+        return {k: _plain(getattr(obj, k)) for k in obj.__dataclass_fields__}
+    if isinstance(obj, (np.floating, np.integer)):
+        return obj.item()
+    if isinstance(obj, (list, tuple, np.ndarray)):
+        return [_plain(v) for v in obj]
+    return obj
+
+
+def summary_text(summary: dict) -> str:
+    """A short human-readable account of the run."""
+    from ..alignment import format_station
+
+    lines = [
+        f"route: {summary['length_m']:.1f} m in {summary['working_crs']} "
+        f"({summary['stations']} stations)",
+        f"ground: {summary['ground_min_m']:.2f} to {summary['ground_max_m']:.2f} m; "
+        f"cover {summary['cover_min_m']:.2f} to {summary['cover_max_m']:.2f} m",
+    ]
+    lines += [f"note: {n}" for n in summary["notes"]]
+    for c in summary["crossings"]:
+        lines.append(
+            f"crossing {c['name']} at {format_station([c['station_m']])[0]}: clearance "
+            f"{c['clearance_achieved_m']:.2f} m (required {c['clearance_required_m']:.2f} m)"
+        )
+    for sc in summary["scenarios"]:
+        lines.append(
+            f"{sc['scenario']}: {sc['flow_m3_s'] * 1e3:.1f} L/s, pressure "
+            f"{sc['pressure_min_kpa']:.0f} kPa at {format_station([sc['pressure_min_station_m']])[0]}"
+            f" to {sc['pressure_max_kpa']:.0f} kPa at "
+            f"{format_station([sc['pressure_max_station_m']])[0]}, "
+            f"max velocity {sc['velocity_max_m_s']:.2f} m/s"
+        )
+    if "excavation_m3" in summary:
+        lines.append(f"trench excavation below the minimum-cover line: {summary['excavation_m3']:.1f} m3; "
+                     f"pipe length (3D) {summary['pipe_length_3d_m']:.1f} m")
+    lines.append(f"findings: {summary['findings']}; bends: {summary['bends']}; "
+                 f"rules relaxed: {len(summary['relaxations'])}")
+    for r in summary["relaxations"]:
+        lines.append(f"relaxed: {r.get('message', r) if isinstance(r, dict) else r}")
+    lines.append("CAUTION: " + summary["cautions"])
+    return "\n".join(lines)
+
+
+def write_summary(result, folder: Path) -> None:
+    (folder / "summary.json").write_text(json.dumps(result.summary, indent=2) + "\n")
+    (folder / "summary.txt").write_text(summary_text(result.summary) + "\n")

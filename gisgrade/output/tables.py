@@ -1,0 +1,24 @@
+"""CSV tables: the station profile, grade lines per scenario, findings, bends."""
+from __future__ import annotations
+
+from pathlib import Path
+
+#: profile.csv columns (stable; later issues append).
+PROFILE_COLUMNS = ["station_m", "x", "y", "ground_m", "top_m", "axis_m", "invert_m", "cover_m"]
+#: gradelines.csv columns (stable; later issues append).
+GRADELINE_COLUMNS = ["scenario", "station_m", "flow_m3_s", "velocity_m_s", "hgl_m", "egl_m",
+                     "pressure_kpa"]
+
+
+def write_tables(result, folder: Path) -> None:
+    from ..alignment import format_station
+
+    table = result.table
+    extra = [c for c in ("ground_bridged", "reason") if c in table.columns]
+    profile = table[PROFILE_COLUMNS + extra].copy()
+    profile["station"] = format_station(table["station_m"], result.project.output.units)
+    profile.to_csv(folder / "profile.csv", index=False, float_format="%.4f")
+    result.gradelines[GRADELINE_COLUMNS].to_csv(folder / "gradelines.csv", index=False,
+                                                float_format="%.6g")
+    result.findings.to_csv(folder / "findings.csv", index=False, float_format="%.4f")
+    result.bends.to_csv(folder / "bends.csv", index=False, float_format="%.4f")

@@ -1,0 +1,386 @@
+"""The project file: one TOML file that drives a whole run.
+
+This is the first stage. It reads the TOML, checks every key, converts every
+dimensional value (a pint quantity string) to SI and resolves relative paths
+against the project file's folder. Later stages receive the frozen
+:class:`Project` and never see raw TOML or unit strings.
+
+Where a new key goes: add it to the section's ``_read_*`` function below (read it
+with :class:`Section`, which records the key as known, so an unknown-key check
+and its "did you mean" hint come for free), then to the section's dataclass.
+"""
+from __future__ import annotations
+
+import difflib
+import glob
+import math
+import sys
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from .errors import InputError
+from .findings import Thresholds
+from .units import parse_quantity
+
+if sys.version_info >= (3, 11):
+    import tomllib
+else:  # pragma: no cover
+    import tomli as tomllib
+
+
+# --------------------------------------------------------------------------
+# Section configs (SI floats, resolved paths)
+# --------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class AlignmentConfig:
+    path: Path
+    spacing: float  # m
+    layer: str | None = None
+    reverse: bool = False
+
+
+@dataclass(frozen=True)
+class TerrainConfig:
+    dem: tuple[Path, ...]
+    vertical_unit: str = "m"
+
+
+@dataclass(frozen=True)
+class PipeConfig:
+    inside_diameter: float  # m
+    outside_diameter: float  # m
+    friction: str  # "darcy-weisbach" | "hazen-williams"
+    roughness: float | None = None  # m (Darcy-Weisbach)
+    hazen_williams_c: float | None = None  # plain number (Hazen-Williams)
+
+
+@dataclass(frozen=True)
+class CoverConfig:
+    minimum: float  # m, ground to top of pipe
+
+
+@dataclass(frozen=True)
+class CrossingLayerConfig:
+    path: Path
+    bottom_field: str
+    clearance: float  # m
+    layer: str | None = None
+    key: str = "crossings[0]"  # where it sits in the project file, for messages
+
+
+@dataclass(frozen=True)
+class HydraulicsConfig:
+    source_head: float  # m, HGL elevation at the first station
+    flow: float  # m3/s
+    temperature: float  # K
+
+
+@dataclass(frozen=True)
+class OutputConfig:
+    dir: Path | None = None
+    units: str = "SI"  # display units: "SI" or "US"
+
+
+@dataclass(frozen=True)
+class Project:
+    path: Path
+    alignment: AlignmentConfig
+    terrain: TerrainConfig
+    pipe: PipeConfig
+    cover: CoverConfig
+    hydraulics: HydraulicsConfig
+    crossings: tuple[CrossingLayerConfig, ...] = ()
+    checks: Thresholds = field(default_factory=Thresholds)
+    output: OutputConfig = field(default_factory=OutputConfig)
+
+    @property
+    def base_dir(self) -> Path:
+        return self.path.parent
+
+
+# --------------------------------------------------------------------------
+# Reading helpers
+# --------------------------------------------------------------------------
+
+_MISSING = object()
+
+
+class Section:
+    """Typed access to one TOML table, remembering which keys were read.
+
+    Every getter names the key as ``section.key`` in its error messages;
+    :meth:`finish` rejects keys nobody read, suggesting the nearest known one.
+    """
+
+    def __init__(self, table, name: str, base_dir: Path, file: Path):
+        if not isinstance(table, dict):
+            raise InputError(f"{file.name}: [{name}] must be a table of keys")
+        self.table = table
+        self.name = name
+        self.base_dir = base_dir
+        self.file = file
+        self.known: set[str] = set()
+
+    def key(self, key: str) -> str:
+        return f"{self.name}.{key}"
+
+    def _get(self, key: str, default):
+        self.known.add(key)
+        if key in self.table:
+            return self.table[key]
+        if default is _MISSING:
+            raise InputError(f"{self.file.name}: missing required key {self.key(key)}")
+        return default
+
+    def quantity(self, key: str, kind: str, default=_MISSING, *, positive=False, minimum=None):
+        value = self._get(key, default)
+        if value is None:
+            return None
+        out = parse_quantity(value, kind, self.key(key))
+        if not math.isfinite(out):
+            raise InputError(f"{self.key(key)} = {value!r}: must be finite")
+        if positive and out <= 0:
+            raise InputError(f"{self.key(key)} = {value!r}: must be greater than zero")
+        if minimum is not None and out < minimum:
+            raise InputError(f"{self.key(key)} = {value!r}: must not be negative")
+        return out
+
+    def number(self, key: str, default=_MISSING, *, positive=False):
+        value = self._get(key, default)
+        if value is None:
+            return None
+        if isinstance(value, bool) or not isinstance(value, (int, float)):
+            raise InputError(f"{self.key(key)} = {value!r}: expected a plain number")
+        if not math.isfinite(value) or (positive and value <= 0):
+            raise InputError(f"{self.key(key)} = {value!r}: must be a finite number above zero")
+        return float(value)
+
+    def string(self, key: str, default=_MISSING, *, choices=None):
+        value = self._get(key, default)
+        if value is None:
+            return None
+        if not isinstance(value, str) or not value.strip():
+            raise InputError(f"{self.key(key)} = {value!r}: expected a text value")
+        if choices is not None:
+            norm = value.strip().lower()
+            if norm not in choices:
+                hint = _suggest(norm, choices)
+                raise InputError(
+                    f"{self.key(key)} = {value!r}: expected one of {', '.join(choices)}{hint}"
+                )
+            return norm
+        return value.strip()
+
+    def boolean(self, key: str, default=_MISSING) -> bool:
+        value = self._get(key, default)
+        if not isinstance(value, bool):
+            raise InputError(f"{self.key(key)} = {value!r}: expected true or false")
+        return value
+
+    def path(self, key: str, default=_MISSING, *, must_exist=True) -> Path | None:
+        value = self._get(key, default)
+        if value is None:
+            return None
+        return self._one_path(key, value, must_exist)
+
+    def paths(self, key: str) -> tuple[Path, ...]:
+        """A path, a list of paths, a folder (its rasters) or a glob pattern."""
+        value = self._get(key, _MISSING)
+        items = value if isinstance(value, list) else [value]
+        if not items:
+            raise InputError(f"{self.key(key)}: the list is empty")
+        out: list[Path] = []
+        for item in items:
+            if isinstance(item, str) and any(c in item for c in "*?["):
+                pattern = item if Path(item).is_absolute() else str(self.base_dir / item)
+                found = sorted(Path(p) for p in glob.glob(pattern))
+                if not found:
+                    raise InputError(f"{self.key(key)} = {item!r}: the pattern matches no file")
+                out.extend(found)
+                continue
+            p = self._one_path(key, item, True)
+            if p.is_dir():
+                found = sorted(
+                    q for q in p.iterdir() if q.suffix.lower() in (".tif", ".tiff", ".vrt")
+                )
+                if not found:
+                    raise InputError(f"{self.key(key)} = {item!r}: the folder holds no .tif or .vrt file")
+                out.extend(found)
+            else:
+                out.append(p)
+        return tuple(out)
+
+    def _one_path(self, key: str, value, must_exist: bool) -> Path:
+        if not isinstance(value, str) or not value.strip():
+            raise InputError(f"{self.key(key)} = {value!r}: expected a file path as text")
+        p = Path(value).expanduser()
+        if not p.is_absolute():
+            p = self.base_dir / p
+        if must_exist and not p.exists():
+            raise InputError(f"{self.key(key)} = {value!r}: file not found ({p})")
+        return p
+
+    def finish(self) -> None:
+        unknown = sorted(set(self.table) - self.known)
+        if unknown:
+            bad = unknown[0]
+            hint = _suggest(bad, sorted(self.known))
+            raise InputError(f"{self.file.name}: unknown key {self.key(bad)}{hint}")
+
+
+def _suggest(word: str, choices) -> str:
+    close = difflib.get_close_matches(word, list(choices), n=1, cutoff=0.5)
+    return f" (did you mean {close[0]!r}?)" if close else ""
+
+
+# --------------------------------------------------------------------------
+# Sections
+# --------------------------------------------------------------------------
+
+FRICTION_METHODS = ("darcy-weisbach", "hazen-williams")
+SECTIONS = ("alignment", "terrain", "pipe", "cover", "crossings", "hydraulics", "checks",
+            "output")
+
+
+def _read_alignment(s: Section) -> AlignmentConfig:
+    return AlignmentConfig(
+        path=s.path("path"),
+        spacing=s.quantity("spacing", "length", positive=True),
+        layer=s.string("layer", None),
+        reverse=s.boolean("reverse", False),
+    )
+
+
+def _read_terrain(s: Section) -> TerrainConfig:
+    from .terrain import vertical_unit_factor
+
+    unit = s.string("vertical_unit", "m")
+    vertical_unit_factor(unit, s.key("vertical_unit"))  # validate early
+    return TerrainConfig(dem=s.paths("dem"), vertical_unit=unit)
+
+
+def _read_pipe(s: Section) -> PipeConfig:
+    inside = s.quantity("inside_diameter", "length", positive=True)
+    outside = s.quantity("outside_diameter", "length", positive=True)
+    if outside < inside:
+        raise InputError(
+            f"{s.key('outside_diameter')} = {s.table['outside_diameter']!r}: smaller than "
+            f"{s.key('inside_diameter')} = {s.table['inside_diameter']!r}"
+        )
+    method = s.string("friction", "darcy-weisbach", choices=FRICTION_METHODS)
+    roughness = s.quantity("roughness", "length", None, minimum=0.0)
+    c = s.number("hazen_williams_c", None, positive=True)
+    if method == "darcy-weisbach" and roughness is None:
+        raise InputError(f"{s.file.name}: missing required key {s.key('roughness')} "
+                         f"(needed for friction = \"darcy-weisbach\"), e.g. roughness = \"0.1 mm\"")
+    if method == "hazen-williams" and c is None:
+        raise InputError(f"{s.file.name}: missing required key {s.key('hazen_williams_c')} "
+                         f"(needed for friction = \"hazen-williams\"), e.g. hazen_williams_c = 130")
+    return PipeConfig(inside, outside, method, roughness, c)
+
+
+def _read_cover(s: Section) -> CoverConfig:
+    return CoverConfig(minimum=s.quantity("minimum", "length", minimum=0.0))
+
+
+def _read_crossing(s: Section) -> CrossingLayerConfig:
+    return CrossingLayerConfig(
+        path=s.path("path"),
+        bottom_field=s.string("bottom_field"),
+        clearance=s.quantity("clearance", "length", minimum=0.0),
+        layer=s.string("layer", None),
+        key=s.name,
+    )
+
+
+def _read_hydraulics(s: Section) -> HydraulicsConfig:
+    temperature = s.quantity("temperature", "temperature", "15 degC")
+    if not 273.15 <= temperature <= 313.15:
+        raise InputError(
+            f"{s.key('temperature')} = {s.table.get('temperature')!r}: outside 0-40 degC, "
+            "the range of the water property correlations"
+        )
+    return HydraulicsConfig(
+        source_head=s.quantity("source_head", "length"),
+        flow=s.quantity("flow", "flow", minimum=0.0),
+        temperature=temperature,
+    )
+
+
+def _read_checks(s: Section) -> Thresholds:
+    d = Thresholds()
+    return Thresholds(
+        min_pressure=s.quantity("min_pressure", "pressure", f"{d.min_pressure} Pa"),
+        max_pressure=s.quantity("max_pressure", "pressure", f"{d.max_pressure} Pa"),
+        min_velocity=s.quantity("min_velocity", "velocity", f"{d.min_velocity} m/s", minimum=0.0),
+        max_velocity=s.quantity("max_velocity", "velocity", f"{d.max_velocity} m/s", minimum=0.0),
+    )
+
+
+def _read_output(s: Section) -> OutputConfig:
+    return OutputConfig(
+        dir=s.path("dir", None, must_exist=False),
+        units=s.string("units", "si", choices=("si", "us")).upper(),
+    )
+
+
+def load(path) -> Project:
+    """Read and check a project file; every error names the file and key.
+
+    >>> load("no-such-project.toml")
+    Traceback (most recent call last):
+    ...
+    gisgrade.errors.InputError: no-such-project.toml: project file not found
+    """
+    file = Path(path)
+    if not file.is_file():
+        raise InputError(f"{file}: project file not found")
+    try:
+        with open(file, "rb") as fh:
+            data = tomllib.load(fh)
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(f"{file.name}: not valid TOML ({exc})") from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise InputError(f"{file.name}: cannot read ({exc})") from None
+
+    file = file.resolve()
+    base = file.parent
+
+    unknown = [k for k in data if k not in SECTIONS]
+    if unknown:
+        raise InputError(f"{file.name}: unknown section [{unknown[0]}]{_suggest(unknown[0], SECTIONS)}")
+
+    def section(name: str, reader, required=True):
+        if name not in data:
+            if not required:
+                return reader(Section({}, name, base, file))
+            raise InputError(f"{file.name}: missing required section [{name}]")
+        sec = Section(data[name], name, base, file)
+        out = reader(sec)
+        sec.finish()
+        return out
+
+    raw_crossings = data.get("crossings", [])
+    if isinstance(raw_crossings, dict):
+        raw_crossings = [raw_crossings]
+    if not isinstance(raw_crossings, list):
+        raise InputError(f"{file.name}: [[crossings]] must be a list of tables")
+    crossings = []
+    for i, table in enumerate(raw_crossings):
+        sec = Section(table, f"crossings[{i}]", base, file)
+        crossings.append(_read_crossing(sec))
+        sec.finish()
+
+    return Project(
+        path=file,
+        alignment=section("alignment", _read_alignment),
+        terrain=section("terrain", _read_terrain),
+        pipe=section("pipe", _read_pipe),
+        cover=section("cover", _read_cover),
+        hydraulics=section("hydraulics", _read_hydraulics),
+        crossings=tuple(crossings),
+        checks=section("checks", _read_checks, required=False),
+        output=section("output", _read_output, required=False),
+    )
