@@ -212,34 +212,37 @@ def working_crs(crs: pyproj.CRS, lon: float, lat: float) -> pyproj.CRS:
     return pyproj.CRS.from_epsg((32600 if lat >= 0 else 32700) + zone)
 
 
-def merge_parts(geom, key: str, file: str) -> LineString:
+def merge_parts(geom, key: str, file: str, distance=None, unit="CRS units") -> LineString:
     """One LineString from a (Multi)LineString whose parts touch end to end.
 
     Parts are joined in the order given (a part may be reversed to meet its
     neighbour). Parts that do not touch are an input error naming where the
-    gap is and how wide it is (in the geometry's own units).
+    gap is and how wide it is; ``distance(a, b)`` measures it (planar by
+    default, in ``unit``).
     """
     if isinstance(geom, LineString):
         return geom
     if not isinstance(geom, MultiLineString):
         raise InputError(f"{key}: {file} holds a {geom.geom_type}, expected a LineString")
+    distance = distance or (lambda a, b: float(np.hypot(*(a - b))))
     parts = [np.asarray(p.coords)[:, :2] for p in geom.geoms if not p.is_empty]
     line = parts[0]
+    scale = max(1.0, float(np.abs(np.vstack(parts)).max()))
     for i, part in enumerate(parts[1:], start=1):
+        # (end of the line so far, end of the part, flip line?, flip part?)
         ends = [(line[-1], part[0], False, False), (line[-1], part[-1], False, True),
                 (line[0], part[0], True, False), (line[0], part[-1], True, True)]
         if i > 1:  # only the first part may be flipped to meet the second
             ends = ends[:2]
-        gaps = [float(np.hypot(*(a - b))) for a, b, _, _ in ends]
-        j = int(np.argmin(gaps))
-        tol = 1e-9 * max(1.0, float(np.abs(line).max()))
-        if gaps[j] > tol:
-            a = ends[0][0]
+        planar = [float(np.hypot(*(a - b))) for a, b, _, _ in ends]
+        j = int(np.argmin(planar))
+        a, b, flip_line, flip_part = ends[j]
+        if planar[j] > 1e-9 * scale:
+            mid = (a + b) / 2
             raise InputError(
                 f"{key}: {file}: part {i + 1} of the multipart line does not touch part {i} "
-                f"(gap of {gaps[0]:.3f} CRS units at {a[0]:.6f}, {a[1]:.6f})"
+                f"(gap of {distance(a, b):.3f} {unit} at {mid[0]:.6f}, {mid[1]:.6f})"
             )
-        _, _, flip_line, flip_part = ends[j]
         if flip_line:
             line = line[::-1]
         if flip_part:
@@ -271,16 +274,20 @@ def read_alignment(path: Path, *, layer=None, reverse=False, where=None,
             )
         geom = merged
         notes.append(f"{len(gdf)} features in {path.name} joined end to end into one centerline")
-    line = merge_parts(geom, key, path.name)
-    if line.length == 0:
-        raise InputError(f"{key}: {path.name}: the centerline has zero length")
-
     src = pyproj.CRS.from_user_input(gdf.crs)
     geo = src.geodetic_crs or pyproj.CRS.from_epsg(4326)
     to_geo = pyproj.Transformer.from_crs(src, geo, always_xy=True)
+    geod = geo.get_geod() or pyproj.Geod(ellps="WGS84")
+
+    def metres(a, b):  # geodesic distance between two points in the source CRS
+        lon, lat = to_geo.transform([a[0], b[0]], [a[1], b[1]])
+        return float(geod.line_length(lon, lat))
+
+    line = merge_parts(geom, key, path.name, metres, "m")
+    if line.length == 0:
+        raise InputError(f"{key}: {path.name}: the centerline has zero length")
     coords = np.asarray(line.coords)[:, :2]
     lon, lat = to_geo.transform(coords[:, 0], coords[:, 1])
-    geod = geo.get_geod() or pyproj.Geod(ellps="WGS84")
     geodesic = float(geod.line_length(lon, lat))
 
     work = working_crs(src, float(np.mean(lon)), float(np.mean(lat)))

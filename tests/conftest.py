@@ -1,0 +1,89 @@
+"""Shared fixtures: a small synthetic project made in a temporary folder.
+
+The data here are invented for the tests (a plane or gentle valley in a UTM
+zone); checks compare against outside sources named in each test.
+"""
+from __future__ import annotations
+
+import json
+import shutil
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+DEMO = Path(__file__).resolve().parents[1] / "gisgrade" / "data" / "demo"
+
+UTM = "EPSG:32633"
+
+
+def write_dem(path, z, x0=500_000.0, y0=4_650_000.0, cell=10.0, crs=UTM, nodata=None,
+              dtype="float32", scale=None, offset=None):
+    """Write grid ``z`` (row 0 = north edge) as a GeoTIFF with top-left corner (x0, y0)."""
+    import rasterio
+    from rasterio.transform import from_origin
+
+    profile = dict(driver="GTiff", width=z.shape[1], height=z.shape[0], count=1, dtype=dtype,
+                   crs=crs, transform=from_origin(x0, y0, cell, cell), nodata=nodata)
+    with rasterio.open(path, "w", **profile) as dst:
+        dst.write(z.astype(dtype), 1)
+        if scale is not None or offset is not None:
+            dst.scales = (scale or 1.0,)
+            dst.offsets = (offset or 0.0,)
+    return path
+
+
+def write_lines(path, lines, crs=UTM, props=None):
+    """Write LineString features (lists of (x, y)) as GeoJSON with a named CRS."""
+    feats = []
+    for i, coords in enumerate(lines):
+        feats.append({"type": "Feature", "properties": (props or [{}] * len(lines))[i],
+                      "geometry": {"type": "LineString", "coordinates": [list(c) for c in coords]}})
+    doc = {"type": "FeatureCollection", "features": feats}
+    if crs != "EPSG:4326":
+        epsg = crs.split(":")[1]
+        doc["crs"] = {"type": "name", "properties": {"name": f"urn:ogc:def:crs:EPSG::{epsg}"}}
+    Path(path).write_text(json.dumps(doc))
+    return path
+
+
+PROJECT = """\
+[alignment]
+path = "line.geojson"
+spacing = "10 m"
+
+[terrain]
+dem = "dem.tif"
+
+[pipe]
+inside_diameter = "300 mm"
+outside_diameter = "320 mm"
+friction = "darcy-weisbach"
+roughness = "0.1 mm"
+
+[cover]
+minimum = "1.2 m"
+
+[hydraulics]
+source_head = "200 m"
+flow = "50 L/s"
+temperature = "15 degC"
+"""
+
+
+@pytest.fixture
+def flat_project(tmp_path):
+    """A 1 km straight line over flat ground at 100 m (grid 200 x 200 cells of 10 m)."""
+    z = np.full((200, 200), 100.0)
+    write_dem(tmp_path / "dem.tif", z)
+    write_lines(tmp_path / "line.geojson", [[(500_100.0, 4_649_000.0), (501_100.0, 4_649_000.0)]])
+    (tmp_path / "project.toml").write_text(PROJECT)
+    return tmp_path / "project.toml"
+
+
+@pytest.fixture
+def demo_copy(tmp_path):
+    """A writable copy of the bundled demo project."""
+    dst = tmp_path / "demo"
+    shutil.copytree(DEMO, dst)
+    return dst / "project.toml"

@@ -1,0 +1,108 @@
+"""Alignment: stationing, CRS choice, crossings located on the line."""
+import math
+
+import numpy as np
+import pyproj
+import pytest
+from shapely.geometry import LineString, MultiLineString
+
+from gisgrade import alignment as al
+from gisgrade.errors import InputError
+from gisgrade.project import CrossingLayerConfig
+
+from conftest import write_lines
+
+
+def test_stations_hold_spacing_vertices_and_end():
+    # Exact by construction: 3-4-5 triangle legs (Pythagoras).
+    coords = np.array([[0.0, 0.0], [30.0, 40.0], [30.0, 77.0]])
+    line = al.Alignment(LineString(coords), pyproj.CRS("EPSG:32633"), pyproj.CRS("EPSG:32633"),
+                        87.0, 87.0)
+    s, x, y, kind = al.stations(line, 20.0, al.Crossings.empty())
+    assert s.tolist() == [0.0, 20.0, 40.0, 50.0, 60.0, 80.0, 87.0]
+    assert kind[3] & al.VERTEX and kind[-1] & al.END and kind[0] & al.VERTEX
+    # station 20 lies on the first leg at 20/50 of (30, 40)
+    assert (x[1], y[1]) == pytest.approx((12.0, 16.0), abs=1e-12)
+    assert (x[4], y[4]) == pytest.approx((30.0, 50.0), abs=1e-12)
+
+
+def test_geographic_line_is_stationed_in_utm_and_matches_the_geodesic(tmp_path):
+    # Reference: pyproj.Geod (Karney 2013 geodesics on WGS 84). Over a few km
+    # the UTM grid length differs from the ground length only by the point
+    # scale factor, k0 = 0.9996 at the central meridian, rising to about
+    # 1.0010 at the zone edge (DMA TM 8358.2, 1989).
+    lonlat = [(8.30, 47.00), (8.33, 47.01), (8.36, 47.00), (8.40, 47.02)]
+    path = write_lines(tmp_path / "geo.geojson", [lonlat], crs="EPSG:4326")
+    line = al.read_alignment(path)
+    assert line.crs.to_epsg() == 32632  # UTM zone 32N holds 8.3 E (zone = floor((lon+180)/6)+1)
+    lon, lat = zip(*lonlat)
+    geod = pyproj.Geod(ellps="WGS84").line_length(lon, lat)
+    assert line.geodesic_length == pytest.approx(geod, rel=1e-9)
+    assert 0.9996 - 1e-5 < line.length / geod < 1.0010
+
+
+def test_reverse_turns_the_line(tmp_path):
+    path = write_lines(tmp_path / "l.geojson", [[(500000.0, 4649000.0), (500100.0, 4649000.0)]])
+    line = al.read_alignment(path, reverse=True)
+    assert line.coords[0].tolist() == [500100.0, 4649000.0]
+
+
+def test_multipart_lines_merge_in_order_and_gaps_are_errors():
+    parts = MultiLineString([[(0, 0), (10, 0)], [(10, 0), (20, 5)], [(30, 5), (20, 5)]])
+    merged = al.merge_parts(parts, "alignment.path", "x.geojson")
+    assert np.asarray(merged.coords).tolist() == [[0, 0], [10, 0], [20, 5], [30, 5]]
+    gap = MultiLineString([[(0, 0), (10, 0)], [(13, 4), (20, 5)]])
+    with pytest.raises(InputError, match=r"part 2 .*gap of 5\.000 CRS units at 11\.5"):
+        al.merge_parts(gap, "alignment.path", "x.geojson")  # 3-4-5 triangle
+
+
+def test_multipart_gap_in_lonlat_is_reported_in_metres(tmp_path):
+    # Reference: pyproj.Geod inverse on WGS 84 (Karney 2013) for the gap size.
+    import json
+    doc = {"type": "FeatureCollection", "features": [{"type": "Feature", "properties": {},
+           "geometry": {"type": "MultiLineString",
+                        "coordinates": [[[8.30, 47.0], [8.31, 47.0]], [[8.311, 47.0], [8.32, 47.0]]]}}]}
+    (tmp_path / "m.geojson").write_text(json.dumps(doc))
+    gap = pyproj.Geod(ellps="WGS84").inv(8.31, 47.0, 8.311, 47.0)[2]
+    with pytest.raises(InputError, match=rf"gap of {gap:.3f} m at 8\.3105"):
+        al.read_alignment(tmp_path / "m.geojson")
+
+
+def test_crossing_station_angle_and_bottom(tmp_path):
+    # Analytic: a line through (500060, 4649000) at 60 degrees to the x axis
+    # crosses the centerline y = 4649000 at x = 500060, station 60 m.
+    line_path = write_lines(tmp_path / "l.geojson", [[(500000.0, 4649000.0), (500200.0, 4649000.0)]])
+    t = math.tan(math.radians(60))
+    xing = write_lines(tmp_path / "x.geojson",
+                       [[(500060.0 - 10, 4649000.0 - 10 * t), (500060.0 + 10, 4649000.0 + 10 * t)],
+                        [(500300.0, 4648000.0), (500300.0, 4650000.0)]],  # misses the line
+                       props=[{"name": "old main", "bot": 95.5}, {"name": "far", "bot": 90.0}])
+    line = al.read_alignment(line_path)
+    cfg = CrossingLayerConfig(path=xing, bottom_field="bot", clearance=0.3, key="crossings[0]")
+    c = al.locate_crossings(line, [cfg], vertical_factor=0.3048)
+    assert len(c) == 1
+    assert c.station[0] == pytest.approx(60.0, abs=1e-9)
+    assert c.angle_deg[0] == pytest.approx(60.0, abs=1e-9)
+    assert c.bottom[0] == pytest.approx(95.5 * 0.3048)  # feet to metres (NIST SP 811)
+    s, *_ = al.stations(line, 25.0, c)
+    assert 60.0 in s.tolist()
+
+
+def test_crossing_bottom_field_must_exist(tmp_path):
+    line_path = write_lines(tmp_path / "l.geojson", [[(500000.0, 4649000.0), (500200.0, 4649000.0)]])
+    xing = write_lines(tmp_path / "x.geojson", [[(500050.0, 4648900.0), (500050.0, 4649100.0)]],
+                       props=[{"name": "a", "depth": 2.0}])
+    line = al.read_alignment(line_path)
+    cfg = CrossingLayerConfig(path=xing, bottom_field="bottom", clearance=0.3, key="crossings[0]")
+    with pytest.raises(InputError, match=r"crossings\[0\]\.bottom_field = 'bottom'.*depth"):
+        al.locate_crossings(line, [cfg])
+
+
+@pytest.mark.parametrize("station, units, label", [
+    (1250.0, "SI", "1+250.00"),     # metric km+m (common practice)
+    (381.0, "US", "12+50.00"),      # 1250 ft = 381 m exactly (0.3048 m/ft, NIST SP 811)
+    (0.004, "SI", "0+000.00"),
+    (99999.995, "SI", "100+000.00"),
+])
+def test_station_labels(station, units, label):
+    assert al.format_station([station], units)[0] == label
