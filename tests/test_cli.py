@@ -1,0 +1,128 @@
+"""The command line: the demo end to end, and the bad-input contract.
+
+Bad input must end with exit status 2, one line on stderr naming the file,
+key or value, no traceback, nothing written, and the inputs untouched.
+"""
+import hashlib
+import subprocess
+import sys
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from gisgrade.cli import main
+
+from conftest import write_dem, write_lines
+
+OUTPUTS = {"profile.csv", "gradelines.csv", "findings.csv", "bends.csv", "layers.gpkg",
+           "profile.png", "summary.json", "summary.txt"}
+
+
+def digest(folder):
+    return {p.name: hashlib.sha256(p.read_bytes()).hexdigest()
+            for p in sorted(folder.iterdir()) if p.is_file()}
+
+
+def test_version_and_help(capsys):
+    with pytest.raises(SystemExit) as e:
+        main(["--version"])
+    assert e.value.code == 0
+    assert capsys.readouterr().out.startswith("gisgrade ")
+    with pytest.raises(SystemExit):
+        main(["run", "--help"])
+    text = capsys.readouterr().out
+    assert "licensed professional engineer" in text and "example" in text
+
+
+def test_demo_writes_every_output(tmp_path, capsys):
+    out = tmp_path / "demo-out"
+    assert main(["demo", "-o", str(out)]) == 0
+    assert OUTPUTS <= {p.name for p in out.iterdir()}
+    assert not [p for p in tmp_path.iterdir() if p.name.startswith(".")]  # no temp folder left
+    profile = pd.read_csv(out / "profile.csv")
+    assert list(profile.columns[:8]) == ["station_m", "x", "y", "ground_m", "top_m", "axis_m",
+                                         "invert_m", "cover_m"]
+    grades = pd.read_csv(out / "gradelines.csv")
+    assert list(grades.columns) == ["scenario", "station_m", "flow_m3_s", "velocity_m_s", "hgl_m",
+                                    "egl_m", "pressure_kpa"]
+    assert set(grades["scenario"]) == {"design", "static"}
+    text = capsys.readouterr().out
+    assert "CAUTION" in text
+
+
+def test_demo_layers_are_readable(tmp_path):
+    import pyogrio
+
+    out = tmp_path / "o"
+    assert main(["demo", "-o", str(out), "-q"]) == 0
+    names = {row[0] for row in pyogrio.list_layers(out / "layers.gpkg")}
+    assert {"pipe_pieces", "crossings", "stations"} <= names
+    crossings = pyogrio.read_dataframe(out / "layers.gpkg", layer="crossings")
+    assert len(crossings) == 3
+    # The designed pipe meets the required clearance at every crossing.
+    assert (crossings["clearance_achieved_m"] >= crossings["clearance_required_m"] - 1e-6).all()
+
+
+def test_module_entry_point_runs_without_traceback(tmp_path):
+    proc = subprocess.run([sys.executable, "-m", "gisgrade", "run", str(tmp_path / "none.toml")],
+                          capture_output=True, text=True)
+    assert proc.returncode == 2
+    assert proc.stderr.count("\n") == 1 and "Traceback" not in proc.stderr
+    assert "none.toml" in proc.stderr
+
+
+def _edit(project, old, new):
+    text = project.read_text()
+    assert old in text, old
+    project.write_text(text.replace(old, new))
+
+
+def _points_file(path):
+    path.write_text('{"type": "FeatureCollection", "features": [{"type": "Feature", '
+                    '"properties": {}, "geometry": {"type": "Point", "coordinates": [8.3, 47.0]}}]}')
+
+
+BAD = {
+    "unknown key": (lambda p: _edit(p, 'spacing = "10 m"', 'spacng = "10 m"'), ["alignment.spacng", "spacing"]),
+    "bare number": (lambda p: _edit(p, 'flow = "60 L/s"', "flow = 60"), ["hydraulics.flow"]),
+    "wrong dimension": (lambda p: _edit(p, 'minimum = "1.2 m"', 'minimum = "1.2 L/s"'), ["cover.minimum"]),
+    "unknown unit": (lambda p: _edit(p, 'roughness = "0.1 mm"', 'roughness = "0.1 mmm"'), ["pipe.roughness", "mmm"]),
+    "missing key": (lambda p: _edit(p, 'source_head = "185.0 m"', ""), ["hydraulics.source_head"]),
+    "missing DEM": (lambda p: (p.parent / "dem.tif").unlink(), ["terrain.dem", "dem.tif"]),
+    "DEM not a raster": (lambda p: (p.parent / "dem.tif").write_bytes(b"not a tiff"), ["dem.tif"]),
+    "centerline of points": (lambda p: _points_file(p.parent / "centerline.geojson"), ["alignment.path", "Point"]),
+    "crossing field": (lambda p: _edit(p, 'bottom_field = "bottom_elev"', 'bottom_field = "invert"'),
+                       ["crossings[0].bottom_field", "invert"]),
+    "not TOML": (lambda p: p.write_text("[alignment\npath = 1"), ["project.toml", "TOML"]),
+    "bad vertical unit": (lambda p: _edit(p, 'vertical_unit = "m"', 'vertical_unit = "yards"'),
+                          ["terrain.vertical_unit", "yards"]),
+}
+
+
+@pytest.mark.parametrize("case", sorted(BAD))
+def test_bad_input_exits_2_names_the_culprit_and_writes_nothing(case, demo_copy, tmp_path, capsys):
+    breaker, words = BAD[case]
+    breaker(demo_copy)
+    before = digest(demo_copy.parent)
+    out = tmp_path / "out"
+    assert main(["run", str(demo_copy), "-o", str(out)]) == 2
+    err = capsys.readouterr().err
+    assert err.startswith("gisgrade: error: ") and err.count("\n") == 1, err
+    for w in words:
+        assert w in err, (w, err)
+    assert not out.exists()
+    assert not [p for p in tmp_path.iterdir() if p.name.startswith(".out")]
+    assert digest(demo_copy.parent) == before  # inputs never modified
+
+
+def test_line_outside_the_dem_is_an_input_error(tmp_path, capsys):
+    write_dem(tmp_path / "dem.tif", np.full((20, 20), 50.0))
+    # The DEM covers x 500000-500200; this line runs to 500400.
+    write_lines(tmp_path / "line.geojson", [[(500010.0, 4649900.0), (500400.0, 4649900.0)]])
+    from conftest import PROJECT
+    (tmp_path / "project.toml").write_text(PROJECT)
+    assert main(["run", str(tmp_path / "project.toml"), "-o", str(tmp_path / "o")]) == 2
+    err = capsys.readouterr().err
+    assert "terrain.dem" in err and err.count("\n") == 1
+    assert not (tmp_path / "o").exists()
