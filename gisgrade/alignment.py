@@ -169,13 +169,14 @@ def crossing_angle(a: np.ndarray, b: np.ndarray) -> np.ndarray:
 # --------------------------------------------------------------------------
 
 
-def read_vector(path: Path, key: str, layer=None, where=None):
+def read_vector(path: Path, key: str, layer=None, where=None, fids=None):
     """Read a GeoJSON/GeoPackage layer as a GeoDataFrame, errors naming the file."""
     import geopandas as gpd
     import pyogrio
 
+    extra = {"fids": fids} if fids is not None else {}
     try:
-        gdf = gpd.read_file(path, layer=layer, where=where, engine="pyogrio")
+        gdf = gpd.read_file(path, layer=layer, where=where, engine="pyogrio", **extra)
     except (pyogrio.errors.DataSourceError, pyogrio.errors.DataLayerError) as exc:
         raise InputError(f"{key}: cannot read {path.name} ({_first_line(exc)})") from None
     except Exception as exc:  # GDAL raises a variety of errors for bad SQL or files
@@ -251,17 +252,21 @@ def merge_parts(geom, key: str, file: str, distance=None, unit="CRS units") -> L
     return LineString(line)
 
 
-def read_alignment(path: Path, *, layer=None, reverse=False, where=None,
+def read_alignment(path: Path, *, layer=None, reverse=False, where=None, feature=None,
                    start_station=0.0, key="alignment.path") -> Alignment:
     """Read the centerline and put it in its working CRS, in flow direction.
 
-    One feature is expected. If the layer holds several and they join end to
-    end into one line, they are merged (noted); otherwise the user must pick
-    one (an input error says how many there are).
+    One feature is expected; ``where`` (an attribute filter) or ``feature``
+    (a feature id) picks one from a layer of several routes. If several
+    remain and they join end to end into one line, they are merged (noted);
+    otherwise the user must pick one (an input error says how many there are).
     """
-    gdf = read_vector(path, key, layer=layer, where=where)
+    gdf = read_vector(path, key, layer=layer, where=where,
+                      fids=None if feature is None else [feature])
     if len(gdf) == 0:
-        raise InputError(f"{key}: {path.name} holds no line features")
+        chosen = (f" matching alignment.where = {where!r}" if where else
+                  f" with alignment.feature = {feature}" if feature is not None else "")
+        raise InputError(f"{key}: {path.name} holds no line feature{chosen}")
     notes = []
     if len(gdf) == 1:
         geom = gdf.geometry.iloc[0]
@@ -269,8 +274,8 @@ def read_alignment(path: Path, *, layer=None, reverse=False, where=None,
         merged = shapely.line_merge(shapely.union_all(gdf.geometry.values))
         if not isinstance(merged, LineString):
             raise InputError(
-                f"{key}: {path.name} holds {len(gdf)} separate lines; keep one route per "
-                f"file or layer (alignment.layer selects a layer)"
+                f"{key}: {path.name} holds {len(gdf)} separate lines; choose one with "
+                f"alignment.where (an attribute filter) or alignment.feature (a feature id)"
             )
         geom = merged
         notes.append(f"{len(gdf)} features in {path.name} joined end to end into one centerline")
@@ -379,7 +384,7 @@ def stations(alignment: Alignment, spacing: float, crossings: Crossings):
     return s, x, y, kind
 
 
-def format_station(station_m, units: str = "SI") -> np.ndarray:
+def format_station(station_m, units: str = "SI", decimals: int = 2) -> np.ndarray:
     """Station labels in the trade's formats.
 
     SI: kilometres + metres (``1+250.00``); US: hundreds of feet + feet
@@ -389,14 +394,18 @@ def format_station(station_m, units: str = "SI") -> np.ndarray:
     ['0+000.00', '1+250.00', '0+012.35']
     >>> format_station([381.0], "US").tolist()
     ['12+50.00']
+    >>> format_station([1500.0], decimals=0).tolist()
+    ['1+500']
     """
     s = np.asarray(station_m, dtype=float)
     if units.upper() == "US":
-        value, unit, width = s / 0.3048, 100.0, 5
+        value, unit, width = s / 0.3048, 100, 2
     else:
-        value, unit, width = s, 1000.0, 6
-    cents = np.round(np.abs(value) * 100).astype(np.int64)
-    major, minor = np.divmod(cents, int(unit * 100))
+        value, unit, width = s, 1000, 3
+    scale = 10 ** decimals
+    ticks = np.round(np.abs(value) * scale).astype(np.int64)
+    major, minor = np.divmod(ticks, unit * scale)
     sign = np.where(value < 0, "-", "")
-    out = [f"{sg}{M}+{m / 100:0{width}.2f}" for sg, M, m in zip(sign, major, minor)]
+    width += decimals + (1 if decimals else 0)
+    out = [f"{sg}{M}+{m / scale:0{width}.{decimals}f}" for sg, M, m in zip(sign, major, minor)]
     return np.asarray(out, dtype=object)

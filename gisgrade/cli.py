@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import argparse
 import sys
+import textwrap
 from importlib import resources
 from pathlib import Path
 
@@ -21,13 +22,14 @@ clearance, the hydraulic and energy grade lines (HGL, EGL) for the design
 flow, and where pressure is too low, too high or below atmospheric. It writes
 tables (CSV), map layers (GeoPackage), a profile plot (PNG) and a summary.
 
-CAUTION: {CAUTIONS}
+{textwrap.fill("CAUTION: " + CAUTIONS, 78)}
 """
 
 EXAMPLES = """\
 examples:
   gisgrade demo -o demo-out          run the bundled invented scenario
   gisgrade run project.toml -o out   run your own project file
+  gisgrade profile project.toml      the ground profile alone (no pipe data needed)
 """
 
 
@@ -39,30 +41,39 @@ def build_parser() -> argparse.ArgumentParser:
     parser.add_argument("--version", action="version", version=f"gisgrade {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
 
-    run = sub.add_parser(
-        "run", help="run every stage on a project file and write the outputs",
-        description="Run every stage on PROJECT (TOML) and write profile.csv, gradelines.csv, "
-                    "findings.csv, bends.csv, layers.gpkg, profile.png and summary files.\n\n"
-                    f"CAUTION: {CAUTIONS}",
-        epilog="example:\n  gisgrade run project.toml -o out",
-        formatter_class=argparse.RawDescriptionHelpFormatter,
-    )
-    run.add_argument("project", type=Path, help="the project file (TOML)")
-    run.add_argument("-o", "--outdir", type=Path, default=None,
-                     help="output folder (default: [output] dir, else gisgrade-out beside PROJECT)")
-    run.add_argument("-q", "--quiet", action="store_true", help="print nothing on success")
-
-    demo = sub.add_parser(
-        "demo", help="run the bundled invented demo scenario (Sallow Creek)",
-        description="Run the bundled demo project, an invented scenario with a synthetic DEM.\n\n"
-                    f"CAUTION: {CAUTIONS}",
-        epilog="example:\n  gisgrade demo -o demo-out",
-        formatter_class=argparse.RawDescriptionHelpFormatter,
-    )
-    demo.add_argument("-o", "--outdir", type=Path, default=Path("gisgrade-demo"),
-                      help="output folder (default: ./gisgrade-demo)")
-    demo.add_argument("-q", "--quiet", action="store_true", help="print nothing on success")
+    _command(sub, "run", "run every stage on a project file and write the outputs",
+             "Run every stage on PROJECT (TOML) and write profile.csv, gradelines.csv, "
+             "findings.csv, bends.csv, layers.gpkg, profile.png and summary files.",
+             "gisgrade run project.toml -o out")
+    _command(sub, "profile",
+             "the ground profile alone, for screening routes before pipe data exist",
+             "Station the centerline and sample the ground along it; write profile.csv, "
+             "layers.gpkg (stations and crossings), profile.png and summary files. Only "
+             "[alignment] and [terrain] are needed in PROJECT.",
+             "gisgrade profile project.toml -o ground")
+    _command(sub, "demo", "run the bundled invented demo scenario (Sallow Creek)",
+             "Run the bundled demo project, an invented scenario on a synthetic DEM.",
+             "gisgrade demo -o demo-out", project=False)
     return parser
+
+
+def _command(sub, name, summary, description, example, project=True):
+    """One subcommand with its description, the cautions and a runnable example."""
+    cmd = sub.add_parser(
+        name, help=summary,
+        description=textwrap.fill(description, 78) + "\n\n" + textwrap.fill("CAUTION: " + CAUTIONS, 78),
+        epilog=f"example:\n  {example}", formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    if project:
+        cmd.add_argument("project", type=Path, help="the project file (TOML)")
+        cmd.add_argument("-o", "--outdir", type=Path, default=None,
+                         help="output folder (default: [output] dir, else gisgrade-out beside "
+                              "PROJECT)")
+    else:
+        cmd.add_argument("-o", "--outdir", type=Path, default=Path("gisgrade-demo"),
+                         help="output folder (default: ./gisgrade-demo)")
+    cmd.add_argument("-q", "--quiet", action="store_true", help="print nothing on success")
+    return cmd
 
 
 def demo_project() -> Path:
@@ -77,13 +88,18 @@ def main(argv=None) -> int:
         parser.print_help()
         return 2
     from .output import summary_text
-    from .pipeline import resolve_outdir, run
+    from .pipeline import resolve_outdir, run, run_ground
     from .project import load
 
     try:
-        project = load(demo_project() if args.command == "demo" else args.project)
-        outdir = resolve_outdir(project, args.outdir)
-        result = run(project, outdir)
+        if args.command == "profile":
+            project = load(args.project, ground_only=True)
+            outdir = resolve_outdir(project, args.outdir)
+            result = run_ground(project, outdir)
+        else:
+            project = load(demo_project() if args.command == "demo" else args.project)
+            outdir = resolve_outdir(project, args.outdir)
+            result = run(project, outdir)
     except InputError as exc:
         print(f"gisgrade: error: {exc}", file=sys.stderr)
         return 2

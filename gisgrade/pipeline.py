@@ -28,11 +28,12 @@ class Result:
     alignment: al.Alignment
     crossings: al.Crossings
     table: pd.DataFrame  # one row per station: geometry, ground, pipe
-    gradelines: pd.DataFrame  # one row per scenario and station
-    findings: pd.DataFrame
-    bends: pd.DataFrame
+    gradelines: pd.DataFrame | None = None  # one row per scenario and station
+    findings: pd.DataFrame | None = None
+    bends: pd.DataFrame | None = None
     relaxations: list = field(default_factory=list)
     summary: dict = field(default_factory=dict)
+    profile: object = None  # design.PipeProfile
 
 
 # --------------------------------------------------------------------------
@@ -45,7 +46,8 @@ def stage_alignment(project: Project):
     from .terrain import vertical_unit_factor
 
     cfg = project.alignment
-    line = al.read_alignment(cfg.path, layer=cfg.layer, reverse=cfg.reverse)
+    line = al.read_alignment(cfg.path, layer=cfg.layer, reverse=cfg.reverse, where=cfg.where,
+                             feature=cfg.feature, start_station=cfg.start_station)
     vfac = vertical_unit_factor(project.terrain.vertical_unit)
     crossings = al.locate_crossings(line, project.crossings, vfac)
     s, x, y, kind = al.stations(line, cfg.spacing, crossings)
@@ -61,8 +63,24 @@ def stage_terrain(project: Project, line: al.Alignment, table: pd.DataFrame) -> 
     ground = sample_ground(
         list(cfg.dem), table["x"].to_numpy(), table["y"].to_numpy(), line.crs,
         station=table["station_m"].to_numpy(), vertical_unit=cfg.vertical_unit,
+        method=cfg.method, max_gap=cfg.max_gap,
     )
-    return table.assign(ground_m=ground.z, ground_bridged=ground.bridged)
+    table = table.assign(ground_m=ground.z, ground_bridged=ground.bridged)
+    if cfg.vertical_accuracy is not None:
+        table["ground_band_m"] = accuracy_95(cfg.vertical_accuracy)
+    return table
+
+
+def accuracy_95(rmse: float) -> float:
+    """Half-width (m) of the 95 % band of a DEM with vertical ``rmse`` (m).
+
+    Accuracy_z = 1.96 RMSE_z for normally distributed errors (FGDC-STD-007.3
+    NSSDA, 1998; ASPRS Positional Accuracy Standards, 2014).
+
+    >>> accuracy_95(0.15)
+    0.294
+    """
+    return round(1.96 * rmse, 12)
 
 
 def stage_design(project: Project, table: pd.DataFrame, crossings: al.Crossings):
@@ -158,12 +176,26 @@ def run(project, outdir=None, *, write: bool = True) -> Result:
     grades = stage_hydraulics(project, table, bends)
     found = stage_findings(project, table, grades)
     result = Result(project, line, crossings, table, grades, found, bends,
-                    list(profile.relaxations))
+                    list(profile.relaxations), profile=profile)
+    return _finish(result, outdir, write)
+
+
+def run_ground(project, outdir=None, *, write: bool = True) -> Result:
+    """Only the alignment and terrain stages: the ground profile for screening
+    a route before any pipe data exist (the ``profile`` command)."""
+    if not isinstance(project, Project):
+        project = load(project, ground_only=True)
+    line, crossings, table = stage_alignment(project)
+    table = stage_terrain(project, line, table)
+    return _finish(Result(project, line, crossings, table), outdir, write)
+
+
+def _finish(result: Result, outdir, write: bool) -> Result:
     from .output import summarize, write_all
 
-    result.summary = summarize(result, profile)
+    result.summary = summarize(result)
     if write:
-        write_all(result, resolve_outdir(project, outdir))
+        write_all(result, resolve_outdir(result.project, outdir))
     return result
 
 

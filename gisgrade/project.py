@@ -12,7 +12,6 @@ and its "did you mean" hint come for free), then to the section's dataclass.
 from __future__ import annotations
 
 import difflib
-import glob
 import math
 import sys
 from dataclasses import dataclass, field
@@ -39,12 +38,22 @@ class AlignmentConfig:
     spacing: float  # m
     layer: str | None = None
     reverse: bool = False
+    where: str | None = None  # attribute filter (OGR SQL WHERE clause)
+    feature: int | None = None  # feature id (FID) when a layer holds several routes
+    start_station: float = 0.0  # m, station of the first point
+
+
+#: Vertical accuracy (RMSE) by DEM kind, m (common practice, see docs/terrain.md).
+DEM_KIND_RMSE = {"lidar": 0.15, "national": 2.0, "global": 7.0}
 
 
 @dataclass(frozen=True)
 class TerrainConfig:
     dem: tuple[Path, ...]
     vertical_unit: str = "m"
+    method: str = "bilinear"
+    max_gap: float | None = None  # m; None: 3 cells of the finest DEM
+    vertical_accuracy: float | None = None  # m RMSE; None: not given
 
 
 @dataclass(frozen=True)
@@ -88,9 +97,9 @@ class Project:
     path: Path
     alignment: AlignmentConfig
     terrain: TerrainConfig
-    pipe: PipeConfig
-    cover: CoverConfig
-    hydraulics: HydraulicsConfig
+    pipe: PipeConfig | None
+    cover: CoverConfig | None
+    hydraulics: HydraulicsConfig | None
     crossings: tuple[CrossingLayerConfig, ...] = ()
     checks: Thresholds = field(default_factory=Thresholds)
     output: OutputConfig = field(default_factory=OutputConfig)
@@ -185,33 +194,6 @@ class Section:
             return None
         return self._one_path(key, value, must_exist)
 
-    def paths(self, key: str) -> tuple[Path, ...]:
-        """A path, a list of paths, a folder (its rasters) or a glob pattern."""
-        value = self._get(key, _MISSING)
-        items = value if isinstance(value, list) else [value]
-        if not items:
-            raise InputError(f"{self.key(key)}: the list is empty")
-        out: list[Path] = []
-        for item in items:
-            if isinstance(item, str) and any(c in item for c in "*?["):
-                pattern = item if Path(item).is_absolute() else str(self.base_dir / item)
-                found = sorted(Path(p) for p in glob.glob(pattern))
-                if not found:
-                    raise InputError(f"{self.key(key)} = {item!r}: the pattern matches no file")
-                out.extend(found)
-                continue
-            p = self._one_path(key, item, True)
-            if p.is_dir():
-                found = sorted(
-                    q for q in p.iterdir() if q.suffix.lower() in (".tif", ".tiff", ".vrt")
-                )
-                if not found:
-                    raise InputError(f"{self.key(key)} = {item!r}: the folder holds no .tif or .vrt file")
-                out.extend(found)
-            else:
-                out.append(p)
-        return tuple(out)
-
     def _one_path(self, key: str, value, must_exist: bool) -> Path:
         if not isinstance(value, str) or not value.strip():
             raise InputError(f"{self.key(key)} = {value!r}: expected a file path as text")
@@ -245,20 +227,40 @@ SECTIONS = ("alignment", "terrain", "pipe", "cover", "crossings", "hydraulics", 
 
 
 def _read_alignment(s: Section) -> AlignmentConfig:
+    feature = s._get("feature", None)
+    if feature is not None and (isinstance(feature, bool) or not isinstance(feature, int)):
+        raise InputError(f"{s.key('feature')} = {feature!r}: expected a whole-number feature id")
     return AlignmentConfig(
         path=s.path("path"),
         spacing=s.quantity("spacing", "length", positive=True),
         layer=s.string("layer", None),
         reverse=s.boolean("reverse", False),
+        where=s.string("where", None),
+        feature=feature,
+        start_station=s.quantity("start_station", "length", "0 m"),
     )
 
 
 def _read_terrain(s: Section) -> TerrainConfig:
-    from .terrain import vertical_unit_factor
+    from .terrain import resolve_dem_paths, vertical_unit_factor
 
     unit = s.string("vertical_unit", "m")
     vertical_unit_factor(unit, s.key("vertical_unit"))  # validate early
-    return TerrainConfig(dem=s.paths("dem"), vertical_unit=unit)
+    accuracy = s._get("vertical_accuracy", None)
+    if isinstance(accuracy, str) and accuracy.strip().lower() in DEM_KIND_RMSE:
+        accuracy = DEM_KIND_RMSE[accuracy.strip().lower()]
+    elif accuracy is not None:
+        try:
+            accuracy = s.quantity("vertical_accuracy", "length", minimum=0.0)
+        except InputError as exc:
+            raise InputError(f"{exc} (or a DEM kind: {', '.join(DEM_KIND_RMSE)})") from None
+    return TerrainConfig(
+        dem=tuple(resolve_dem_paths(s._get("dem", _MISSING), s.base_dir, s.key("dem"))),
+        vertical_unit=unit,
+        method=s.string("method", "bilinear", choices=("bilinear", "bicubic")),
+        max_gap=s.quantity("max_gap", "length", None, minimum=0.0),
+        vertical_accuracy=accuracy,
+    )
 
 
 def _read_pipe(s: Section) -> PipeConfig:
@@ -326,8 +328,11 @@ def _read_output(s: Section) -> OutputConfig:
     )
 
 
-def load(path) -> Project:
+def load(path, *, ground_only: bool = False) -> Project:
     """Read and check a project file; every error names the file and key.
+
+    With ``ground_only`` (the ``profile`` command) the pipe, cover and
+    hydraulics sections may be absent; if present they are still checked.
 
     >>> load("no-such-project.toml")
     Traceback (most recent call last):
@@ -355,7 +360,10 @@ def load(path) -> Project:
     def section(name: str, reader, required=True):
         if name not in data:
             if not required:
-                return reader(Section({}, name, base, file))
+                try:
+                    return reader(Section({}, name, base, file))
+                except InputError:  # an optional section with required keys
+                    return None
             raise InputError(f"{file.name}: missing required section [{name}]")
         sec = Section(data[name], name, base, file)
         out = reader(sec)
@@ -377,9 +385,9 @@ def load(path) -> Project:
         path=file,
         alignment=section("alignment", _read_alignment),
         terrain=section("terrain", _read_terrain),
-        pipe=section("pipe", _read_pipe),
-        cover=section("cover", _read_cover),
-        hydraulics=section("hydraulics", _read_hydraulics),
+        pipe=section("pipe", _read_pipe, required=not ground_only),
+        cover=section("cover", _read_cover, required=not ground_only),
+        hydraulics=section("hydraulics", _read_hydraulics, required=not ground_only),
         crossings=tuple(crossings),
         checks=section("checks", _read_checks, required=False),
         output=section("output", _read_output, required=False),

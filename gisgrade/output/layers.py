@@ -6,6 +6,9 @@
   friendly *cividis* colormap (Nuñez et al. 2018);
 - ``crossings``: one point per crossing with required and achieved clearance;
 - ``stations``: one point per station with ground, pipe and cover.
+
+The ground-only run (``gisgrade profile``) writes ``crossings`` and
+``stations`` without the pipe columns.
 """
 from __future__ import annotations
 
@@ -66,21 +69,23 @@ def pipe_pieces(result) -> "pd.DataFrame":
 def crossing_points(result) -> "pd.DataFrame":
     c = result.crossings
     t = result.table
-    s0 = t["station_m"].iloc[0]
-    station = c.station + s0
-    top = np.interp(station, t["station_m"], t["top_m"])
-    return pd.DataFrame({
+    station = c.station + t["station_m"].iloc[0]
+    frame = pd.DataFrame({
         "station_m": station, "name": c.name.astype(str), "layer": c.layer.astype(str),
         "angle_deg": c.angle_deg, "bottom_m": c.bottom, "clearance_required_m": c.clearance,
-        "top_of_pipe_m": top, "clearance_achieved_m": c.bottom - top,
-        "geometry": shapely.points(c.x, c.y),
+        "ground_m": np.interp(station, t["station_m"], t["ground_m"]),
     })
+    if "top_m" in t.columns:
+        frame["top_of_pipe_m"] = np.interp(station, t["station_m"], t["top_m"])
+        frame["clearance_achieved_m"] = c.bottom - frame["top_of_pipe_m"]
+    frame["geometry"] = shapely.points(c.x, c.y)
+    return frame
 
 
 def station_points(result) -> "pd.DataFrame":
     t = result.table
-    cols = [c for c in ("station_m", "ground_m", "top_m", "axis_m", "invert_m", "cover_m",
-                        "kind") if c in t.columns]
+    cols = [c for c in ("station_m", "ground_m", "ground_band_m", "ground_bridged", "top_m",
+                        "axis_m", "invert_m", "cover_m", "kind") if c in t.columns]
     frame = t[cols].copy()
     frame["geometry"] = shapely.points(t["x"].to_numpy(), t["y"].to_numpy())
     return frame
@@ -91,8 +96,11 @@ def write_layers(result, folder: Path) -> None:
 
     path = folder / "layers.gpkg"
     crs = result.alignment.crs
-    layers = {"pipe_pieces": pipe_pieces(result), "crossings": crossing_points(result),
-              "stations": station_points(result)}
+    layers = {}
+    if result.gradelines is not None:
+        layers["pipe_pieces"] = pipe_pieces(result)
+    layers["crossings"] = crossing_points(result)
+    layers["stations"] = station_points(result)
     for i, (name, frame) in enumerate(layers.items()):
         gdf = gpd.GeoDataFrame(frame, geometry="geometry", crs=crs)
         gdf.to_file(path, layer=name, driver="GPKG", engine="pyogrio",

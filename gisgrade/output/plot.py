@@ -45,12 +45,49 @@ def plot_profile(result, path: Path) -> None:
     zunit = "ft" if units == "US" else "m"
     t = result.table
     s = t["station_m"].to_numpy()
-    fig, (ax, axp) = plt.subplots(
-        2, 1, figsize=(13, 7.5), sharex=True, gridspec_kw=dict(height_ratios=[3, 1], hspace=0.08)
-    )
-    ax.plot(s, t["ground_m"] * k, label="ground", **GROUND)
-    ax.fill_between(s, t["invert_m"] * k, t["top_m"] * k, label="pipe (top to invert)", **PIPE_FILL)
+    hydraulic = result.gradelines is not None
+    if hydraulic:
+        fig, (ax, axp) = plt.subplots(2, 1, figsize=(13, 7.5), sharex=True,
+                                      gridspec_kw=dict(height_ratios=[3, 1], hspace=0.08))
+    else:
+        fig, ax = plt.subplots(figsize=(13, 5))
+        axp = ax
+    ground = t["ground_m"].to_numpy() * k
+    ax.plot(s, ground, label="ground", **GROUND)
+    if "ground_band_m" in t.columns:
+        band = t["ground_band_m"].to_numpy() * k
+        ax.fill_between(s, ground - band, ground + band, color=GROUND["color"], alpha=0.15, lw=0,
+                        label="ground 95 % band (DEM accuracy)")
+    if "ground_bridged" in t.columns and t["ground_bridged"].any():
+        b = t["ground_bridged"].to_numpy()
+        ax.scatter(s[b], ground[b], s=6, color="#b8412c", zorder=4, label="bridged over nodata")
+    if "top_m" in t.columns:
+        ax.fill_between(s, t["invert_m"] * k, t["top_m"] * k, label="pipe (top to invert)",
+                        **PIPE_FILL)
+    _crossings_and_bends(ax, result, s, k)
+    if hydraulic:
+        _grade_lines(ax, axp, result, s, k)
+    ax.set_ylabel(f"Elevation ({zunit})")
+    station_unit = "hundreds ft + ft" if units == "US" else "km + m"
+    axp.set_xlabel(f"Station ({station_unit})")
+    axp.xaxis.set_major_formatter(FuncFormatter(lambda v, _: format_station([v], units, 0)[0]))
+    ax.grid(True, lw=0.3, color="#cccccc")
+    ax.legend(loc="upper right", fontsize=7, ncol=3, framealpha=0.9)
+    ax.set_xlim(s[0], s[-1])
+    fig.canvas.draw()
+    # x is in metres; in US display y is in feet, so convert y back to metres.
+    ve = vertical_exaggeration(ax) / (FT if units == "US" else 1.0)
+    what = "profile" if hydraulic else "ground profile"
+    name = f"{result.project.path.parent.name}/{result.project.path.name}"
+    ax.set_title(f"{name}: {what} along the centerline "
+                 f"(vertical exaggeration {ve:.0f}x)", fontsize=10, loc="left")
+    fig.text(0.01, 0.005, SHORT, fontsize=7, color="#555555")
+    fig.savefig(path, dpi=130, bbox_inches="tight")
+    plt.close(fig)
 
+
+def _grade_lines(ax, axp, result, s, k) -> None:
+    """Each scenario's HGL and EGL on ``ax``, its pressure on the strip ``axp``."""
     plimit = result.project.checks
     flow_i = 0
     for name, g in result.gradelines.groupby("scenario", sort=False):
@@ -66,6 +103,21 @@ def plot_profile(result, path: Path) -> None:
         ax.plot(s, egl, color=colour, lw=1.0, ls="--", label=f"EGL {name}")
         axp.plot(s, p, color=colour, lw=1.4, label=name)
 
+    axp.axhspan(min(axp.get_ylim()[0], 0), 0, color="#d9534f", alpha=0.12, lw=0)
+    axp.axhline(plimit.min_pressure / 1e3, color="#d9534f", lw=0.8, ls="-.")
+    axp.axhline(plimit.max_pressure / 1e3, color="#8a6d3b", lw=0.8, ls="-.")
+    axp.text(s[0], plimit.min_pressure / 1e3, f" min {plimit.min_pressure / 1e3:.0f} kPa",
+             fontsize=7, va="bottom", color="#d9534f")
+    axp.text(s[0], plimit.max_pressure / 1e3, f" max {plimit.max_pressure / 1e3:.0f} kPa",
+             fontsize=7, va="bottom", color="#8a6d3b")
+    axp.set_ylabel("Pressure at axis (kPa)")
+    axp.grid(True, lw=0.3, color="#cccccc")
+    axp.legend(loc="upper right", fontsize=7, ncol=4, framealpha=0.9)
+
+
+def _crossings_and_bends(ax, result, s, k) -> None:
+    """Crossed features (bottom and required clearance) and vertical bends."""
+    t = result.table
     c = result.crossings
     if len(c):
         cs = c.station + s[0]
@@ -76,33 +128,8 @@ def plot_profile(result, path: Path) -> None:
         for x, z, name in zip(cs, c.bottom * k, c.name):
             ax.annotate(str(name), (x, z), xytext=(3, -12), textcoords="offset points",
                         fontsize=7, color="#222222")
-    if len(result.bends):
+    if result.bends is not None and len(result.bends):
         b = result.bends["station_m"].to_numpy()
         ax.scatter(b, np.interp(b, s, t["axis_m"]) * k, marker="D", s=14, color="#c7962a",
                    zorder=6, label="vertical bend")
 
-    axp.axhspan(min(axp.get_ylim()[0], 0), 0, color="#d9534f", alpha=0.12, lw=0)
-    axp.axhline(plimit.min_pressure / 1e3, color="#d9534f", lw=0.8, ls="-.")
-    axp.axhline(plimit.max_pressure / 1e3, color="#8a6d3b", lw=0.8, ls="-.")
-    axp.text(s[0], plimit.min_pressure / 1e3, f" min {plimit.min_pressure / 1e3:.0f} kPa",
-             fontsize=7, va="bottom", color="#d9534f")
-    axp.text(s[0], plimit.max_pressure / 1e3, f" max {plimit.max_pressure / 1e3:.0f} kPa",
-             fontsize=7, va="bottom", color="#8a6d3b")
-    axp.set_ylabel("Pressure at axis (kPa)")
-    ax.set_ylabel(f"Elevation ({zunit})")
-    station_unit = "hundreds ft + ft" if units == "US" else "km + m"
-    axp.set_xlabel(f"Station ({station_unit})")
-    axp.xaxis.set_major_formatter(FuncFormatter(lambda v, _: format_station([v], units)[0]))
-    ax.grid(True, lw=0.3, color="#cccccc")
-    axp.grid(True, lw=0.3, color="#cccccc")
-    ax.legend(loc="upper right", fontsize=7, ncol=3, framealpha=0.9)
-    axp.legend(loc="upper right", fontsize=7, ncol=4, framealpha=0.9)
-    ax.set_xlim(s[0], s[-1])
-    fig.canvas.draw()
-    # x is in metres; in US display y is in feet, so convert y back to metres.
-    ve = vertical_exaggeration(ax) / (FT if units == "US" else 1.0)
-    ax.set_title(f"{result.project.path.stem}: profile along the centerline "
-                 f"(vertical exaggeration {ve:.0f}x)", fontsize=10, loc="left")
-    fig.text(0.01, 0.005, SHORT, fontsize=7, color="#555555")
-    fig.savefig(path, dpi=130, bbox_inches="tight")
-    plt.close(fig)

@@ -10,7 +10,7 @@ from .. import __version__
 from ..cautions import CAUTIONS
 
 
-def summarize(result, profile=None) -> dict:
+def summarize(result) -> dict:
     """Key figures of a run, plain JSON-able values, SI units in the key names."""
     t = result.table
     s = t["station_m"].to_numpy()
@@ -26,26 +26,33 @@ def summarize(result, profile=None) -> dict:
         "last_station_m": float(s[-1]),
         "ground_min_m": float(t["ground_m"].min()),
         "ground_max_m": float(t["ground_m"].max()),
-        "cover_min_m": float(t["cover_m"].min()),
-        "cover_max_m": float(t["cover_m"].max()),
+        "ground_bridged_stations": int(t["ground_bridged"].sum()) if "ground_bridged" in t else 0,
+        "ground_band_95_m": float(t["ground_band_m"].iloc[0]) if "ground_band_m" in t else None,
         "notes": list(line.notes),
         "crossings": [
             {"name": str(n), "station_m": float(st + s[0]), "angle_deg": _num(a),
-             "clearance_required_m": float(c),
-             "clearance_achieved_m": float(b - np.interp(st + s[0], s, t["top_m"]))}
+             "bottom_m": float(b), "clearance_required_m": float(c)}
             for n, st, a, c, b in zip(result.crossings.name, result.crossings.station,
                                       result.crossings.angle_deg, result.crossings.clearance,
                                       result.crossings.bottom)
         ],
         "scenarios": [],
-        "findings": int(len(result.findings)),
-        "relaxations": [_plain(r) for r in result.relaxations],
-        "bends": int(len(result.bends)),
         "cautions": CAUTIONS,
     }
-    if profile is not None:
-        out["excavation_m3"] = float(profile.excavation_volume)
-        out["pipe_length_3d_m"] = float(profile.length_3d)
+    if "top_m" in t.columns:
+        out["cover_min_m"] = float(t["cover_m"].min())
+        out["cover_max_m"] = float(t["cover_m"].max())
+        for c in out["crossings"]:
+            c["clearance_achieved_m"] = c["bottom_m"] - float(np.interp(c["station_m"], s, t["top_m"]))
+    if result.profile is not None:
+        out["excavation_m3"] = float(result.profile.excavation_volume)
+        out["pipe_length_3d_m"] = float(result.profile.length_3d)
+        out["relaxations"] = [_plain(r) for r in result.relaxations]
+        out["bends"] = int(len(result.bends))
+    if result.findings is not None:
+        out["findings"] = int(len(result.findings))
+    if result.gradelines is None:
+        return out
     for name, g in result.gradelines.groupby("scenario", sort=False):
         p = g["pressure_kpa"].to_numpy()
         i, j = int(np.argmin(p)), int(np.argmax(p))
@@ -83,15 +90,20 @@ def summary_text(summary: dict) -> str:
     lines = [
         f"route: {summary['length_m']:.1f} m in {summary['working_crs']} "
         f"({summary['stations']} stations)",
-        f"ground: {summary['ground_min_m']:.2f} to {summary['ground_max_m']:.2f} m; "
-        f"cover {summary['cover_min_m']:.2f} to {summary['cover_max_m']:.2f} m",
+        f"ground: {summary['ground_min_m']:.2f} to {summary['ground_max_m']:.2f} m"
+        + (f" (95 % band +/- {summary['ground_band_95_m']:.2f} m)"
+           if summary.get("ground_band_95_m") is not None else ""),
     ]
+    if "cover_min_m" in summary:
+        lines.append(f"cover: {summary['cover_min_m']:.2f} to {summary['cover_max_m']:.2f} m")
+    if summary.get("ground_bridged_stations"):
+        lines.append(f"ground bridged over nodata at {summary['ground_bridged_stations']} stations")
     lines += [f"note: {n}" for n in summary["notes"]]
     for c in summary["crossings"]:
-        lines.append(
-            f"crossing {c['name']} at {format_station([c['station_m']])[0]}: clearance "
-            f"{c['clearance_achieved_m']:.2f} m (required {c['clearance_required_m']:.2f} m)"
-        )
+        achieved = (f"clearance {c['clearance_achieved_m']:.2f} m (required "
+                    f"{c['clearance_required_m']:.2f} m)" if "clearance_achieved_m" in c
+                    else f"bottom {c['bottom_m']:.2f} m")
+        lines.append(f"crossing {c['name']} at {format_station([c['station_m']])[0]}: {achieved}")
     for sc in summary["scenarios"]:
         lines.append(
             f"{sc['scenario']}: {sc['flow_m3_s'] * 1e3:.1f} L/s, pressure "
@@ -103,9 +115,10 @@ def summary_text(summary: dict) -> str:
     if "excavation_m3" in summary:
         lines.append(f"trench excavation below the minimum-cover line: {summary['excavation_m3']:.1f} m3; "
                      f"pipe length (3D) {summary['pipe_length_3d_m']:.1f} m")
-    lines.append(f"findings: {summary['findings']}; bends: {summary['bends']}; "
-                 f"rules relaxed: {len(summary['relaxations'])}")
-    for r in summary["relaxations"]:
+    if "findings" in summary:
+        lines.append(f"findings: {summary['findings']}; bends: {summary['bends']}; "
+                     f"rules relaxed: {len(summary['relaxations'])}")
+    for r in summary.get("relaxations", []):
         lines.append(f"relaxed: {r.get('message', r) if isinstance(r, dict) else r}")
     lines.append("CAUTION: " + summary["cautions"])
     return "\n".join(lines)

@@ -14,11 +14,15 @@ def write_tables(result, folder: Path) -> None:
     from ..alignment import format_station
 
     table = result.table
-    extra = [c for c in ("ground_bridged", "reason") if c in table.columns]
-    profile = table[PROFILE_COLUMNS + extra].copy()
+    columns = [c for c in PROFILE_COLUMNS if c in table.columns]  # ground only: no pipe
+    extra = [c for c in ("ground_band_m", "ground_bridged", "reason") if c in table.columns]
+    profile = table[columns + extra].copy()
     profile["station"] = format_station(table["station_m"], result.project.output.units)
     profile.to_csv(folder / "profile.csv", index=False, float_format="%.4f")
-    result.gradelines[GRADELINE_COLUMNS].to_csv(folder / "gradelines.csv", index=False,
-                                                float_format="%.6g")
-    result.findings.to_csv(folder / "findings.csv", index=False, float_format="%.4f")
-    result.bends.to_csv(folder / "bends.csv", index=False, float_format="%.4f")
+    if result.gradelines is not None:
+        result.gradelines[GRADELINE_COLUMNS].to_csv(folder / "gradelines.csv", index=False,
+                                                    float_format="%.6g")
+    if result.findings is not None:
+        result.findings.to_csv(folder / "findings.csv", index=False, float_format="%.4f")
+    if result.bends is not None:
+        result.bends.to_csv(folder / "bends.csv", index=False, float_format="%.4f")
