@@ -53,6 +53,8 @@ __all__ = [
     "GroundProfile",
     "sample_ground",
     "DEFAULT_MAX_GAP_CELLS",
+    "VERTICAL_ACCURACY_BY_KIND",
+    "default_vertical_accuracy",
 ]
 
 #: Metres per vertical unit. "ft" is the international foot (exactly
@@ -122,6 +124,48 @@ def vertical_unit_factor(name, key: str = "terrain.vertical_unit") -> float:
         f"{key} = {name!r}: unknown vertical unit; use \"m\", \"ft\" (international foot) "
         f"or \"us-ft\" (US survey foot)"
     )
+
+
+#: Typical vertical accuracy (RMSE) [m] by DEM kind, *common practice*:
+#: lidar DTMs about 0.1-0.2 m; national 1/3 arc-second (~10 m) models a few
+#: metres; 1-3 arc-second (30-90 m) global models about 5-10 m. A DEM is
+#: not a survey; the user's own figure (terrain.vertical_accuracy) wins.
+VERTICAL_ACCURACY_BY_KIND: dict[str, float] = {
+    "lidar": 0.15,
+    "national": 3.0,
+    "global": 8.0,
+}
+
+
+def default_vertical_accuracy(cell_size: float) -> tuple[str, float]:
+    """Guess the DEM kind from its cell size and return (kind, RMSE [m]).
+
+    Cells up to 3 m are taken as lidar, up to 15 m as a national 1/3
+    arc-second model, coarser as a 1-3 arc-second global model (*common
+    practice* thresholds).
+
+    Parameters
+    ----------
+    cell_size : float
+        Cell size [m] (e.g. :attr:`GroundProfile.cell_size`).
+
+    Returns
+    -------
+    (str, float)
+        Kind and vertical RMSE [m].
+
+    >>> default_vertical_accuracy(1.0)
+    ('lidar', 0.15)
+    >>> default_vertical_accuracy(30.0)
+    ('global', 8.0)
+    """
+    if cell_size <= 3.0:
+        kind = "lidar"
+    elif cell_size <= 15.0:
+        kind = "national"
+    else:
+        kind = "global"
+    return kind, VERTICAL_ACCURACY_BY_KIND[kind]
 
 
 def _is_remote(text: str) -> bool:
@@ -341,12 +385,16 @@ class GroundProfile:
         bridged.
     max_gap : float
         The max_gap applied [m] (the default is resolved here).
+    cell_size : float
+        Smaller cell dimension of the finest DEM listed [m] (approximate for
+        a geographic DEM).
     """
 
     z: np.ndarray
     bridged: np.ndarray
     source: np.ndarray
     max_gap: float = field(default=float("nan"))
+    cell_size: float = field(default=float("nan"))
 
 
 def _cell_size_m(src, lat_hint: float | None) -> float:
@@ -651,4 +699,4 @@ def sample_ground(
         valid = ~invalid
         z[invalid] = np.interp(station[invalid], station[valid], z[valid])
         bridged = invalid
-    return GroundProfile(z=z, bridged=bridged, source=source, max_gap=max_gap)
+    return GroundProfile(z=z, bridged=bridged, source=source, max_gap=max_gap, cell_size=finest)

@@ -18,7 +18,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 import rasterio
-from pyproj import Transformer
+from pyproj import Geod, Transformer
 from rasterio.enums import Resampling
 from rasterio.transform import Affine, from_origin
 
@@ -227,6 +227,12 @@ def test_plane_geographic_dem_utm_stations(tmp_path, method):
     prof = sample_ground([tmp_path / "geo.tif"], ux, uy, UTM33, method=method)
     # Round trip UTM -> lon/lat is exact to ~1e-11 deg; 1500 m/deg * 1e-11 deg << 1e-6 m.
     np.testing.assert_allclose(prof.z, f(plon, plat), rtol=0, atol=1e-6)
+    # Cell size in metres: the east-west cell width at the stations' latitude, from
+    # pyproj.Geod (WGS84); ours uses a sphere, so agree to 0.5 %.
+    lat = plat.mean()
+    _, _, width = Geod(ellps="WGS84").inv(15.0, lat, 15.0005, lat)
+    assert prof.cell_size == pytest.approx(width, rel=5e-3)
+    assert prof.max_gap == pytest.approx(3 * prof.cell_size)
 
 
 @pytest.mark.parametrize("unit,factor", [("m", 1.0), ("us-ft", 1200 / 3937)])
@@ -437,6 +443,6 @@ def test_default_station_and_profile_type(tmp_path):
     prof = sample_ground([path], x, y, UTM33)
     assert isinstance(prof, GroundProfile)
     # Default max_gap: 3 cells of the finest DEM (2 m cells here).
-    assert prof.max_gap == pytest.approx(6.0)
+    assert prof.cell_size == 2.0 and prof.max_gap == pytest.approx(6.0)
     with pytest.raises(InputError, match="terrain.method"):
         sample_ground([path], x, y, UTM33, method="cubic spline")
