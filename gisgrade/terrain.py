@@ -29,8 +29,9 @@ References
     https://gdal.org/user/raster_data_model.html
 [2] R. G. Keys, "Cubic convolution interpolation for digital image
     processing", IEEE Trans. Acoustics, Speech, and Signal Processing 29(6),
-    1153-1160, 1981. Kernel eq. (15) with a = -1/2; boundary conditions
-    eq. (25)-(26): f(-1) = 3 f(0) - 3 f(1) + f(2).
+    1153-1160, 1981. Kernel with a = -1/2 and the boundary condition
+    f(-1) = 3 f(0) - 3 f(1) + f(2) (equation numbers below from memory:
+    kernel eq. (15), boundary eq. (25)).
 """
 from __future__ import annotations
 
@@ -60,7 +61,7 @@ __all__ = [
 #: Metres per vertical unit. "ft" is the international foot (exactly
 #: 0.3048 m); "us-ft" is the US survey foot (exactly 1200/3937 m). Both are
 #: defined in NIST Handbook 44, Appendix C, and the 1959 international yard
-#: and pound agreement (Federal Register 24, 5348, 1959).
+#: and pound agreement (Federal Register 24, 5348, 1959; citation from memory).
 VERTICAL_UNITS: dict[str, float] = {
     "m": 1.0,
     "metre": 1.0,

@@ -3,7 +3,7 @@
 Sources named beside each check:
 - exact analytic results (a plane, a quadratic surface);
 - the linear interpolation error bound |f - p| <= h^2/8 max|f''| (Burden &
-  Faires, Numerical Analysis, 9th ed., Theorem 3.3 with n = 1), applied per
+  Faires, Numerical Analysis, 9th ed., Theorem 3.3 with n = 1; theorem number from memory), applied per
   axis for the tensor-product (bilinear) interpolant;
 - Keys (1981), IEEE Trans. ASSP 29(6): cubic convolution with a = -1/2
   reproduces quadratics exactly (third-order accuracy);
@@ -11,7 +11,7 @@ Sources named beside each check:
   `read(out_shape=..., resampling=...)`);
 - pyproj for coordinate transforms;
 - the foot definitions: international foot = 0.3048 m exactly, US survey
-  foot = 1200/3937 m exactly (NIST Handbook 44, Appendix C).
+  foot = 1200/3937 m exactly (NIST Handbook 44, Appendix C; appendix from memory).
 """
 from __future__ import annotations
 
@@ -131,7 +131,7 @@ def test_kernels_exact_on_plane_including_edge_half_cell(interp):
 
 def test_bicubic_reproduces_quadratic():
     # Keys (1981): cubic convolution with a = -1/2 is exact for quadratics,
-    # with the boundary condition f(-1) = 3f(0) - 3f(1) + f(2) (his eq. 25).
+    # with the boundary condition f(-1) = 3f(0) - 3f(1) + f(2) (his eq. 25, number from memory).
     i, j = np.mgrid[0:8, 0:6]
     grid = 1.0 + 0.3 * i * i - 0.2 * j * j + 0.1 * i * j + i - j
     rng = np.random.default_rng(4)
