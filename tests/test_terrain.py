@@ -18,6 +18,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 import rasterio
+import rasterio.shutil
 from pyproj import Geod, Transformer
 from rasterio.enums import Resampling
 from rasterio.transform import Affine, from_origin
@@ -235,31 +236,43 @@ def test_plane_geographic_dem_utm_stations(tmp_path, method):
     assert prof.max_gap == pytest.approx(3 * prof.cell_size)
 
 
-@pytest.mark.parametrize("unit,factor", [("m", 1.0), ("us-ft", 1200 / 3937)])
-def test_paraboloid_within_bilinear_error_bound(tmp_path, unit, factor):
+@pytest.mark.parametrize(
+    "kind,unit,factor",
+    # NIST Handbook 44 App. C: 1 ft = 0.3048 m, 1 US survey ft = 1200/3937 m.
+    [("projected", "m", 1.0), ("projected", "ft", 0.3048), ("projected", "us-ft", 1200 / 3937),
+     ("geographic", "m", 1.0)],
+)
+def test_paraboloid_within_bilinear_error_bound(tmp_path, kind, unit, factor):
     # Linear interpolation error <= h^2/8 * max|f''| (Burden & Faires, Thm 3.3, n = 1);
     # for the tensor-product bilinear interpolant the per-axis bounds add:
-    # |f - p| <= hx^2/8 * max|f_xx| + hy^2/8 * max|f_yy|. Checked between the outer
-    # cell centres, where the interpolant is not extrapolating.
-    cell = 5.0
+    # |f - p| <= hx^2/8 * max|f_xx| + hy^2/8 * max|f_yy|, in the DEM's own coordinates
+    # (metres for UTM, degrees for EPSG:4326). Checked between the outer cell centres,
+    # where the interpolant is not extrapolating.
     shape = (30, 30)
-    t = from_origin(500000.0, 4000150.0, cell, cell)
-    ax, ay = 0.004, 0.0025  # z = ax*(x-xc)^2 + ay*(y-yc)^2, metres
+    if kind == "projected":
+        crs, cell, x0, y0 = UTM33, 5.0, 500000.0, 4000150.0
+    else:
+        crs, cell, x0, y0 = "EPSG:4326", 0.0005, 15.0, 36.015
+    t = from_origin(x0, y0, cell, cell)
+    xc, yc = x0 + 15 * cell, y0 - 15 * cell
+    ax, ay = 0.004 * (5.0 / cell) ** 2, 0.0025 * (5.0 / cell) ** 2  # same curvature per cell
 
     def f(x, y):
-        return 50.0 + ax * (x - 500075.0) ** 2 + ay * (y - 4000075.0) ** 2
+        return 50.0 + ax * (x - xc) ** 2 + ay * (y - yc) ** 2
 
     cx, cy = centres(t, shape)
-    write_dem(tmp_path / "p.tif", f(cx, cy) / factor, t)
-    x, y = random_points_in(t, shape, 500, np.random.default_rng(8), margin=0.5)
-    prof = sample_ground([tmp_path / "p.tif"], x, y, UTM33, vertical_unit=unit)
-    err = np.abs(prof.z - f(x, y))
+    write_dem(tmp_path / "p.tif", f(cx, cy) / factor, t, crs=crs)
+    px, py = random_points_in(t, shape, 500, np.random.default_rng(8), margin=0.5)
+    # Stations always in UTM 33N; pyproj gives the DEM-CRS position of each.
+    sx, sy = Transformer.from_crs(crs, UTM33, always_xy=True).transform(px, py)
+    prof = sample_ground([tmp_path / "p.tif"], sx, sy, UTM33, vertical_unit=unit)
+    err = np.abs(prof.z - f(px, py))
     bound = cell**2 / 8 * (2 * ax) + cell**2 / 8 * (2 * ay)
-    assert err.max() <= bound * (1 + 1e-9)
+    assert err.max() <= bound * (1 + 1e-6)
     assert err.max() > 0.3 * bound  # the bound is nearly reached: the check has teeth
     # Keys (1981): the a = -1/2 cubic reproduces the quadratic exactly.
-    prof3 = sample_ground([tmp_path / "p.tif"], x, y, UTM33, vertical_unit=unit, method="bicubic")
-    np.testing.assert_allclose(prof3.z, f(x, y), rtol=0, atol=1e-8)
+    prof3 = sample_ground([tmp_path / "p.tif"], sx, sy, UTM33, vertical_unit=unit, method="bicubic")
+    np.testing.assert_allclose(prof3.z, f(px, py), rtol=0, atol=1e-6)
 
 
 @pytest.mark.parametrize("method", ["bilinear", "bicubic"])
@@ -386,7 +399,7 @@ def test_unreadable_or_crs_less_dem(tmp_path):
         sample_ground([tmp_path / "nocrs.tif"], [1.0], [1.0], UTM33)
 
 
-def test_vrt_mosaic_opens_like_a_file(tmp_path):
+def test_vrt_mosaic_and_cog_open_like_a_file(tmp_path):
     # A GDAL VRT mosaicking two tiles (GDAL VRT format: SimpleSource, SrcRect/DstRect).
     t0 = from_origin(500000.0, 4000020.0, 1.0, 1.0)
     t1 = from_origin(500020.0, 4000020.0, 1.0, 1.0)
@@ -409,6 +422,10 @@ def test_vrt_mosaic_opens_like_a_file(tmp_path):
     x = np.linspace(500000.2, 500039.8, 200)
     y = np.full_like(x, 4000007.3)
     prof = sample_ground(resolve_dem_paths("*.vrt", tmp_path), x, y, UTM33, method="bicubic")
+    np.testing.assert_allclose(prof.z, plane(x, y), rtol=0, atol=1e-9)
+    # A Cloud-Optimized GeoTIFF (GDAL's COG driver) of the mosaic opens the same way.
+    rasterio.shutil.copy(tmp_path / "m.vrt", tmp_path / "m_cog.tif", driver="COG")
+    prof = sample_ground([tmp_path / "m_cog.tif"], x, y, UTM33)
     np.testing.assert_allclose(prof.z, plane(x, y), rtol=0, atol=1e-9)
 
 
