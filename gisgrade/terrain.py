@@ -631,7 +631,8 @@ def sample_ground(
         try:
             src = rasterio.open(path)
         except Exception as exc:
-            raise InputError(f"{key}: cannot open DEM {str(path)!r} ({str(exc).splitlines()[0] if str(exc) else type(exc).__name__})") from None
+            reason = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
+            raise InputError(f"{key}: cannot open DEM {str(path)!r} ({reason})") from None
         with src:
             if src.crs is None:
                 raise InputError(f"{key}: DEM {str(path)!r} has no coordinate reference system")
@@ -672,7 +673,8 @@ def sample_ground(
     bridged = np.zeros(n, dtype=bool)
     if invalid.any():
         starts, ends = _runs(invalid)
-        outside_any = np.add.reduceat((~covered).astype(np.int64), starts) > 0 if starts.size else np.zeros(0, bool)
+        outside = np.concatenate([[0], np.cumsum(~covered)])
+        outside_any = (outside[ends + 1] - outside[starts]) > 0  # some station of the run is outside
         at_end = (starts == 0) | (ends == n - 1)
         before = np.clip(starts - 1, 0, n - 1)
         after = np.clip(ends + 1, 0, n - 1)
@@ -681,9 +683,9 @@ def sample_ground(
         unbridgeable = outside_any | at_end | too_long
         if unbridgeable.any():
             msgs = []
-            sel = outside_any
-            if sel.any():
-                msgs.append("outside every DEM at stations " + _fmt_ranges(station, starts[sel], ends[sel]))
+            if outside_any.any():
+                o_starts, o_ends = _runs(~covered)
+                msgs.append("outside every DEM at stations " + _fmt_ranges(station, o_starts, o_ends))
             sel = ~outside_any & at_end
             if sel.any():
                 msgs.append(

@@ -388,6 +388,14 @@ def test_outside_every_tile_and_nodata_at_line_end(tmp_path):
     msg = str(exc.value)
     assert "outside every DEM at stations 0.0-5.0 m" in msg
     assert "no ground data at stations 29.0 m (nodata at an end of the line" in msg
+    # A run that is part nodata, part outside: only the outside stations are listed
+    # as outside, and such a run is never bridged, however short.
+    # Nodata cells are columns 18-19 (x 500018..500020); x = 500020.4 is off the raster.
+    x = np.array([500001.0, 500017.9, 500019.9, 500020.4, 500001.0])
+    with pytest.raises(InputError) as exc:
+        sample_ground([tmp_path / "d.tif"], x, y[:5], UTM33,
+                      station=[0.0, 1.0, 2.0, 3.0, 4.0], max_gap=100.0)
+    assert "outside every DEM at stations 3.0 m" in str(exc.value)
 
 
 def test_unreadable_or_crs_less_dem(tmp_path):
