@@ -114,7 +114,8 @@ def peak_rss_mb() -> float:
 
 
 def child(kind: str, out: str) -> None:
-    import rasterio  # noqa: F401  (imports count in the baseline)
+    import pyproj  # noqa: F401  (imports count in the baseline)
+    import rasterio
 
     sys.path.insert(0, str(ROOT))
     from gisgrade.terrain import sample_ground
