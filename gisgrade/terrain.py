@@ -29,8 +29,9 @@ References
     https://gdal.org/user/raster_data_model.html
 [2] R. G. Keys, "Cubic convolution interpolation for digital image
     processing", IEEE Trans. Acoustics, Speech, and Signal Processing 29(6),
-    1153-1160, 1981. Kernel eq. (15) with a = -1/2; boundary conditions
-    eq. (25)-(26): f(-1) = 3 f(0) - 3 f(1) + f(2).
+    1153-1160, 1981. Kernel with a = -1/2 and the boundary condition
+    f(-1) = 3 f(0) - 3 f(1) + f(2) (equation numbers below from memory:
+    kernel eq. (15), boundary eq. (25)).
 """
 from __future__ import annotations
 
@@ -53,12 +54,14 @@ __all__ = [
     "GroundProfile",
     "sample_ground",
     "DEFAULT_MAX_GAP_CELLS",
+    "VERTICAL_ACCURACY_BY_KIND",
+    "default_vertical_accuracy",
 ]
 
 #: Metres per vertical unit. "ft" is the international foot (exactly
 #: 0.3048 m); "us-ft" is the US survey foot (exactly 1200/3937 m). Both are
 #: defined in NIST Handbook 44, Appendix C, and the 1959 international yard
-#: and pound agreement (Federal Register 24, 5348, 1959).
+#: and pound agreement (Federal Register 24, 5348, 1959; citation from memory).
 VERTICAL_UNITS: dict[str, float] = {
     "m": 1.0,
     "metre": 1.0,
@@ -122,6 +125,48 @@ def vertical_unit_factor(name, key: str = "terrain.vertical_unit") -> float:
         f"{key} = {name!r}: unknown vertical unit; use \"m\", \"ft\" (international foot) "
         f"or \"us-ft\" (US survey foot)"
     )
+
+
+#: Typical vertical accuracy (RMSE) [m] by DEM kind, *common practice*:
+#: lidar DTMs about 0.1-0.2 m; national 1/3 arc-second (~10 m) models a few
+#: metres; 1-3 arc-second (30-90 m) global models about 5-10 m. A DEM is
+#: not a survey; the user's own figure (terrain.vertical_accuracy) wins.
+VERTICAL_ACCURACY_BY_KIND: dict[str, float] = {
+    "lidar": 0.15,
+    "national": 3.0,
+    "global": 8.0,
+}
+
+
+def default_vertical_accuracy(cell_size: float) -> tuple[str, float]:
+    """Guess the DEM kind from its cell size and return (kind, RMSE [m]).
+
+    Cells up to 3 m are taken as lidar, up to 15 m as a national 1/3
+    arc-second model, coarser as a 1-3 arc-second global model (*common
+    practice* thresholds).
+
+    Parameters
+    ----------
+    cell_size : float
+        Cell size [m] (e.g. :attr:`GroundProfile.cell_size`).
+
+    Returns
+    -------
+    (str, float)
+        Kind and vertical RMSE [m].
+
+    >>> default_vertical_accuracy(1.0)
+    ('lidar', 0.15)
+    >>> default_vertical_accuracy(30.0)
+    ('global', 8.0)
+    """
+    if cell_size <= 3.0:
+        kind = "lidar"
+    elif cell_size <= 15.0:
+        kind = "national"
+    else:
+        kind = "global"
+    return kind, VERTICAL_ACCURACY_BY_KIND[kind]
 
 
 def _is_remote(text: str) -> bool:
@@ -341,12 +386,16 @@ class GroundProfile:
         bridged.
     max_gap : float
         The max_gap applied [m] (the default is resolved here).
+    cell_size : float
+        Smaller cell dimension of the finest DEM listed [m] (approximate for
+        a geographic DEM).
     """
 
     z: np.ndarray
     bridged: np.ndarray
     source: np.ndarray
     max_gap: float = field(default=float("nan"))
+    cell_size: float = field(default=float("nan"))
 
 
 def _cell_size_m(src, lat_hint: float | None) -> float:
@@ -582,7 +631,8 @@ def sample_ground(
         try:
             src = rasterio.open(path)
         except Exception as exc:
-            raise InputError(f"{key}: cannot open DEM {str(path)!r} ({str(exc).splitlines()[0] if str(exc) else type(exc).__name__})") from None
+            reason = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
+            raise InputError(f"{key}: cannot open DEM {str(path)!r} ({reason})") from None
         with src:
             if src.crs is None:
                 raise InputError(f"{key}: DEM {str(path)!r} has no coordinate reference system")
@@ -623,7 +673,8 @@ def sample_ground(
     bridged = np.zeros(n, dtype=bool)
     if invalid.any():
         starts, ends = _runs(invalid)
-        outside_any = np.add.reduceat((~covered).astype(np.int64), starts) > 0 if starts.size else np.zeros(0, bool)
+        outside = np.concatenate([[0], np.cumsum(~covered)])
+        outside_any = (outside[ends + 1] - outside[starts]) > 0  # some station of the run is outside
         at_end = (starts == 0) | (ends == n - 1)
         before = np.clip(starts - 1, 0, n - 1)
         after = np.clip(ends + 1, 0, n - 1)
@@ -632,9 +683,9 @@ def sample_ground(
         unbridgeable = outside_any | at_end | too_long
         if unbridgeable.any():
             msgs = []
-            sel = outside_any
-            if sel.any():
-                msgs.append("outside every DEM at stations " + _fmt_ranges(station, starts[sel], ends[sel]))
+            if outside_any.any():
+                o_starts, o_ends = _runs(~covered)
+                msgs.append("outside every DEM at stations " + _fmt_ranges(station, o_starts, o_ends))
             sel = ~outside_any & at_end
             if sel.any():
                 msgs.append(
@@ -651,4 +702,4 @@ def sample_ground(
         valid = ~invalid
         z[invalid] = np.interp(station[invalid], station[valid], z[valid])
         bridged = invalid
-    return GroundProfile(z=z, bridged=bridged, source=source, max_gap=max_gap)
+    return GroundProfile(z=z, bridged=bridged, source=source, max_gap=max_gap, cell_size=finest)

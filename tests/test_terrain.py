@@ -3,7 +3,7 @@
 Sources named beside each check:
 - exact analytic results (a plane, a quadratic surface);
 - the linear interpolation error bound |f - p| <= h^2/8 max|f''| (Burden &
-  Faires, Numerical Analysis, 9th ed., Theorem 3.3 with n = 1), applied per
+  Faires, Numerical Analysis, 9th ed., Theorem 3.3 with n = 1; theorem number from memory), applied per
   axis for the tensor-product (bilinear) interpolant;
 - Keys (1981), IEEE Trans. ASSP 29(6): cubic convolution with a = -1/2
   reproduces quadratics exactly (third-order accuracy);
@@ -11,14 +11,15 @@ Sources named beside each check:
   `read(out_shape=..., resampling=...)`);
 - pyproj for coordinate transforms;
 - the foot definitions: international foot = 0.3048 m exactly, US survey
-  foot = 1200/3937 m exactly (NIST Handbook 44, Appendix C).
+  foot = 1200/3937 m exactly (NIST Handbook 44, Appendix C; appendix from memory).
 """
 from __future__ import annotations
 
 import numpy as np
 import pytest
 import rasterio
-from pyproj import Transformer
+import rasterio.shutil
+from pyproj import Geod, Transformer
 from rasterio.enums import Resampling
 from rasterio.transform import Affine, from_origin
 
@@ -131,7 +132,7 @@ def test_kernels_exact_on_plane_including_edge_half_cell(interp):
 
 def test_bicubic_reproduces_quadratic():
     # Keys (1981): cubic convolution with a = -1/2 is exact for quadratics,
-    # with the boundary condition f(-1) = 3f(0) - 3f(1) + f(2) (his eq. 25).
+    # with the boundary condition f(-1) = 3f(0) - 3f(1) + f(2) (his eq. 25, number from memory).
     i, j = np.mgrid[0:8, 0:6]
     grid = 1.0 + 0.3 * i * i - 0.2 * j * j + 0.1 * i * j + i - j
     rng = np.random.default_rng(4)
@@ -227,33 +228,51 @@ def test_plane_geographic_dem_utm_stations(tmp_path, method):
     prof = sample_ground([tmp_path / "geo.tif"], ux, uy, UTM33, method=method)
     # Round trip UTM -> lon/lat is exact to ~1e-11 deg; 1500 m/deg * 1e-11 deg << 1e-6 m.
     np.testing.assert_allclose(prof.z, f(plon, plat), rtol=0, atol=1e-6)
+    # Cell size in metres: the east-west cell width at the stations' latitude, from
+    # pyproj.Geod (WGS84); ours uses a sphere, so agree to 0.5 %.
+    lat = plat.mean()
+    _, _, width = Geod(ellps="WGS84").inv(15.0, lat, 15.0005, lat)
+    assert prof.cell_size == pytest.approx(width, rel=5e-3)
+    assert prof.max_gap == pytest.approx(3 * prof.cell_size)
 
 
-@pytest.mark.parametrize("unit,factor", [("m", 1.0), ("us-ft", 1200 / 3937)])
-def test_paraboloid_within_bilinear_error_bound(tmp_path, unit, factor):
+@pytest.mark.parametrize(
+    "kind,unit,factor",
+    # NIST Handbook 44 App. C: 1 ft = 0.3048 m, 1 US survey ft = 1200/3937 m.
+    [("projected", "m", 1.0), ("projected", "ft", 0.3048), ("projected", "us-ft", 1200 / 3937),
+     ("geographic", "m", 1.0)],
+)
+def test_paraboloid_within_bilinear_error_bound(tmp_path, kind, unit, factor):
     # Linear interpolation error <= h^2/8 * max|f''| (Burden & Faires, Thm 3.3, n = 1);
     # for the tensor-product bilinear interpolant the per-axis bounds add:
-    # |f - p| <= hx^2/8 * max|f_xx| + hy^2/8 * max|f_yy|. Checked between the outer
-    # cell centres, where the interpolant is not extrapolating.
-    cell = 5.0
+    # |f - p| <= hx^2/8 * max|f_xx| + hy^2/8 * max|f_yy|, in the DEM's own coordinates
+    # (metres for UTM, degrees for EPSG:4326). Checked between the outer cell centres,
+    # where the interpolant is not extrapolating.
     shape = (30, 30)
-    t = from_origin(500000.0, 4000150.0, cell, cell)
-    ax, ay = 0.004, 0.0025  # z = ax*(x-xc)^2 + ay*(y-yc)^2, metres
+    if kind == "projected":
+        crs, cell, x0, y0 = UTM33, 5.0, 500000.0, 4000150.0
+    else:
+        crs, cell, x0, y0 = "EPSG:4326", 0.0005, 15.0, 36.015
+    t = from_origin(x0, y0, cell, cell)
+    xc, yc = x0 + 15 * cell, y0 - 15 * cell
+    ax, ay = 0.004 * (5.0 / cell) ** 2, 0.0025 * (5.0 / cell) ** 2  # same curvature per cell
 
     def f(x, y):
-        return 50.0 + ax * (x - 500075.0) ** 2 + ay * (y - 4000075.0) ** 2
+        return 50.0 + ax * (x - xc) ** 2 + ay * (y - yc) ** 2
 
     cx, cy = centres(t, shape)
-    write_dem(tmp_path / "p.tif", f(cx, cy) / factor, t)
-    x, y = random_points_in(t, shape, 500, np.random.default_rng(8), margin=0.5)
-    prof = sample_ground([tmp_path / "p.tif"], x, y, UTM33, vertical_unit=unit)
-    err = np.abs(prof.z - f(x, y))
+    write_dem(tmp_path / "p.tif", f(cx, cy) / factor, t, crs=crs)
+    px, py = random_points_in(t, shape, 500, np.random.default_rng(8), margin=0.5)
+    # Stations always in UTM 33N; pyproj gives the DEM-CRS position of each.
+    sx, sy = Transformer.from_crs(crs, UTM33, always_xy=True).transform(px, py)
+    prof = sample_ground([tmp_path / "p.tif"], sx, sy, UTM33, vertical_unit=unit)
+    err = np.abs(prof.z - f(px, py))
     bound = cell**2 / 8 * (2 * ax) + cell**2 / 8 * (2 * ay)
-    assert err.max() <= bound * (1 + 1e-9)
+    assert err.max() <= bound * (1 + 1e-6)
     assert err.max() > 0.3 * bound  # the bound is nearly reached: the check has teeth
     # Keys (1981): the a = -1/2 cubic reproduces the quadratic exactly.
-    prof3 = sample_ground([tmp_path / "p.tif"], x, y, UTM33, vertical_unit=unit, method="bicubic")
-    np.testing.assert_allclose(prof3.z, f(x, y), rtol=0, atol=1e-8)
+    prof3 = sample_ground([tmp_path / "p.tif"], sx, sy, UTM33, vertical_unit=unit, method="bicubic")
+    np.testing.assert_allclose(prof3.z, f(px, py), rtol=0, atol=1e-6)
 
 
 @pytest.mark.parametrize("method", ["bilinear", "bicubic"])
@@ -369,6 +388,14 @@ def test_outside_every_tile_and_nodata_at_line_end(tmp_path):
     msg = str(exc.value)
     assert "outside every DEM at stations 0.0-5.0 m" in msg
     assert "no ground data at stations 29.0 m (nodata at an end of the line" in msg
+    # A run that is part nodata, part outside: only the outside stations are listed
+    # as outside, and such a run is never bridged, however short.
+    # Nodata cells are columns 18-19 (x 500018..500020); x = 500020.4 is off the raster.
+    x = np.array([500001.0, 500017.9, 500019.9, 500020.4, 500001.0])
+    with pytest.raises(InputError) as exc:
+        sample_ground([tmp_path / "d.tif"], x, y[:5], UTM33,
+                      station=[0.0, 1.0, 2.0, 3.0, 4.0], max_gap=100.0)
+    assert "outside every DEM at stations 3.0 m" in str(exc.value)
 
 
 def test_unreadable_or_crs_less_dem(tmp_path):
@@ -380,7 +407,7 @@ def test_unreadable_or_crs_less_dem(tmp_path):
         sample_ground([tmp_path / "nocrs.tif"], [1.0], [1.0], UTM33)
 
 
-def test_vrt_mosaic_opens_like_a_file(tmp_path):
+def test_vrt_mosaic_and_cog_open_like_a_file(tmp_path):
     # A GDAL VRT mosaicking two tiles (GDAL VRT format: SimpleSource, SrcRect/DstRect).
     t0 = from_origin(500000.0, 4000020.0, 1.0, 1.0)
     t1 = from_origin(500020.0, 4000020.0, 1.0, 1.0)
@@ -403,6 +430,10 @@ def test_vrt_mosaic_opens_like_a_file(tmp_path):
     x = np.linspace(500000.2, 500039.8, 200)
     y = np.full_like(x, 4000007.3)
     prof = sample_ground(resolve_dem_paths("*.vrt", tmp_path), x, y, UTM33, method="bicubic")
+    np.testing.assert_allclose(prof.z, plane(x, y), rtol=0, atol=1e-9)
+    # A Cloud-Optimized GeoTIFF (GDAL's COG driver) of the mosaic opens the same way.
+    rasterio.shutil.copy(tmp_path / "m.vrt", tmp_path / "m_cog.tif", driver="COG")
+    prof = sample_ground([tmp_path / "m_cog.tif"], x, y, UTM33)
     np.testing.assert_allclose(prof.z, plane(x, y), rtol=0, atol=1e-9)
 
 
@@ -437,6 +468,6 @@ def test_default_station_and_profile_type(tmp_path):
     prof = sample_ground([path], x, y, UTM33)
     assert isinstance(prof, GroundProfile)
     # Default max_gap: 3 cells of the finest DEM (2 m cells here).
-    assert prof.max_gap == pytest.approx(6.0)
+    assert prof.cell_size == 2.0 and prof.max_gap == pytest.approx(6.0)
     with pytest.raises(InputError, match="terrain.method"):
         sample_ground([path], x, y, UTM33, method="cubic spline")
