@@ -15,6 +15,20 @@ from gisgrade.hydraulics.friction import (
     swamee_jain,
     velocity_head,
 )
+from gisgrade.hydraulics.gradelines import (
+    GradeLines,
+    grade_lines,
+    required_source_head,
+    segment_flows,
+    solve_flow,
+)
+from gisgrade.hydraulics.minor import (
+    NAMED_K,
+    bend_k,
+    k_for,
+    sudden_contraction_k,
+    sudden_expansion_k,
+)
 from gisgrade.hydraulics.water import (
     density,
     dynamic_viscosity,
@@ -24,15 +38,25 @@ from gisgrade.hydraulics.water import (
 
 __all__ = [
     "G",
+    "GradeLines",
+    "NAMED_K",
+    "bend_k",
     "colebrook",
     "darcy_head_loss",
     "density",
     "dynamic_viscosity",
     "friction_factor",
+    "grade_lines",
     "hazen_williams_head_loss",
     "hazen_williams_psi_per_ft",
+    "k_for",
     "kinematic_viscosity",
+    "required_source_head",
     "reynolds",
+    "segment_flows",
+    "solve_flow",
+    "sudden_contraction_k",
+    "sudden_expansion_k",
     "swamee_jain",
     "vapour_pressure",
     "velocity_head",

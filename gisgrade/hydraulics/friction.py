@@ -16,7 +16,8 @@ References
    657-664.
 .. [4] Dunlop, E. J. "WADI Users Manual." Local Government Computer
    Services Board, Dublin, 1991 (cubic interpolation of the friction
-   factor across the laminar-turbulent transition).
+   factor across the laminar-turbulent transition; cited from memory, as
+   described in network-analysis manuals that use it).
 .. [5] Williams, G. S., Hazen, A. "Hydraulic Tables." 3rd ed. John Wiley
    & Sons, New York, 1920.
 .. [6] NFPA 13, "Standard for the Installation of Sprinkler Systems",
