@@ -17,6 +17,7 @@ import pandas as pd
 
 from . import alignment as al
 from . import findings as fd
+from .hydraulics.friction import G
 from .project import Project, load
 
 
@@ -34,6 +35,7 @@ class Result:
     relaxations: list = field(default_factory=list)
     summary: dict = field(default_factory=dict)
     profile: object = None  # design.PipeProfile
+    notes: list = field(default_factory=list)  # stage remarks for the summary
 
 
 # --------------------------------------------------------------------------
@@ -55,9 +57,10 @@ def stage_alignment(project: Project):
     return line, crossings, table
 
 
-def stage_terrain(project: Project, line: al.Alignment, table: pd.DataFrame) -> pd.DataFrame:
-    """Ground elevation (m) at every station, sampled from the DEM(s)."""
-    from .terrain import sample_ground
+def stage_terrain(project: Project, line: al.Alignment, table: pd.DataFrame):
+    """Ground elevation (m) at every station, sampled from the DEM(s), with
+    the 95 % band of the DEM's vertical accuracy; returns (table, notes)."""
+    from .terrain import default_vertical_accuracy, sample_ground
 
     cfg = project.terrain
     ground = sample_ground(
@@ -65,10 +68,15 @@ def stage_terrain(project: Project, line: al.Alignment, table: pd.DataFrame) -> 
         station=table["station_m"].to_numpy(), vertical_unit=cfg.vertical_unit,
         method=cfg.method, max_gap=cfg.max_gap,
     )
-    table = table.assign(ground_m=ground.z, ground_bridged=ground.bridged)
-    if cfg.vertical_accuracy is not None:
-        table["ground_band_m"] = accuracy_95(cfg.vertical_accuracy)
-    return table
+    rmse = cfg.vertical_accuracy
+    notes = []
+    if rmse is None:
+        kind, rmse = default_vertical_accuracy(ground.cell_size)
+        notes.append(f"terrain.vertical_accuracy not given: {rmse:g} m RMSE assumed for a {kind} "
+                     f"DEM ({ground.cell_size:.2f} m cells)")
+    table = table.assign(ground_m=ground.z, ground_bridged=ground.bridged,
+                         ground_band_m=accuracy_95(rmse))
+    return table, notes
 
 
 def accuracy_95(rmse: float) -> float:
@@ -109,8 +117,14 @@ def stage_design(project: Project, table: pd.DataFrame, crossings: al.Crossings)
 
 
 def stage_hydraulics(project: Project, table: pd.DataFrame, bends: pd.DataFrame) -> pd.DataFrame:
-    """HGL, EGL, velocity and pressure per scenario (design flow and static)."""
-    from .hydraulics import minor, water
+    """HGL, EGL, velocity and pressure per scenario (design flow and static).
+
+    The vertical bends of the pipe profile are point losses, K by angle at
+    each scenario's Reynolds number. ``hgl_upstream_m`` keeps the HGL just
+    upstream of any point loss (lower than ``hgl_m`` where an expansion
+    recovers pressure), so the checks see the lowest pressure at a station.
+    """
+    from .hydraulics import friction, minor, water
     from .hydraulics.gradelines import grade_lines
 
     pipe, hyd = project.pipe, project.hydraulics
@@ -118,22 +132,26 @@ def stage_hydraulics(project: Project, table: pd.DataFrame, bends: pd.DataFrame)
     axis = table["axis_m"].to_numpy()
     rho = float(water.density(hyd.temperature))
     mu = float(water.dynamic_viscosity(hyd.temperature))
-    point_k = np.zeros(len(station))
-    if len(bends):
-        idx = np.searchsorted(station, bends["station_m"].to_numpy())
-        np.add.at(point_k, np.clip(idx, 0, len(station) - 1),
-                  minor.bend_k(np.radians(bends["angle_deg"].to_numpy())))
+    d = pipe.inside_diameter
+    at = np.clip(np.searchsorted(station, bends["station_m"].to_numpy()), 0, len(station) - 1)
+    angles = np.radians(bends["angle_deg"].to_numpy(dtype=float))
+    rel_roughness = (pipe.roughness or 0.0) / d
     frames = []
     for name, flow in scenarios(project):
+        point_k = np.zeros(len(station))
+        if len(at) and flow > 0:
+            re = friction.reynolds(flow / (np.pi * d * d / 4), d, rho, mu)
+            np.add.at(point_k, at, minor.bend_k(angles, Re=re, rel_roughness=rel_roughness))
         g = grade_lines(
-            station, axis, source_head=hyd.source_head, flow=flow,
-            diameter=pipe.inside_diameter, method=pipe.friction, roughness=pipe.roughness,
-            hw_c=pipe.hazen_williams_c, density=rho, viscosity=mu, point_k=point_k,
+            station, axis, source_head=hyd.source_head, flow=flow, diameter=d,
+            method=pipe.friction, roughness=pipe.roughness, hw_c=pipe.hazen_williams_c,
+            density=rho, viscosity=mu, point_k=point_k,
         )
         frames.append(pd.DataFrame({
             "scenario": name, "station_m": station, "flow_m3_s": flow,
             "velocity_m_s": g.velocity, "hgl_m": g.hgl, "egl_m": g.egl,
-            "pressure_kpa": g.pressure / 1e3,
+            "pressure_kpa": g.pressure / 1e3, "hgl_upstream_m": g.hgl_upstream,
+            "density_kg_m3": rho,
         }))
     return pd.concat(frames, ignore_index=True)
 
@@ -148,11 +166,12 @@ def stage_findings(project: Project, table: pd.DataFrame, grades: pd.DataFrame) 
     station = table["station_m"].to_numpy()
     top = table["top_m"].to_numpy()
     rows = fd.cover_findings(station, table["cover_m"].to_numpy(), project.cover.minimum)
+    axis = table["axis_m"].to_numpy()
     for name, g in grades.groupby("scenario", sort=False):
-        rows += fd.pressure_findings(
-            station, g["pressure_kpa"].to_numpy() * 1e3, g["hgl_m"].to_numpy(), top,
-            g["velocity_m_s"].to_numpy(), name, project.checks,
-        )
+        hgl = np.minimum(g["hgl_m"].to_numpy(), g["hgl_upstream_m"].to_numpy())
+        pressure = g["density_kg_m3"].to_numpy() * G * (hgl - axis)
+        rows += fd.pressure_findings(station, pressure, hgl, top, g["velocity_m_s"].to_numpy(),
+                                     name, project.checks)
     return fd.table(rows)
 
 
@@ -170,13 +189,13 @@ def run(project, outdir=None, *, write: bool = True) -> Result:
     if not isinstance(project, Project):
         project = load(project)
     line, crossings, table = stage_alignment(project)
-    table = stage_terrain(project, line, table)
+    table, notes = stage_terrain(project, line, table)
     table, profile = stage_design(project, table, crossings)
     bends = _bends_frame(profile.bends)
     grades = stage_hydraulics(project, table, bends)
     found = stage_findings(project, table, grades)
     result = Result(project, line, crossings, table, grades, found, bends,
-                    list(profile.relaxations), profile=profile)
+                    list(profile.relaxations), profile=profile, notes=notes)
     return _finish(result, outdir, write)
 
 
@@ -186,8 +205,8 @@ def run_ground(project, outdir=None, *, write: bool = True) -> Result:
     if not isinstance(project, Project):
         project = load(project, ground_only=True)
     line, crossings, table = stage_alignment(project)
-    table = stage_terrain(project, line, table)
-    return _finish(Result(project, line, crossings, table), outdir, write)
+    table, notes = stage_terrain(project, line, table)
+    return _finish(Result(project, line, crossings, table, notes=notes), outdir, write)
 
 
 def _finish(result: Result, outdir, write: bool) -> Result:

@@ -43,17 +43,13 @@ class AlignmentConfig:
     start_station: float = 0.0  # m, station of the first point
 
 
-#: Vertical accuracy (RMSE) by DEM kind, m (common practice, see docs/terrain.md).
-DEM_KIND_RMSE = {"lidar": 0.15, "national": 2.0, "global": 7.0}
-
-
 @dataclass(frozen=True)
 class TerrainConfig:
     dem: tuple[Path, ...]
     vertical_unit: str = "m"
     method: str = "bilinear"
     max_gap: float | None = None  # m; None: 3 cells of the finest DEM
-    vertical_accuracy: float | None = None  # m RMSE; None: not given
+    vertical_accuracy: float | None = None  # m RMSE; None: a default from the DEM's cell size
 
 
 @dataclass(frozen=True)
@@ -140,7 +136,9 @@ class Section:
         if key in self.table:
             return self.table[key]
         if default is _MISSING:
-            raise InputError(f"{self.file.name}: missing required key {self.key(key)}")
+            close = difflib.get_close_matches(key, [str(k) for k in self.table], n=1, cutoff=0.6)
+            hint = f" (is {self.key(close[0])} a typo for it?)" if close else ""
+            raise InputError(f"{self.file.name}: missing required key {self.key(key)}{hint}")
         return default
 
     def quantity(self, key: str, kind: str, default=_MISSING, *, positive=False, minimum=None):
@@ -242,18 +240,19 @@ def _read_alignment(s: Section) -> AlignmentConfig:
 
 
 def _read_terrain(s: Section) -> TerrainConfig:
-    from .terrain import resolve_dem_paths, vertical_unit_factor
+    from .terrain import VERTICAL_ACCURACY_BY_KIND, resolve_dem_paths, vertical_unit_factor
 
     unit = s.string("vertical_unit", "m")
     vertical_unit_factor(unit, s.key("vertical_unit"))  # validate early
     accuracy = s._get("vertical_accuracy", None)
-    if isinstance(accuracy, str) and accuracy.strip().lower() in DEM_KIND_RMSE:
-        accuracy = DEM_KIND_RMSE[accuracy.strip().lower()]
+    if isinstance(accuracy, str) and accuracy.strip().lower() in VERTICAL_ACCURACY_BY_KIND:
+        accuracy = VERTICAL_ACCURACY_BY_KIND[accuracy.strip().lower()]
     elif accuracy is not None:
         try:
             accuracy = s.quantity("vertical_accuracy", "length", minimum=0.0)
         except InputError as exc:
-            raise InputError(f"{exc} (or a DEM kind: {', '.join(DEM_KIND_RMSE)})") from None
+            kinds = ", ".join(VERTICAL_ACCURACY_BY_KIND)
+            raise InputError(f"{exc} (or a DEM kind: {kinds})") from None
     return TerrainConfig(
         dem=tuple(resolve_dem_paths(s._get("dem", _MISSING), s.base_dir, s.key("dem"))),
         vertical_unit=unit,

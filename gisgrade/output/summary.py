@@ -28,7 +28,7 @@ def summarize(result) -> dict:
         "ground_max_m": float(t["ground_m"].max()),
         "ground_bridged_stations": int(t["ground_bridged"].sum()) if "ground_bridged" in t else 0,
         "ground_band_95_m": float(t["ground_band_m"].iloc[0]) if "ground_band_m" in t else None,
-        "notes": list(line.notes),
+        "notes": list(line.notes) + list(result.notes),
         "crossings": [
             {"name": str(n), "station_m": float(st + s[0]), "angle_deg": _num(a),
              "bottom_m": float(b), "clearance_required_m": float(c)}
