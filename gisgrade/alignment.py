@@ -59,7 +59,7 @@ class Alignment:
 class Crossings:
     """Where the centerline crosses other features (columns as arrays)."""
 
-    station: np.ndarray  # m along the line (0 at the first point)
+    station: np.ndarray  # m along the line (0 at the first point; the pipeline adds start_station)
     x: np.ndarray
     y: np.ndarray
     bottom: np.ndarray  # m, crossed feature's bottom elevation (vertical datum of the DEM)

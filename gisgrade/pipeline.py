@@ -9,7 +9,7 @@ The CLI and the Python API (:func:`gisgrade.run`) both call :func:`run`.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 import numpy as np
@@ -54,6 +54,7 @@ def stage_alignment(project: Project):
     crossings = al.locate_crossings(line, project.crossings, vfac)
     s, x, y, kind = al.stations(line, cfg.spacing, crossings)
     table = pd.DataFrame({"station_m": s + line.start_station, "x": x, "y": y, "kind": kind})
+    crossings = replace(crossings, station=crossings.station + line.start_station)
     return line, crossings, table
 
 
@@ -97,9 +98,8 @@ def stage_design(project: Project, table: pd.DataFrame, crossings: al.Crossings)
 
     pipe = project.pipe
     station = table["station_m"].to_numpy()
-    offset = station[0]
     design_crossings = [
-        Crossing(station=float(s) + offset, limit=float(b), clearance=float(c), name=str(n))
+        Crossing(station=float(s), limit=float(b), clearance=float(c), name=str(n))
         for s, b, c, n in zip(crossings.station, crossings.bottom, crossings.clearance,
                               crossings.name)
     ]

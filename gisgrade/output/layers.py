@@ -69,7 +69,7 @@ def pipe_pieces(result) -> "pd.DataFrame":
 def crossing_points(result) -> "pd.DataFrame":
     c = result.crossings
     t = result.table
-    station = c.station + t["station_m"].iloc[0]
+    station = c.station
     frame = pd.DataFrame({
         "station_m": station, "name": c.name.astype(str), "layer": c.layer.astype(str),
         "angle_deg": c.angle_deg, "bottom_m": c.bottom, "clearance_required_m": c.clearance,

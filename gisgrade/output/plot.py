@@ -120,7 +120,7 @@ def _crossings_and_bends(ax, result, s, k) -> None:
     t = result.table
     c = result.crossings
     if len(c):
-        cs = c.station + s[0]
+        cs = c.station
         ax.scatter(cs, c.bottom * k, marker="v", color="#222222", zorder=5, s=28,
                    label="crossed feature bottom")
         ax.vlines(cs, (c.bottom - c.clearance) * k, c.bottom * k, color="#222222", lw=2.5,

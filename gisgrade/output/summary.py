@@ -30,7 +30,7 @@ def summarize(result) -> dict:
         "ground_band_95_m": float(t["ground_band_m"].iloc[0]) if "ground_band_m" in t else None,
         "notes": list(line.notes) + list(result.notes),
         "crossings": [
-            {"name": str(n), "station_m": float(st + s[0]), "angle_deg": _num(a),
+            {"name": str(n), "station_m": float(st), "angle_deg": _num(a),
              "bottom_m": float(b), "clearance_required_m": float(c)}
             for n, st, a, c, b in zip(result.crossings.name, result.crossings.station,
                                       result.crossings.angle_deg, result.crossings.clearance,
