@@ -29,6 +29,8 @@ from .errors import InputError
 
 #: Station kind flags.
 REGULAR, VERTEX, CROSSING, END = 1, 2, 4, 8
+#: Hydraulic station kinds: a fitting or valve, an offtake, a pipe-section boundary.
+FITTING, OFFTAKE, SECTION = 16, 32, 64
 
 #: Stations closer than this (m) to a special station are dropped as duplicates.
 STATION_TOLERANCE = 1e-3
@@ -374,14 +376,34 @@ def locate_crossings(alignment: Alignment, layers, vertical_factor: float = 1.0)
                      name=np.asarray(cols[6], dtype=object), layer=np.asarray(cols[7], dtype=object))
 
 
-def stations(alignment: Alignment, spacing: float, crossings: Crossings):
-    """Station, x, y and kind flags for the whole line (pure given the inputs)."""
+def stations(alignment: Alignment, spacing: float, crossings: Crossings, extra=()):
+    """Station, x, y and kind flags for the whole line (pure given the inputs).
+
+    ``extra``: more ``(stations, kind_flag)`` pairs (fittings, offtakes,
+    section boundaries), stations measured from the line's first point.
+    """
     special = [(alignment.vertex_stations, VERTEX)]
     if len(crossings):
         special.append((crossings.station, CROSSING))
+    special += [(np.asarray(v, dtype=float), f) for v, f in extra if np.size(v)]
     s, kind = station_positions(alignment.length, spacing, special)
     x, y = interpolate_xy(alignment.coords, s)
     return s, x, y, kind
+
+
+def locate_points(alignment: Alignment, path: Path, key: str, layer=None):
+    """Snap a point layer onto the centerline.
+
+    Returns ``(gdf, station, offset)``: the layer's features (in the working
+    CRS), each point's station from the line's first point (by
+    ``line_locate_point``) and its distance from the line (m).
+    """
+    gdf = read_vector(path, key, layer=layer).to_crs(alignment.crs)
+    kinds = set(gdf.geometry.geom_type)
+    if kinds - {"Point"}:
+        raise InputError(f"{key}: {path.name} must hold points, found {', '.join(sorted(kinds))}")
+    pts = gdf.geometry.values
+    return gdf, shapely.line_locate_point(alignment.line, pts), shapely.distance(alignment.line, pts)
 
 
 def format_station(station_m, units: str = "SI", decimals: int = 2) -> np.ndarray:

@@ -54,14 +54,17 @@ def range_findings(station, value, mask, *, scenario, check, severity, unit, lim
 
 
 def pressure_findings(station, pressure, hgl, top, velocity, scenario: str,
-                      limits: Thresholds = Thresholds()) -> list[dict]:
+                      limits: Thresholds = Thresholds(), pressure_high=None) -> list[dict]:
     """Low, high and sub-atmospheric pressure, and velocity, for one scenario.
 
     ``pressure`` in Pa at the pipe axis, ``hgl`` and ``top`` (top of pipe) in
     m, ``velocity`` in m/s. Sub-atmospheric means the HGL is below the top of
     the pipe (field notes: air entry, contamination, column separation).
+    ``pressure_high`` (Pa, default ``pressure``) is the higher side of any
+    point loss, used for the high-pressure check.
     """
     kpa = pressure / 1e3
+    high = pressure if pressure_high is None else np.asarray(pressure_high)
     out = []
     out += range_findings(station, hgl - top, hgl < top, scenario=scenario,
                           check="sub-atmospheric", severity="critical", unit="m", limit=0.0,
@@ -70,7 +73,7 @@ def pressure_findings(station, pressure, hgl, top, velocity, scenario: str,
     out += range_findings(station, kpa, low, scenario=scenario, check="low pressure",
                           severity="warning", unit="kPa", limit=limits.min_pressure / 1e3,
                           text="pressure {value:.0f} kPa below {limit:.0f} kPa")
-    out += range_findings(station, kpa, pressure > limits.max_pressure, scenario=scenario,
+    out += range_findings(station, high / 1e3, high > limits.max_pressure, scenario=scenario,
                           check="high pressure", severity="warning", unit="kPa",
                           limit=limits.max_pressure / 1e3, worst="max",
                           text="pressure {value:.0f} kPa above {limit:.0f} kPa")
@@ -84,6 +87,19 @@ def pressure_findings(station, pressure, hgl, top, velocity, scenario: str,
         out += range_findings(station, velocity, slow, scenario=scenario, check="low velocity",
                               severity="note", unit="m/s", limit=limits.min_velocity,
                               text="velocity {value:.2f} m/s below {limit:.2f} m/s")
+    return out
+
+
+def rating_findings(station, pressure, rating, scenario: str) -> list[dict]:
+    """Stations where the pressure (Pa) exceeds the pipe's pressure rating (Pa,
+    one value per station; NaN where none is given), one finding per run."""
+    rating = np.asarray(rating, dtype=float)
+    out = []
+    for r in np.unique(rating[np.isfinite(rating)]):  # one pass per rating (sections)
+        over = (rating == r) & (pressure > r)
+        out += range_findings(station, pressure / 1e3, over, scenario=scenario, check="rating",
+                              severity="critical", unit="kPa", limit=r / 1e3, worst="max",
+                              text="pressure {value:.0f} kPa above the pipe's rating {limit:.0f} kPa")
     return out
 
 

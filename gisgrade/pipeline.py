@@ -17,6 +17,7 @@ import pandas as pd
 
 from . import alignment as al
 from . import findings as fd
+from .errors import InputError
 from .hydraulics.friction import G
 from .project import Project, load
 
@@ -36,6 +37,7 @@ class Result:
     summary: dict = field(default_factory=dict)
     profile: object = None  # design.PipeProfile
     notes: list = field(default_factory=list)  # stage remarks for the summary
+    cases: pd.DataFrame | None = None  # one row per scenario: heads used, solved or required
 
 
 # --------------------------------------------------------------------------
@@ -52,10 +54,69 @@ def stage_alignment(project: Project):
                              feature=cfg.feature, start_station=cfg.start_station)
     vfac = vertical_unit_factor(project.terrain.vertical_unit)
     crossings = al.locate_crossings(line, project.crossings, vfac)
-    s, x, y, kind = al.stations(line, cfg.spacing, crossings)
+    extra, located, line = hydraulic_stations(project, line)
+    s, x, y, kind = al.stations(line, cfg.spacing, crossings, extra)
     table = pd.DataFrame({"station_m": s + line.start_station, "x": x, "y": y, "kind": kind})
+    if located is not None:  # offtakes from point layers (flows in m3/s)
+        at = _station_index(table["station_m"].to_numpy(), located[0], "offtakes")
+        table["offtake_m3_s"] = np.bincount(at, weights=located[1], minlength=len(table))
     crossings = replace(crossings, station=crossings.station + line.start_station)
     return line, crossings, table
+
+
+def hydraulic_stations(project: Project, line: al.Alignment):
+    """Stations the hydraulics needs on the table: fittings, offtakes and
+    section boundaries as ``(stations, flag)`` pairs measured from the line's
+    first point; offtake point layers snapped to the line, as ``(station,
+    flow)`` arrays (or None); and the line with a note on how far the points
+    lay from it."""
+    s0 = line.start_station
+    extra = [(np.array([f.station for f in project.fittings]) - s0, al.FITTING),
+             (np.array([o.station for o in project.offtakes if o.station is not None]) - s0,
+              al.OFFTAKE),
+             (np.array([b for sec in project.sections for b in (sec.start, sec.end)]) - s0,
+              al.SECTION)]
+    layers = [o for o in project.offtakes if o.path is not None]
+    if not layers:
+        return extra, None, line
+    from .units import parse_quantity
+
+    stations, flows, notes = [], [], []
+    for o in layers:
+        gdf, st, offset = al.locate_points(line, o.path, f"{o.key}.path", layer=o.layer)
+        if o.flow_field not in gdf.columns:
+            raise InputError(f"{o.key}.flow_field = {o.flow_field!r}: no such attribute in "
+                             f"{o.path.name} (has {', '.join(c for c in gdf.columns if c != 'geometry')})")
+        q = pd.to_numeric(gdf[o.flow_field], errors="coerce").to_numpy(dtype=float)
+        bad = ~np.isfinite(q) | (q < 0)
+        if bad.any():
+            i = int(np.flatnonzero(bad)[0])
+            raise InputError(f"{o.key}.flow_field: feature {i} of {o.path.name} has "
+                             f"{o.flow_field} = {gdf[o.flow_field].iloc[i]!r}, not a flow >= 0")
+        stations.append(st)
+        flows.append(q * parse_quantity(f"1 {o.flow_unit}", "flow", f"{o.key}.flow_unit"))
+        if len(st):
+            k = int(np.argmax(offset))
+            notes.append(f"{o.key}: {len(st)} offtake points from {o.path.name} snapped to the "
+                         f"line; farthest {offset[k]:.1f} m away (station {st[k] + s0:.1f} m)")
+    st, q = np.concatenate(stations), np.concatenate(flows)
+    extra.append((st, al.OFFTAKE))
+    line = replace(line, notes=line.notes + tuple(notes))
+    return extra, (st + s0, q), line
+
+
+def _station_index(station: np.ndarray, x, key: str) -> np.ndarray:
+    """Index of the table station at each position ``x`` (within the
+    stationing tolerance); an InputError naming ``key`` if one is not a station."""
+    x = np.atleast_1d(np.asarray(x, dtype=float))
+    i = np.clip(np.searchsorted(station, x), 1, len(station) - 1)
+    i = np.where(np.abs(station[i - 1] - x) <= np.abs(station[i] - x), i - 1, i)
+    off = np.abs(station[i] - x) > al.STATION_TOLERANCE
+    if off.any():
+        bad = float(x[np.flatnonzero(off)[0]])
+        raise InputError(f"{key}: station {bad:g} m is not on the line (stations "
+                         f"{station[0]:g} to {station[-1]:g} m)")
+    return i
 
 
 def stage_terrain(project: Project, line: al.Alignment, table: pd.DataFrame):
@@ -103,75 +164,224 @@ def stage_design(project: Project, table: pd.DataFrame, crossings: al.Crossings)
         for s, b, c, n in zip(crossings.station, crossings.bottom, crossings.clearance,
                               crossings.name)
     ]
-    rules = DesignRules(min_cover=project.cover.minimum, outside_diameter=pipe.outside_diameter)
+    outside = _column(table, "outside_diameter_m", pipe.outside_diameter)
+    rules = DesignRules(min_cover=project.cover.minimum, outside_diameter=float(outside.max()))
     profile = design_profile(station, table["ground_m"].to_numpy(), design_crossings, rules)
-    axis = profile.top - pipe.outside_diameter / 2
+    axis = profile.top - outside / 2
     table = table.assign(
         top_m=profile.top,
         axis_m=axis,
-        invert_m=axis - pipe.inside_diameter / 2,
+        invert_m=axis - _column(table, "inside_diameter_m", pipe.inside_diameter) / 2,
         cover_m=table["ground_m"].to_numpy() - profile.top,
         reason=profile.reason,
     )
     return table, profile
 
 
-def stage_hydraulics(project: Project, table: pd.DataFrame, bends: pd.DataFrame) -> pd.DataFrame:
-    """HGL, EGL, velocity and pressure per scenario (design flow and static).
+def _column(table: pd.DataFrame, name: str, default: float) -> np.ndarray:
+    if name in table.columns:
+        return table[name].to_numpy(dtype=float)
+    return np.full(len(table), float(default))
 
-    The vertical bends of the pipe profile are point losses, K by angle at
-    each scenario's Reynolds number. ``hgl_upstream_m`` keeps the HGL just
-    upstream of any point loss (lower than ``hgl_m`` where an expansion
-    recovers pressure), so the checks see the lowest pressure at a station.
+
+def stage_pipe(project: Project, table: pd.DataFrame) -> pd.DataFrame:
+    """Pipe data per station from [pipe], [[sections]], [[fittings]] and [[offtakes]].
+
+    Adds ``inside_diameter_m, outside_diameter_m, roughness_m, hw_c,
+    rating_pa, fitting_k, offtake_m3_s``. A station carries the data of the
+    pipe that leaves it (the last station: of the pipe that reaches it), so
+    the design stage lays each section at its own outside diameter.
+    ``fitting_k`` sums the K of the fittings at a station; ``offtake_m3_s``
+    the base-case flow leaving there (point-layer offtakes are already in
+    the column from the alignment stage).
     """
-    from .hydraulics import friction, minor, water
-    from .hydraulics.gradelines import grade_lines
+    from .hydraulics.cases import segment_values
 
+    pipe, secs = project.pipe, project.sections
+    station = table["station_m"].to_numpy(dtype=float)
+    starts, ends = [s.start for s in secs], [s.end for s in secs]
+
+    def per_station(attr, default):
+        return segment_values(station, starts, ends, [getattr(s, attr) for s in secs], default)[1]
+
+    inside = per_station("inside_diameter", pipe.inside_diameter)
+    outside = per_station("outside_diameter", pipe.outside_diameter)
+    if np.any(outside < inside):
+        i = int(np.argmax(outside < inside))
+        raise InputError(f"[[sections]]: outside diameter {outside[i] * 1e3:g} mm is smaller than "
+                         f"the inside diameter {inside[i] * 1e3:g} mm at station {station[i]:g} m "
+                         "(give both diameters in a section that changes one)")
+    for sec in secs:
+        for value, which in ((sec.start, "from"), (sec.end, "to")):
+            _station_index(station, value, f"{sec.key}.{which}")
+    fitting_k = np.zeros(len(station))
+    if project.fittings:
+        for f in project.fittings:
+            fitting_k[_station_index(station, f.station, f"{f.key}.station")] += f.k
+    offtake = _column(table, "offtake_m3_s", 0.0).copy()
+    for o in project.offtakes:
+        if o.station is not None:
+            offtake[_station_index(station, o.station, f"{o.key}.station")] += o.flow
+    rating = per_station("pressure_rating", pipe.pressure_rating)
+    return table.assign(
+        inside_diameter_m=inside, outside_diameter_m=outside,
+        roughness_m=per_station("roughness", pipe.roughness),
+        hw_c=per_station("hazen_williams_c", pipe.hazen_williams_c),
+        rating_pa=rating, fitting_k=fitting_k, offtake_m3_s=offtake,
+    )
+
+
+def stage_hydraulics(project: Project, table: pd.DataFrame, bends: pd.DataFrame):
+    """HGL, EGL, velocity and pressure per scenario, and the heads used.
+
+    Returns ``(grades, cases)``: ``grades`` one row per scenario and station
+    (``scenario, station_m, flow_m3_s, velocity_m_s, hgl_m, egl_m,
+    pressure_kpa, hgl_upstream_m, density_kg_m3``); ``cases`` one row per
+    scenario (``scenario, boundary, inflow_m3_s, source_head_m,
+    required_head_m, pump_head_m, end_head_m``).
+
+    The table needs ``station_m, axis_m`` and the columns of
+    :func:`stage_pipe` (added here from the project if missing). The
+    vertical bends of the pipe profile are point losses, K by angle at each
+    scenario's Reynolds number; fittings, a tank entrance at the first
+    station and a tank exit at the last add theirs. ``hgl_upstream_m`` keeps
+    the HGL just upstream of any point loss (lower than ``hgl_m`` where an
+    expansion recovers pressure), so the checks see the lowest pressure.
+    """
+    from .hydraulics import minor, water
+    from .hydraulics.cases import solve_inflow
+    from .hydraulics.gradelines import grade_lines, required_source_head, segment_flows
+
+    if "fitting_k" not in table.columns:
+        table = stage_pipe(project, table)
     pipe, hyd = project.pipe, project.hydraulics
-    station = table["station_m"].to_numpy()
-    axis = table["axis_m"].to_numpy()
+    station = table["station_m"].to_numpy(dtype=float)
+    axis = table["axis_m"].to_numpy(dtype=float)
+    n = len(station)
     rho = float(water.density(hyd.temperature))
     mu = float(water.dynamic_viscosity(hyd.temperature))
-    d = pipe.inside_diameter
-    at = np.clip(np.searchsorted(station, bends["station_m"].to_numpy()), 0, len(station) - 1)
+    d = table["inside_diameter_m"].to_numpy(dtype=float)
+    eps = table["roughness_m"].to_numpy(dtype=float)
+    base_k = table["fitting_k"].to_numpy(dtype=float).copy()
+    if hyd.start == "tank":
+        base_k[0] += minor.NAMED_K[f"entrance_{hyd.entrance}"].k
+    if hyd.end == "tank":
+        base_k[-1] += minor.NAMED_K["exit"].k
+    off = table["offtake_m3_s"].to_numpy(dtype=float)
+    xs, qs = station[off > 0], off[off > 0]
+    at = np.clip(np.searchsorted(station, bends["station_m"].to_numpy()), 0, n - 1)
     angles = np.radians(bends["angle_deg"].to_numpy(dtype=float))
-    rel_roughness = (pipe.roughness or 0.0) / d
-    frames = []
-    for name, flow in scenarios(project):
-        point_k = np.zeros(len(station))
-        if len(at) and flow > 0:
-            re = friction.reynolds(flow / (np.pi * d * d / 4), d, rho, mu)
-            np.add.at(point_k, at, minor.bend_k(angles, Re=re, rel_roughness=rel_roughness))
-        g = grade_lines(
-            station, axis, source_head=hyd.source_head, flow=flow, diameter=d,
-            method=pipe.friction, roughness=pipe.roughness, hw_c=pipe.hazen_williams_c,
-            density=rho, viscosity=mu, point_k=point_k,
-        )
+    engine = dict(
+        diameter=d[:-1], method=pipe.friction,
+        roughness=None if pipe.friction == "hazen-williams" else eps[:-1],
+        hw_c=table["hw_c"].to_numpy(dtype=float)[:-1] if pipe.friction == "hazen-williams" else None,
+        density=rho, viscosity=mu, source_at_rest=hyd.start == "tank",
+    )
+
+    def point_k(flows):
+        k = base_k.copy()
+        if len(at):
+            q = np.append(flows, flows[-1])[at]
+            re = np.abs(q) / (np.pi * d[at] ** 2 / 4) * d[at] * rho / mu
+            k_bend = minor.bend_k(angles, Re=np.where(re > 0, re, 3e5),
+                                  rel_roughness=np.nan_to_num(eps[at] / d[at]))
+            np.add.at(k, at, np.where(re > 0, k_bend, 0.0))
+        return k
+
+    def flows_for(name, inflow, scale):
+        flows = segment_flows(station, inflow, xs, qs * scale)
+        if np.any(flows < -1e-12):
+            raise InputError(f"scenario {name!r}: the offtakes ({np.sum(qs * scale) * 1e3:.1f} L/s) "
+                             f"take more than the inflow ({inflow * 1e3:.1f} L/s)")
+        return np.maximum(flows, 0.0)
+
+    p_req = hyd.required_pressure if hyd.required_pressure is not None else project.checks.min_pressure
+    where = None
+    if hyd.required_at == "end":
+        where = np.zeros(n, dtype=bool)
+        where[-1] = True
+    end_head = hyd.end_head
+    if hyd.boundary == "two-heads" and end_head is None:  # free outlet: atmospheric at the axis
+        end_head = float(axis[-1])
+    frames, cases = [], []
+    flowing_heads = []
+    for name, inflow, scale in scenarios(project):
+        required = pump = None
+        head = hyd.source_head
+        if inflow is None:  # two heads: solve the inflow (bend K follow the flow)
+            inflow = float(np.sum(qs))
+            for _ in range(3):
+                k = point_k(flows_for(name, inflow, scale))
+                try:
+                    inflow = solve_inflow(station, axis, head_start=head, head_end=end_head,
+                                          offtake_station=xs, offtake_flow=qs * scale,
+                                          end_at_rest=hyd.end == "tank", point_k=k, **engine)
+                except ValueError as exc:
+                    raise InputError(f"hydraulics.end_head: {exc}") from None
+        flows = flows_for(name, inflow, scale)
+        k = point_k(flows)
+        if hyd.boundary == "min-pressure":
+            if inflow > 0:
+                required = required_source_head(station, axis, min_pressure=p_req, flow=flows,
+                                                point_k=k, where=where, **engine)
+                head = required if hyd.source_head is None else max(required, hyd.source_head)
+                pump = None if hyd.source_head is None else max(0.0, required - hyd.source_head)
+                flowing_heads.append(head)
+            elif head is None:  # static case without an available head: the highest used
+                head = max(flowing_heads) if flowing_heads else float(np.max(axis)) + p_req / (rho * G)
+        g = grade_lines(station, axis, source_head=head, flow=flows, point_k=k, **engine)
         frames.append(pd.DataFrame({
-            "scenario": name, "station_m": station, "flow_m3_s": flow,
+            "scenario": name, "station_m": station, "flow_m3_s": np.append(flows, flows[-1]),
             "velocity_m_s": g.velocity, "hgl_m": g.hgl, "egl_m": g.egl,
             "pressure_kpa": g.pressure / 1e3, "hgl_upstream_m": g.hgl_upstream,
             "density_kg_m3": rho,
         }))
-    return pd.concat(frames, ignore_index=True)
+        cases.append(dict(scenario=name, boundary=hyd.boundary, inflow_m3_s=float(inflow),
+                          source_head_m=float(head), required_head_m=required, pump_head_m=pump,
+                          end_head_m=end_head if inflow > 0 else None))
+    return pd.concat(frames, ignore_index=True), pd.DataFrame(cases)
 
 
-def scenarios(project: Project) -> list[tuple[str, float]]:
-    """Named flow cases: the design flow, then the static case (no flow)."""
-    return [("design", project.hydraulics.flow), ("static", 0.0)]
+def scenarios(project: Project) -> list[tuple[str, float | None, float]]:
+    """Named flow cases as ``(name, inflow m3/s, offtake scale)``, the static case last.
+
+    Without [[scenarios]]: one case "design" at [hydraulics] flow. A
+    scenario scales the whole base case (inflow and offtakes) by its
+    multiplier; one given by its flow has multiplier flow / [hydraulics]
+    flow. With two heads the inflow is solved (None here).
+    """
+    hyd = project.hydraulics
+    if hyd.boundary == "two-heads":
+        cases = [("design", None, 1.0)]
+    elif not project.scenarios:
+        cases = [("design", hyd.flow, 1.0)]
+    else:
+        cases = []
+        for sc in project.scenarios:
+            if sc.multiplier is not None:
+                cases.append((sc.name, sc.multiplier * hyd.flow, sc.multiplier))
+            else:
+                cases.append((sc.name, sc.flow, sc.flow / hyd.flow if hyd.flow else 1.0))
+    return cases + [("static", 0.0, 0.0)]
 
 
 def stage_findings(project: Project, table: pd.DataFrame, grades: pd.DataFrame) -> pd.DataFrame:
-    """Pressure, velocity and cover violations as station ranges."""
+    """Pressure, velocity, rating and cover violations as station ranges."""
     station = table["station_m"].to_numpy()
     top = table["top_m"].to_numpy()
     rows = fd.cover_findings(station, table["cover_m"].to_numpy(), project.cover.minimum)
     axis = table["axis_m"].to_numpy()
+    rating = _column(table, "rating_pa", np.nan if project.pipe.pressure_rating is None
+                     else project.pipe.pressure_rating)
     for name, g in grades.groupby("scenario", sort=False):
-        hgl = np.minimum(g["hgl_m"].to_numpy(), g["hgl_upstream_m"].to_numpy())
-        pressure = g["density_kg_m3"].to_numpy() * G * (hgl - axis)
+        both = g[["hgl_m", "hgl_upstream_m"]].to_numpy()
+        rho_g = g["density_kg_m3"].to_numpy() * G
+        hgl = both.min(axis=1)
+        pressure = rho_g * (hgl - axis)
+        high = rho_g * (both.max(axis=1) - axis)
         rows += fd.pressure_findings(station, pressure, hgl, top, g["velocity_m_s"].to_numpy(),
-                                     name, project.checks)
+                                     name, project.checks, pressure_high=high)
+        rows += fd.rating_findings(station, high, rating, name)
     return fd.table(rows)
 
 
@@ -190,12 +400,13 @@ def run(project, outdir=None, *, write: bool = True) -> Result:
         project = load(project)
     line, crossings, table = stage_alignment(project)
     table, notes = stage_terrain(project, line, table)
+    table = stage_pipe(project, table)
     table, profile = stage_design(project, table, crossings)
     bends = _bends_frame(profile.bends)
-    grades = stage_hydraulics(project, table, bends)
+    grades, cases = stage_hydraulics(project, table, bends)
     found = stage_findings(project, table, grades)
     result = Result(project, line, crossings, table, grades, found, bends,
-                    list(profile.relaxations), profile=profile, notes=notes)
+                    list(profile.relaxations), profile=profile, notes=notes, cases=cases)
     return _finish(result, outdir, write)
 
 

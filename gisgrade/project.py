@@ -59,6 +59,55 @@ class PipeConfig:
     friction: str  # "darcy-weisbach" | "hazen-williams"
     roughness: float | None = None  # m (Darcy-Weisbach)
     hazen_williams_c: float | None = None  # plain number (Hazen-Williams)
+    material: str | None = None  # a name in hydraulics.materials.MATERIALS
+    pressure_rating: float | None = None  # Pa, the pipe's rated working pressure
+
+
+@dataclass(frozen=True)
+class PipeSectionConfig:
+    """One [[sections]] table: pipe data over a station range (None: as [pipe])."""
+
+    start: float  # m, station where the section begins
+    end: float  # m, station where it ends
+    inside_diameter: float | None = None  # m
+    outside_diameter: float | None = None  # m
+    roughness: float | None = None  # m
+    hazen_williams_c: float | None = None
+    pressure_rating: float | None = None  # Pa
+    key: str = "sections[0]"
+
+
+@dataclass(frozen=True)
+class FittingConfig:
+    """One [[fittings]] table: a point loss K at a station."""
+
+    station: float  # m
+    k: float  # loss coefficient on the downstream velocity head
+    kind: str | None = None  # the named kind, if given
+    key: str = "fittings[0]"
+
+
+@dataclass(frozen=True)
+class OfftakeConfig:
+    """One [[offtakes]] table: a flow leaving at a station, or a point layer of them."""
+
+    station: float | None = None  # m (a single offtake)
+    flow: float | None = None  # m3/s (a single offtake)
+    path: Path | None = None  # a point layer instead
+    flow_field: str | None = None
+    flow_unit: str = "L/s"  # unit of the layer's flow values
+    layer: str | None = None
+    key: str = "offtakes[0]"
+
+
+@dataclass(frozen=True)
+class ScenarioConfig:
+    """One [[scenarios]] table: a named flow case."""
+
+    name: str
+    flow: float | None = None  # m3/s entering at the start
+    multiplier: float | None = None  # times [hydraulics] flow
+    show_egl: bool = True
 
 
 @dataclass(frozen=True)
@@ -77,9 +126,16 @@ class CrossingLayerConfig:
 
 @dataclass(frozen=True)
 class HydraulicsConfig:
-    source_head: float  # m, HGL elevation at the first station
-    flow: float  # m3/s
+    source_head: float | None  # m, HGL at the first station (a tank level if start = "tank")
+    flow: float | None  # m3/s, the base flow entering at the first station
     temperature: float  # K
+    boundary: str = "source-head"  # | "two-heads" | "min-pressure"
+    end_head: float | None = None  # m (two-heads)
+    start: str = "main"  # | "tank"
+    end: str = "open"  # | "tank" | "main"
+    entrance: str = "sharp"  # entrance kind when start = "tank"
+    required_pressure: float | None = None  # Pa (min-pressure); None: [checks] min_pressure
+    required_at: str = "everywhere"  # | "end"
 
 
 @dataclass(frozen=True)
@@ -98,6 +154,10 @@ class Project:
     hydraulics: HydraulicsConfig | None
     crossings: tuple[CrossingLayerConfig, ...] = ()
     checks: Thresholds = field(default_factory=Thresholds)
+    sections: tuple[PipeSectionConfig, ...] = ()
+    fittings: tuple[FittingConfig, ...] = ()
+    offtakes: tuple[OfftakeConfig, ...] = ()
+    scenarios: tuple[ScenarioConfig, ...] = ()
     output: OutputConfig = field(default_factory=OutputConfig)
 
     @property
@@ -221,7 +281,8 @@ def _suggest(word: str, choices) -> str:
 
 FRICTION_METHODS = ("darcy-weisbach", "hazen-williams")
 SECTIONS = ("alignment", "terrain", "pipe", "cover", "crossings", "hydraulics", "checks",
-            "output")
+            "output", "sections", "fittings", "offtakes", "scenarios")
+BOUNDARIES = ("source-head", "two-heads", "min-pressure")
 
 
 def _read_alignment(s: Section) -> AlignmentConfig:
@@ -265,21 +326,100 @@ def _read_terrain(s: Section) -> TerrainConfig:
 def _read_pipe(s: Section) -> PipeConfig:
     inside = s.quantity("inside_diameter", "length", positive=True)
     outside = s.quantity("outside_diameter", "length", positive=True)
-    if outside < inside:
+    _check_diameters(s, inside, outside)
+    method = s.string("friction", "darcy-weisbach", choices=FRICTION_METHODS)
+    name, roughness, c = _friction_data(s)
+    if method == "darcy-weisbach" and roughness is None:
+        raise InputError(f"{s.file.name}: missing required key {s.key('roughness')} "
+                         f"(needed for friction = \"darcy-weisbach\"), e.g. roughness = \"0.1 mm\" "
+                         f"or material = \"ductile-iron-cement-lined\"")
+    if method == "hazen-williams" and c is None:
+        raise InputError(f"{s.file.name}: missing required key {s.key('hazen_williams_c')} "
+                         f"(needed for friction = \"hazen-williams\"), e.g. hazen_williams_c = 130 "
+                         f"or material = \"pvc\"")
+    rating = s.quantity("pressure_rating", "pressure", None, positive=True)
+    return PipeConfig(inside, outside, method, roughness, c, name, rating)
+
+
+def _check_diameters(s: Section, inside, outside) -> None:
+    if inside is not None and outside is not None and outside < inside:
         raise InputError(
             f"{s.key('outside_diameter')} = {s.table['outside_diameter']!r}: smaller than "
             f"{s.key('inside_diameter')} = {s.table['inside_diameter']!r}"
         )
-    method = s.string("friction", "darcy-weisbach", choices=FRICTION_METHODS)
+
+
+def _friction_data(s: Section):
+    """``material``, ``roughness`` and ``hazen_williams_c`` of a table; an
+    explicit roughness or C wins over the material's value."""
+    from .hydraulics.materials import material
+
+    name = s.string("material", None)
+    mat = material(name, s.key("material")) if name is not None else None
     roughness = s.quantity("roughness", "length", None, minimum=0.0)
     c = s.number("hazen_williams_c", None, positive=True)
-    if method == "darcy-weisbach" and roughness is None:
-        raise InputError(f"{s.file.name}: missing required key {s.key('roughness')} "
-                         f"(needed for friction = \"darcy-weisbach\"), e.g. roughness = \"0.1 mm\"")
-    if method == "hazen-williams" and c is None:
-        raise InputError(f"{s.file.name}: missing required key {s.key('hazen_williams_c')} "
-                         f"(needed for friction = \"hazen-williams\"), e.g. hazen_williams_c = 130")
-    return PipeConfig(inside, outside, method, roughness, c)
+    if mat is not None:
+        roughness = mat.roughness if roughness is None else roughness
+        c = mat.hazen_williams_c if c is None else c
+    return name, roughness, c
+
+
+def _read_pipe_section(s: Section) -> PipeSectionConfig:
+    start = s.quantity("from", "length")
+    end = s.quantity("to", "length")
+    if end <= start:
+        raise InputError(f"{s.key('to')} = {s.table['to']!r}: must be beyond "
+                         f"{s.key('from')} = {s.table['from']!r}")
+    inside = s.quantity("inside_diameter", "length", None, positive=True)
+    outside = s.quantity("outside_diameter", "length", None, positive=True)
+    _check_diameters(s, inside, outside)
+    _, roughness, c = _friction_data(s)
+    return PipeSectionConfig(start, end, inside, outside, roughness, c,
+                             s.quantity("pressure_rating", "pressure", None, positive=True), s.name)
+
+
+def _read_fitting(s: Section) -> FittingConfig:
+    from .hydraulics.minor import k_for
+
+    station = s.quantity("station", "length")
+    kind = s.string("kind", None)
+    k = s.number("k", None)
+    if (kind is None) == (k is None):
+        raise InputError(f"{s.file.name}: {s.name} needs exactly one of {s.key('kind')} "
+                         f"(a named fitting) or {s.key('k')} (a loss coefficient)")
+    if k is not None and k < 0:
+        raise InputError(f"{s.key('k')} = {k!r}: must not be negative")
+    if kind is not None:
+        try:
+            k = k_for(kind)
+        except InputError as exc:
+            raise InputError(f"{s.key('kind')}: {exc}") from None
+    return FittingConfig(station, k, kind, s.name)
+
+
+def _read_offtake(s: Section) -> OfftakeConfig:
+    if "path" in s.table:
+        unit = s.string("flow_unit", "L/s")
+        parse_quantity(f"1 {unit}", "flow", s.key("flow_unit"))  # validate early
+        return OfftakeConfig(path=s.path("path"), flow_field=s.string("flow_field"),
+                             flow_unit=unit, layer=s.string("layer", None), key=s.name)
+    return OfftakeConfig(station=s.quantity("station", "length"),
+                         flow=s.quantity("flow", "flow", minimum=0.0), key=s.name)
+
+
+def _read_scenario(s: Section) -> ScenarioConfig:
+    name = s.string("name")
+    if name.lower() == "static":
+        raise InputError(f"{s.key('name')} = {name!r}: the static case is always computed; "
+                         "choose another name")
+    flow = s.quantity("flow", "flow", None, minimum=0.0)
+    mult = s.number("multiplier", None)
+    if (flow is None) == (mult is None):
+        raise InputError(f"{s.file.name}: {s.name} needs exactly one of {s.key('flow')} "
+                         f"or {s.key('multiplier')}")
+    if mult is not None and mult < 0:
+        raise InputError(f"{s.key('multiplier')} = {mult!r}: must not be negative")
+    return ScenarioConfig(name, flow, mult, s.boolean("show_egl", True))
 
 
 def _read_cover(s: Section) -> CoverConfig:
@@ -303,10 +443,28 @@ def _read_hydraulics(s: Section) -> HydraulicsConfig:
             f"{s.key('temperature')} = {s.table.get('temperature')!r}: outside 0-40 degC, "
             "the range of the water property correlations"
         )
+    boundary = s.string("boundary", "source-head", choices=BOUNDARIES)
+    # two-heads solves the flow; min-pressure solves the head (source_head is
+    # then the head available without a pump, optional).
+    source_head = s.quantity("source_head", "length", None if boundary == "min-pressure" else _MISSING)
+    flow = s.quantity("flow", "flow", None, minimum=0.0)
+    end_head = s.quantity("end_head", "length", _MISSING if boundary == "two-heads" else None)
+    if boundary != "two-heads" and end_head is not None:
+        raise InputError(f"{s.key('end_head')}: only used with {s.key('boundary')} = \"two-heads\"")
+    if boundary == "two-heads" and end_head > source_head:
+        raise InputError(f"{s.key('end_head')} = {s.table['end_head']!r}: above "
+                         f"{s.key('source_head')}; the flow would run backwards")
     return HydraulicsConfig(
-        source_head=s.quantity("source_head", "length"),
-        flow=s.quantity("flow", "flow", minimum=0.0),
+        source_head=source_head,
+        flow=flow,
         temperature=temperature,
+        boundary=boundary,
+        end_head=end_head,
+        start=s.string("start", "main", choices=("main", "tank")),
+        end=s.string("end", "open", choices=("open", "tank", "main")),
+        entrance=s.string("entrance", "sharp", choices=("sharp", "rounded", "projecting")),
+        required_pressure=s.quantity("required_pressure", "pressure", None),
+        required_at=s.string("required_at", "everywhere", choices=("everywhere", "end")),
     )
 
 
@@ -369,18 +527,21 @@ def load(path, *, ground_only: bool = False) -> Project:
         sec.finish()
         return out
 
-    raw_crossings = data.get("crossings", [])
-    if isinstance(raw_crossings, dict):
-        raw_crossings = [raw_crossings]
-    if not isinstance(raw_crossings, list):
-        raise InputError(f"{file.name}: [[crossings]] must be a list of tables")
-    crossings = []
-    for i, table in enumerate(raw_crossings):
-        sec = Section(table, f"crossings[{i}]", base, file)
-        crossings.append(_read_crossing(sec))
-        sec.finish()
+    def tables(name: str, reader) -> tuple:
+        raw = data.get(name, [])
+        if isinstance(raw, dict):
+            raw = [raw]
+        if not isinstance(raw, list):
+            raise InputError(f"{file.name}: [[{name}]] must be a list of tables")
+        out = []
+        for i, table in enumerate(raw):
+            sec = Section(table, f"{name}[{i}]", base, file)
+            out.append(reader(sec))
+            sec.finish()
+        return tuple(out)
 
-    return Project(
+    crossings = tables("crossings", _read_crossing)
+    project = Project(
         path=file,
         alignment=section("alignment", _read_alignment),
         terrain=section("terrain", _read_terrain),
@@ -390,4 +551,38 @@ def load(path, *, ground_only: bool = False) -> Project:
         crossings=tuple(crossings),
         checks=section("checks", _read_checks, required=False),
         output=section("output", _read_output, required=False),
+        sections=tables("sections", _read_pipe_section),
+        fittings=tables("fittings", _read_fitting),
+        offtakes=tables("offtakes", _read_offtake),
+        scenarios=tables("scenarios", _read_scenario),
     )
+    _check_hydraulic_cases(project)
+    return project
+
+
+def _check_hydraulic_cases(p: Project) -> None:
+    """Cross-section rules of the hydraulic keys (one line naming the key)."""
+    names = [sc.name for sc in p.scenarios]
+    dup = sorted({n for n in names if names.count(n) > 1})
+    if dup:
+        raise InputError(f"{p.path.name}: scenario name {dup[0]!r} given twice in [[scenarios]]")
+    hyd = p.hydraulics
+    if hyd is None:
+        return
+    if hyd.boundary == "two-heads":
+        if p.scenarios:
+            raise InputError(f"{p.path.name}: [[scenarios]] cannot be used with hydraulics.boundary "
+                             "= \"two-heads\": the flow is solved from the two heads")
+        if hyd.flow is not None:
+            raise InputError(f"{p.path.name}: hydraulics.flow is not used with hydraulics.boundary "
+                             "= \"two-heads\" (the flow is solved); remove it")
+        return
+    needs_flow = (not p.scenarios or any(sc.multiplier is not None for sc in p.scenarios)
+                  or (any(o.flow is not None or o.path is not None for o in p.offtakes)
+                      and p.scenarios))
+    if hyd.flow is None and needs_flow:
+        why = ("scenarios scale the offtakes by flow / hydraulics.flow" if p.offtakes and p.scenarios
+               else "the design flow or a scenario's multiplier needs it")
+        raise InputError(f"{p.path.name}: missing required key hydraulics.flow ({why})")
+    if hyd.flow == 0 and p.scenarios and p.offtakes:
+        raise InputError("hydraulics.flow = 0: scenarios with offtakes need a base flow above zero")

@@ -1,0 +1,82 @@
+"""Pipe materials: default absolute roughness and Hazen-Williams C.
+
+A small table for planning. Each value is a typical figure for new pipe (or
+aged pipe where the name says so); the maker's data, the utility's records or
+a field test governs. An explicit ``roughness`` or ``hazen_williams_c`` in the
+project file always wins over the material's value.
+
+References
+----------
+.. [1] Moody, L. F. (1944). "Friction factors for pipe flow." Trans. ASME 66,
+   671-684 (roughness of commercial steel 0.045 mm, cast iron 0.26 mm).
+.. [2] Williams, G. S., Hazen, A. (1920). *Hydraulic Tables*, 3rd ed. Wiley
+   (C values by material and age).
+.. [3] AWWA Manual M41, *Ductile-Iron Pipe and Fittings* (C = 140 for
+   cement-lined ductile iron; from memory).
+.. [4] Field notes of this project (common practice ranges: PVC/PE 0.0015-
+   0.007 mm, cement-lined DI 0.03-0.3 mm, old cast iron 0.25-1 mm; C: PVC
+   140-150, new cement-lined DI 130-140, aged cast iron 80-100; from memory).
+"""
+from __future__ import annotations
+
+import difflib
+from typing import NamedTuple
+
+from gisgrade.errors import InputError
+
+
+class Material(NamedTuple):
+    """Default friction data of a pipe material (SI)."""
+
+    roughness: float  #: m, absolute roughness (Darcy-Weisbach)
+    hazen_williams_c: float  #: -, Hazen-Williams C
+    source: str  #: where the values come from
+
+
+#: Named materials. Keys are lower case with hyphens.
+MATERIALS: dict[str, Material] = {
+    "pvc": Material(0.0015e-3, 150.0, "roughness Moody smooth-pipe end / C Hazen-Williams tables; from memory [2][4]"),
+    "hdpe": Material(0.007e-3, 150.0, "upper end of the PE range; common practice, from memory [4]"),
+    "ductile-iron-cement-lined": Material(0.1e-3, 140.0, "mid of 0.03-0.3 mm; C 140 per AWWA M41, from memory [3][4]"),
+    "ductile-iron-unlined": Material(0.26e-3, 130.0, "Moody's cast iron 0.26 mm; C common practice, from memory [1][4]"),
+    "steel-cement-lined": Material(0.1e-3, 140.0, "as cement-lined ductile iron; common practice, from memory [4]"),
+    "steel": Material(0.045e-3, 120.0, "Moody's commercial steel 0.045 mm; C common practice, from memory [1][4]"),
+    "cast-iron-new": Material(0.26e-3, 130.0, "Moody's cast iron; C Hazen-Williams tables, from memory [1][2]"),
+    "cast-iron-old": Material(1.0e-3, 90.0, "aged, tuberculated: 0.25-1 mm, C 80-100; common practice, from memory [4]"),
+    "concrete": Material(0.3e-3, 130.0, "smooth concrete 0.3-3 mm (Moody) at the smooth end; C common practice, from memory [1]"),
+}
+
+
+def material(name: str, key: str = "material") -> Material:
+    """Look up a material by name (case-insensitive; spaces or underscores read as hyphens).
+
+    Parameters
+    ----------
+    name : str
+        Material name, e.g. ``"ductile-iron-cement-lined"``.
+    key : str
+        Project-file key, for the error message.
+
+    Returns
+    -------
+    Material
+        roughness [m], hazen_williams_c [-], source.
+
+    Raises
+    ------
+    InputError
+        Unknown name; the message names the key and suggests the nearest.
+
+    Examples
+    --------
+    >>> material("PVC").hazen_williams_c
+    150.0
+    >>> material("ductile iron cement lined").roughness
+    0.0001
+    """
+    norm = "-".join(str(name).strip().lower().replace("_", " ").replace("-", " ").split())
+    if norm in MATERIALS:
+        return MATERIALS[norm]
+    near = difflib.get_close_matches(norm, MATERIALS, n=1, cutoff=0.0)
+    hint = f" (did you mean {near[0]!r}?)" if near else ""
+    raise InputError(f"{key} = {name!r}: unknown material{hint}; known: {', '.join(MATERIALS)}")
