@@ -94,8 +94,8 @@ def _grade_lines(ax, axp, result, s, k) -> None:
         hgl, egl = g["hgl_m"].to_numpy() * k, g["egl_m"].to_numpy() * k
         p = g["pressure_kpa"].to_numpy()
         if (g["flow_m3_s"].to_numpy() == 0).all():
-            ax.plot(s, hgl, label=f"static HGL", **STATIC)
-            axp.plot(s, p, **STATIC)
+            ax.plot(s, hgl, label="static HGL", **STATIC)
+            axp.plot(s, p, label="static", **STATIC)
             continue
         colour = SCENARIO_COLOURS[flow_i % len(SCENARIO_COLOURS)]
         flow_i += 1
