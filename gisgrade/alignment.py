@@ -17,7 +17,7 @@ kinds (zone boundaries, fittings) without a new column.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 import numpy as np
@@ -28,9 +28,9 @@ from shapely.geometry import LineString, MultiLineString
 from .errors import InputError
 
 #: Station kind flags.
-REGULAR, VERTEX, CROSSING, END = 1, 2, 4, 8
+REGULAR, VERTEX, CROSSING, END, ZONE = 1, 2, 4, 8, 16
 #: Hydraulic station kinds: a fitting or valve, an offtake, a pipe-section boundary.
-FITTING, OFFTAKE, SECTION = 16, 32, 64
+FITTING, OFFTAKE, SECTION = 32, 64, 128
 
 #: Stations closer than this (m) to a special station are dropped as duplicates.
 STATION_TOLERANCE = 1e-3
@@ -64,17 +64,42 @@ class Crossings:
     station: np.ndarray  # m along the line (0 at the first point; the pipeline adds start_station)
     x: np.ndarray
     y: np.ndarray
-    bottom: np.ndarray  # m, crossed feature's bottom elevation (vertical datum of the DEM)
+    bottom: np.ndarray  # m, crossed feature's bottom elevation (DEM datum); nan: from depth
     clearance: np.ndarray  # m, required vertical separation
     angle_deg: np.ndarray  # acute angle between the two lines, degrees
     name: np.ndarray  # str, feature name (or layer key and feature index)
     layer: np.ndarray  # str, project-file key of the crossing layer
+    depth: np.ndarray = None  # m, ground to the feature's top (nan: bottom given)
+    size: np.ndarray = None  # m, the feature's outside height (nan: unknown)
+    side: np.ndarray = None  # str, "under" or "over": how the pipe passes
+
+    def __post_init__(self):
+        n = len(self.station)
+        for name, fill in (("depth", np.nan), ("size", np.nan), ("side", "under")):
+            if getattr(self, name) is None:
+                dtype = object if isinstance(fill, str) else float
+                object.__setattr__(self, name, np.full(n, fill, dtype=dtype))
 
     @classmethod
     def empty(cls) -> "Crossings":
         f = np.empty(0)
         s = np.empty(0, dtype=object)
         return cls(f, f, f, f, f, f, s, s)
+
+    def resolve(self, ground_at) -> "Crossings":
+        """Bottoms from depth below ground where no bottom was given:
+        bottom = ground - depth - size (size 0 when unknown)."""
+        need = ~np.isfinite(self.bottom)
+        if not need.any():
+            return self
+        size = np.where(np.isfinite(self.size), self.size, 0.0)
+        bottom = np.where(need, ground_at(self.station) - self.depth - size, self.bottom)
+        return replace(self, bottom=bottom)
+
+    @property
+    def top(self) -> np.ndarray:
+        """The crossed feature's top (m); nan where its size is unknown."""
+        return self.bottom + self.size
 
     def __len__(self) -> int:
         return len(self.station)
@@ -317,75 +342,193 @@ def read_alignment(path: Path, *, layer=None, reverse=False, where=None, feature
     return Alignment(line, work, src, length, geodesic, start_station, tuple(notes))
 
 
+def _field_values(gdf, cfg_key: str, field: str | None, factor: float, path: Path):
+    """A numeric attribute as metres (nan where absent), errors naming the key."""
+    if field is None:
+        return np.full(len(gdf), np.nan)
+    if field not in gdf.columns:
+        have = ", ".join(c for c in gdf.columns if c != "geometry")
+        raise InputError(f"{cfg_key} = {field!r}: no such attribute in {path.name} (has {have})")
+    import pandas as pd
+
+    values = pd.to_numeric(gdf[field], errors="coerce").to_numpy(dtype=float)
+    return values * factor
+
+
 def locate_crossings(alignment: Alignment, layers, vertical_factor: float = 1.0) -> Crossings:
     """Find where each crossing layer's features cross the centerline.
 
-    ``layers`` are :class:`~gisgrade.project.CrossingLayerConfig`. Bottom
-    elevations are read in the DEM's vertical unit and returned in metres.
-    A feature crossed twice gives two crossings; a feature that does not
-    reach the line is skipped.
+    ``layers`` are :class:`~gisgrade.project.CrossingLayerConfig`. The crossed
+    feature's bottom elevation comes from ``bottom_field``, or later from
+    ``depth_field`` (ground to its top) plus its size (see
+    :meth:`Crossings.resolve`). Attribute values are in the layer's
+    ``field_unit`` (default: the DEM's vertical unit, ``vertical_factor``
+    metres each). A feature crossed twice gives two crossings; a feature
+    that does not reach the line is skipped.
     """
     rows = []
     coords = alignment.coords
     for cfg in layers:
         gdf = read_vector(cfg.path, f"{cfg.key}.path", layer=cfg.layer)
-        if cfg.bottom_field not in gdf.columns:
-            raise InputError(
-                f"{cfg.key}.bottom_field = {cfg.bottom_field!r}: no such attribute in "
-                f"{cfg.path.name} (has {', '.join(c for c in gdf.columns if c != 'geometry')})"
-            )
+        factor = cfg.field_factor if cfg.field_factor is not None else vertical_factor
+        bottom = _field_values(gdf, f"{cfg.key}.bottom_field", cfg.bottom_field, factor, cfg.path)
+        depth = _field_values(gdf, f"{cfg.key}.depth_field", cfg.depth_field, factor, cfg.path)
+        size = _field_values(gdf, f"{cfg.key}.size_field", cfg.size_field, factor, cfg.path)
+        if cfg.size is not None:
+            size = np.where(np.isfinite(size), size, cfg.size)
         gdf = gdf.to_crs(alignment.crs)
         geoms = gdf.geometry.values
         hits = shapely.intersection(geoms, alignment.line)
         names = gdf["name"].astype(str).values if "name" in gdf.columns else None
+        used = cfg.bottom_field or cfg.depth_field
         for i, hit in enumerate(hits):
             if hit.is_empty:
                 continue
             points = shapely.get_parts(shapely.extract_unique_points(hit))
             if len(points) == 0:
                 continue
-            bottom = gdf[cfg.bottom_field].iloc[i]
-            try:
-                bottom = float(bottom)
-            except (TypeError, ValueError):
-                bottom = math.nan
-            if not math.isfinite(bottom):
+            value = bottom[i] if cfg.bottom_field else depth[i]
+            if not math.isfinite(value):
                 raise InputError(
-                    f"{cfg.key}.bottom_field: feature {i} of {cfg.path.name} crosses the line "
-                    f"but its {cfg.bottom_field!r} is {gdf[cfg.bottom_field].iloc[i]!r}"
+                    f"{cfg.key}: feature {i} of {cfg.path.name} crosses the line but its "
+                    f"{used!r} is {gdf[used].iloc[i]!r}"
+                )
+            if cfg.side == "over" and not math.isfinite(size[i]) and cfg.depth_field is None:
+                raise InputError(
+                    f"{cfg.key}.side = \"over\": feature {i} of {cfg.path.name} needs its size "
+                    f"(size_field or size) to place the pipe above it"
                 )
             feat = np.asarray(shapely.get_coordinates(geoms[i]))
             s_line = shapely.line_locate_point(alignment.line, points)
-            feat_line = LineString(feat) if len(feat) >= 2 else None
-            if feat_line is not None and isinstance(geoms[i], LineString):
-                s_feat = shapely.line_locate_point(feat_line, points)
-                a_feat = tangent_angle(feat, s_feat)
-                angle = crossing_angle(tangent_angle(coords, s_line), a_feat)
+            if isinstance(geoms[i], LineString) and len(feat) >= 2:
+                s_feat = shapely.line_locate_point(geoms[i], points)
+                angle = crossing_angle(tangent_angle(coords, s_line), tangent_angle(feat, s_feat))
             else:
                 angle = np.full(len(points), np.nan)
             name = names[i] if names is not None else f"{cfg.path.stem}#{i}"
             xy = shapely.get_coordinates(points)
             for k in range(len(points)):
-                rows.append((s_line[k], xy[k, 0], xy[k, 1], bottom * vertical_factor,
-                             cfg.clearance, angle[k], name, cfg.key))
+                rows.append((s_line[k], xy[k, 0], xy[k, 1], bottom[i], cfg.clearance, angle[k],
+                             name, cfg.key, depth[i], size[i], cfg.side))
     if not rows:
         return Crossings.empty()
     rows.sort(key=lambda r: r[0])
     cols = list(zip(*rows))
-    return Crossings(*(np.asarray(c, dtype=float) for c in cols[:6]),
-                     name=np.asarray(cols[6], dtype=object), layer=np.asarray(cols[7], dtype=object))
+    f = [np.asarray(c, dtype=float) if i not in (6, 7, 10) else None for i, c in enumerate(cols)]
+    return Crossings(f[0], f[1], f[2], f[3], f[4], f[5],
+                     name=np.asarray(cols[6], dtype=object), layer=np.asarray(cols[7], dtype=object),
+                     depth=f[8], size=f[9], side=np.asarray(cols[10], dtype=object))
 
 
-def stations(alignment: Alignment, spacing: float, crossings: Crossings, extra=()):
+@dataclass(frozen=True)
+class CoverZones:
+    """Stretches of the line inside cover zones (one row per stretch)."""
+
+    start: np.ndarray  # m along the line
+    end: np.ndarray  # m
+    minimum: np.ndarray  # m cover inside the stretch (nan: the line's own)
+    maximum: np.ndarray  # m (nan: the line's own)
+    name: np.ndarray  # str
+
+    @classmethod
+    def empty(cls) -> "CoverZones":
+        f = np.empty(0)
+        return cls(f, f, f, f, np.empty(0, dtype=object))
+
+    def __len__(self) -> int:
+        return len(self.start)
+
+    @property
+    def boundaries(self) -> np.ndarray:
+        return np.concatenate([self.start, self.end])
+
+    def shifted(self, offset: float) -> "CoverZones":
+        return replace(self, start=self.start + offset, end=self.end + offset)
+
+
+def locate_zones(alignment: Alignment, layers) -> CoverZones:
+    """Where the centerline runs inside each cover-zone polygon.
+
+    ``layers`` are :class:`~gisgrade.project.CoverZoneConfig`: a polygon
+    layer with minimum/maximum cover from the project file or from
+    attributes. Each piece of the line inside a polygon is one stretch.
+    """
+    rows = []
+    for cfg in layers:
+        gdf = read_vector(cfg.path, f"{cfg.key}.path", layer=cfg.layer)
+        polys = gdf.geom_type.isin(["Polygon", "MultiPolygon"]).to_numpy()
+        if not polys.all():
+            bad = gdf.geom_type.iloc[int(np.argmin(polys))]
+            raise InputError(f"{cfg.key}.path: {cfg.path.name} holds a {bad}; zones are polygons")
+        mins = _field_values(gdf, f"{cfg.key}.minimum_field", cfg.minimum_field, cfg.field_factor,
+                             cfg.path)
+        maxs = _field_values(gdf, f"{cfg.key}.maximum_field", cfg.maximum_field, cfg.field_factor,
+                             cfg.path)
+        if cfg.minimum is not None:
+            mins = np.where(np.isfinite(mins), mins, cfg.minimum)
+        if cfg.maximum is not None:
+            maxs = np.where(np.isfinite(maxs), maxs, cfg.maximum)
+        gdf = gdf.to_crs(alignment.crs)
+        names = gdf["name"].astype(str).values if "name" in gdf.columns else None
+        inside = shapely.intersection(alignment.line, gdf.geometry.values)
+        for i, piece in enumerate(inside):
+            for part in shapely.get_parts(shapely.line_merge(piece) if not piece.is_empty else piece):
+                if part.geom_type != "LineString" or part.length == 0:
+                    continue
+                ends = shapely.line_locate_point(alignment.line, shapely.points(
+                    np.asarray(part.coords)[[0, -1], :2]))
+                name = names[i] if names is not None else f"{cfg.path.stem}#{i}"
+                rows.append((float(ends.min()), float(ends.max()), mins[i], maxs[i], name))
+    if not rows:
+        return CoverZones.empty()
+    rows.sort()
+    cols = list(zip(*rows))
+    return CoverZones(*(np.asarray(c, dtype=float) for c in cols[:4]),
+                      name=np.asarray(cols[4], dtype=object))
+
+
+def zone_cover(station, zones: CoverZones, minimum: float, maximum: float | None):
+    """Minimum and maximum cover at each station (m).
+
+    Inside a zone its values replace the line's own; where zones overlap, and
+    at a zone's boundary stations, the stricter value holds (the larger
+    minimum, the smaller maximum).
+
+    >>> z = CoverZones(np.array([10.0]), np.array([20.0]), np.array([1.8]), np.array([np.nan]),
+    ...                np.array(["road"], dtype=object))
+    >>> lo, hi = zone_cover(np.array([0.0, 10.0, 15.0, 20.0, 30.0]), z, 1.2, 3.0)
+    >>> lo.tolist(), hi.tolist()
+    ([1.2, 1.8, 1.8, 1.8, 1.2], [3.0, 3.0, 3.0, 3.0, 3.0])
+    """
+    station = np.asarray(station, dtype=float)
+    top = np.inf if maximum is None else maximum
+    if not len(zones):
+        return np.full(station.shape, minimum), np.full(station.shape, top)
+    tol = STATION_TOLERANCE
+    inside = (station[:, None] >= zones.start - tol) & (station[:, None] <= zones.end + tol)
+    edge = (np.abs(station[:, None] - zones.start) <= tol) | (np.abs(station[:, None] - zones.end) <= tol)
+    zmin = np.where(np.isfinite(zones.minimum), zones.minimum, minimum)
+    zmax = np.where(np.isfinite(zones.maximum), zones.maximum, top)
+    lo = np.where(inside, zmin, -np.inf).max(axis=1)
+    hi = np.where(inside, zmax, np.inf).min(axis=1)
+    any_in = inside.any(axis=1)
+    on_edge = edge.any(axis=1)
+    lo = np.where(any_in, np.where(on_edge, np.maximum(lo, minimum), lo), minimum)
+    hi = np.where(any_in, np.where(on_edge, np.minimum(hi, top), hi), top)
+    return lo, hi
+
+
+def stations(alignment: Alignment, spacing: float, crossings: Crossings,
+             zones: CoverZones | None = None, extra=()):
     """Station, x, y and kind flags for the whole line (pure given the inputs).
 
-    ``extra``: more ``(stations, kind_flag)`` pairs (fittings, offtakes,
-    section boundaries), stations measured from the line's first point.
+    ``extra`` is more ``(stations, flag)`` pairs (fittings, offtakes, ...).
     """
-    special = [(alignment.vertex_stations, VERTEX)]
+    special = [(alignment.vertex_stations, VERTEX), *extra]
     if len(crossings):
         special.append((crossings.station, CROSSING))
-    special += [(np.asarray(v, dtype=float), f) for v, f in extra if np.size(v)]
+    if zones is not None and len(zones):
+        special.append((zones.boundaries, ZONE))
     s, kind = station_positions(alignment.length, spacing, special)
     x, y = interpolate_xy(alignment.coords, s)
     return s, x, y, kind

@@ -43,7 +43,7 @@ def build_parser() -> argparse.ArgumentParser:
 
     _command(sub, "run", "run every stage on a project file and write the outputs",
              "Run every stage on PROJECT (TOML) and write profile.csv, gradelines.csv, "
-             "findings.csv, bends.csv, layers.gpkg, profile.png and summary files.",
+             "findings.csv, fittings.csv, layers.gpkg, profile.png and summary files.",
              "gisgrade run project.toml -o out")
     _command(sub, "profile",
              "the ground profile alone, for screening routes before pipe data exist",

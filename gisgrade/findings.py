@@ -104,11 +104,22 @@ def rating_findings(station, pressure, rating, scenario: str) -> list[dict]:
 
 
 def cover_findings(station, cover, min_cover) -> list[dict]:
-    """Stations where the designed pipe has less than the minimum cover."""
-    short = cover < np.asarray(min_cover) - 1e-6
-    return range_findings(station, cover, short, scenario="design", check="cover",
-                          severity="critical", unit="m", limit=float(np.min(min_cover)),
-                          text="cover {value:.2f} m below the minimum {limit:.2f} m")
+    """Stations where the designed pipe has less than the minimum cover
+    (``min_cover`` per station: zones may change it)."""
+    min_cover = np.broadcast_to(np.asarray(min_cover, dtype=float), np.shape(cover))
+    short = cover < min_cover - 1e-6
+    rows = range_findings(station, cover - min_cover, short, scenario="design", check="cover",
+                          severity="critical", unit="m", limit=0.0,
+                          text="cover {value:.2f} m short of the minimum")
+    return rows
+
+
+def relaxation_findings(relaxations) -> list[dict]:
+    """One finding per design rule that had to give way (see design.Relaxation)."""
+    return [dict(scenario="design", check=f"rule relaxed: {r.rule}", severity="critical",
+                 from_station_m=float(r.station_from), to_station_m=float(r.station_to),
+                 worst_station_m=float(r.station_from), worst_value=float(r.amount), unit=r.unit,
+                 limit=0.0, message=r.message) for r in relaxations]
 
 
 def table(findings: list[dict]) -> pd.DataFrame:

@@ -54,13 +54,18 @@ def stage_alignment(project: Project):
                              feature=cfg.feature, start_station=cfg.start_station)
     vfac = vertical_unit_factor(project.terrain.vertical_unit)
     crossings = al.locate_crossings(line, project.crossings, vfac)
+    zones = al.locate_zones(line, project.cover_zones)
     extra, located, line = hydraulic_stations(project, line)
-    s, x, y, kind = al.stations(line, cfg.spacing, crossings, extra)
-    table = pd.DataFrame({"station_m": s + line.start_station, "x": x, "y": y, "kind": kind})
+    s, x, y, kind = al.stations(line, cfg.spacing, crossings, zones, extra)
+    offset = line.start_station
+    table = pd.DataFrame({"station_m": s + offset, "x": x, "y": y, "kind": kind})
+    if project.cover is not None:
+        lo, hi = al.zone_cover(s, zones, project.cover.minimum, project.cover.maximum)
+        table["min_cover_m"], table["max_cover_m"] = lo, hi
     if located is not None:  # offtakes from point layers (flows in m3/s)
         at = _station_index(table["station_m"].to_numpy(), located[0], "offtakes")
         table["offtake_m3_s"] = np.bincount(at, weights=located[1], minlength=len(table))
-    crossings = replace(crossings, station=crossings.station + line.start_station)
+    crossings = replace(crossings, station=crossings.station + offset)
     return line, crossings, table
 
 
@@ -154,28 +159,69 @@ def accuracy_95(rmse: float) -> float:
 
 
 def stage_design(project: Project, table: pd.DataFrame, crossings: al.Crossings):
-    """Pipe profile: top of pipe, axis, invert and cover at every station."""
+    """Pipe profile: top of pipe, axis, invert and cover at every station.
+
+    Returns the grown table, the crossings with their bottoms resolved (from
+    depth below ground where given so) and the design's
+    :class:`~gisgrade.design.PipeProfile`.
+    """
     from .design import Crossing, DesignRules, design_profile
 
-    pipe = project.pipe
+    pipe, rules_cfg = project.pipe, project.design
     station = table["station_m"].to_numpy()
+    ground = table["ground_m"].to_numpy()
+    crossings = crossings.resolve(lambda s: np.interp(s, station, ground))
+    ground_at = np.interp(crossings.station, station, ground)
+    top = np.where(np.isfinite(crossings.size), crossings.top, ground_at - crossings.depth)
     design_crossings = [
-        Crossing(station=float(s), limit=float(b), clearance=float(c), name=str(n))
-        for s, b, c, n in zip(crossings.station, crossings.bottom, crossings.clearance,
-                              crossings.name)
+        Crossing(station=float(s), limit=float(b if side == "under" else t), clearance=float(c),
+                 side=str(side), name=str(n))
+        for s, b, t, c, side, n in zip(crossings.station, crossings.bottom, top,
+                                       crossings.clearance, crossings.side, crossings.name)
     ]
-    outside = _column(table, "outside_diameter_m", pipe.outside_diameter)
-    rules = DesignRules(min_cover=project.cover.minimum, outside_diameter=float(outside.max()))
-    profile = design_profile(station, table["ground_m"].to_numpy(), design_crossings, rules)
-    axis = profile.top - outside / 2
-    table = table.assign(
+    od = _column(table, "outside_diameter_m", pipe.outside_diameter)  # per station (sections)
+    rules = DesignRules(
+        min_cover=table["min_cover_m"].to_numpy(),
+        max_cover=None if not np.isfinite(table["max_cover_m"]).any() else
+        np.where(np.isfinite(table["max_cover_m"]), table["max_cover_m"], 1e6),
+        outside_diameter=float(od.max()),
+        joint_length=rules_cfg.joint_length,
+        max_joint_deflection=rules_cfg.max_joint_deflection,
+        bend_angles=rules_cfg.bend_angles,
+        min_grade=rules_cfg.min_grade,
+        max_transition_grade=rules_cfg.max_grade,
+        trench_width=rules_cfg.trench_width or od + TRENCH_SIDE_ROOM,
+    )
+    profile = design_profile(station, ground, design_crossings, rules)
+    axis = profile.top - od / 2
+    grown = table.assign(
         top_m=profile.top,
         axis_m=axis,
         invert_m=axis - _column(table, "inside_diameter_m", pipe.inside_diameter) / 2,
-        cover_m=table["ground_m"].to_numpy() - profile.top,
+        cover_m=ground - profile.top,
+        upper_limit_m=profile.upper_limit,
+        lower_limit_m=profile.lower_limit,
+        deflection_deg=np.degrees(profile.deflection),
+        deflection_limit_deg=np.degrees(profile.deflection_limit),
         reason=profile.reason,
     )
-    return table, profile
+    return grown, crossings, profile
+
+
+#: Trench width beyond the pipe's outside diameter, 0.3 m each side (common
+#: practice for preliminary quantities; the utility's standard governs).
+TRENCH_SIDE_ROOM = 0.6
+
+
+def fittings_frame(profile, table: pd.DataFrame) -> pd.DataFrame:
+    """The design's vertical bends with their map position (x, y)."""
+    from .design import fittings_table
+
+    frame = fittings_table(profile)
+    s = table["station_m"].to_numpy()
+    frame["x"] = np.interp(frame["station_m"], s, table["x"])
+    frame["y"] = np.interp(frame["station_m"], s, table["y"])
+    return frame
 
 
 def _column(table: pd.DataFrame, name: str, default: float) -> np.ndarray:
@@ -365,11 +411,13 @@ def scenarios(project: Project) -> list[tuple[str, float | None, float]]:
     return cases + [("static", 0.0, 0.0)]
 
 
-def stage_findings(project: Project, table: pd.DataFrame, grades: pd.DataFrame) -> pd.DataFrame:
-    """Pressure, velocity, rating and cover violations as station ranges."""
+def stage_findings(project: Project, table: pd.DataFrame, grades: pd.DataFrame,
+                   relaxations=()) -> pd.DataFrame:
+    """Pressure, velocity, pressure-rating and cover violations, and design
+    rules that gave way, as station ranges."""
     station = table["station_m"].to_numpy()
     top = table["top_m"].to_numpy()
-    rows = fd.cover_findings(station, table["cover_m"].to_numpy(), project.cover.minimum)
+    rows = fd.cover_findings(station, table["cover_m"].to_numpy(), table["min_cover_m"].to_numpy())
     axis = table["axis_m"].to_numpy()
     rating = _column(table, "rating_pa", np.nan if project.pipe.pressure_rating is None
                      else project.pipe.pressure_rating)
@@ -382,6 +430,7 @@ def stage_findings(project: Project, table: pd.DataFrame, grades: pd.DataFrame) 
         rows += fd.pressure_findings(station, pressure, hgl, top, g["velocity_m_s"].to_numpy(),
                                      name, project.checks, pressure_high=high)
         rows += fd.rating_findings(station, high, rating, name)
+    rows += fd.relaxation_findings(relaxations)
     return fd.table(rows)
 
 
@@ -401,10 +450,10 @@ def run(project, outdir=None, *, write: bool = True) -> Result:
     line, crossings, table = stage_alignment(project)
     table, notes = stage_terrain(project, line, table)
     table = stage_pipe(project, table)
-    table, profile = stage_design(project, table, crossings)
-    bends = _bends_frame(profile.bends)
+    table, crossings, profile = stage_design(project, table, crossings)
+    bends = fittings_frame(profile, table)
     grades, cases = stage_hydraulics(project, table, bends)
-    found = stage_findings(project, table, grades)
+    found = stage_findings(project, table, grades, profile.relaxations)
     result = Result(project, line, crossings, table, grades, found, bends,
                     list(profile.relaxations), profile=profile, notes=notes, cases=cases)
     return _finish(result, outdir, write)
@@ -435,12 +484,3 @@ def resolve_outdir(project: Project, outdir=None) -> Path:
     if project.output.dir is not None:
         return project.output.dir
     return project.base_dir / "gisgrade-out"
-
-
-def _bends_frame(bends) -> pd.DataFrame:
-    frame = pd.DataFrame(bends)
-    if "station" in frame.columns and "station_m" not in frame.columns:
-        frame = frame.rename(columns={"station": "station_m"})
-    if frame.empty:
-        frame = pd.DataFrame({"station_m": [], "angle_deg": [], "direction": []})
-    return frame

@@ -113,15 +113,47 @@ class ScenarioConfig:
 @dataclass(frozen=True)
 class CoverConfig:
     minimum: float  # m, ground to top of pipe
+    maximum: float | None = None  # m; None: no limit
+
+
+@dataclass(frozen=True)
+class CoverZoneConfig:
+    """A polygon layer whose zones override the cover limits inside them."""
+
+    path: Path
+    layer: str | None = None
+    minimum: float | None = None  # m, for every zone of the layer
+    maximum: float | None = None
+    minimum_field: str | None = None  # attribute, in field_unit (wins over minimum)
+    maximum_field: str | None = None
+    field_factor: float = 1.0  # m per attribute unit
+    key: str = "cover_zones[0]"
 
 
 @dataclass(frozen=True)
 class CrossingLayerConfig:
     path: Path
-    bottom_field: str
     clearance: float  # m
+    bottom_field: str | None = None  # the feature's bottom elevation
+    depth_field: str | None = None  # or: depth from ground to the feature's top
+    size_field: str | None = None  # the feature's outside height (attribute) ...
+    size: float | None = None  # ... or one value for the layer, m
+    side: str = "under"  # "under" or "over"
+    field_factor: float | None = None  # m per attribute unit (None: the DEM's vertical unit)
     layer: str | None = None
     key: str = "crossings[0]"  # where it sits in the project file, for messages
+
+
+@dataclass(frozen=True)
+class DesignConfig:
+    """How the pipe may be laid (defaults: common practice, docs/design.md)."""
+
+    joint_length: float = 6.0  # m
+    max_joint_deflection: float = math.radians(3.0)  # rad per joint (maker's table governs)
+    bend_angles: tuple = tuple(math.radians(a) for a in (11.25, 22.5, 45.0, 90.0))
+    min_grade: float | None = None  # m/m
+    max_grade: float | None = None  # m/m
+    trench_width: float | None = None  # m; None: outside diameter + 0.6 m
 
 
 @dataclass(frozen=True)
@@ -153,6 +185,8 @@ class Project:
     cover: CoverConfig | None
     hydraulics: HydraulicsConfig | None
     crossings: tuple[CrossingLayerConfig, ...] = ()
+    cover_zones: tuple[CoverZoneConfig, ...] = ()
+    design: DesignConfig = field(default_factory=DesignConfig)
     checks: Thresholds = field(default_factory=Thresholds)
     sections: tuple[PipeSectionConfig, ...] = ()
     fittings: tuple[FittingConfig, ...] = ()
@@ -280,8 +314,8 @@ def _suggest(word: str, choices) -> str:
 # --------------------------------------------------------------------------
 
 FRICTION_METHODS = ("darcy-weisbach", "hazen-williams")
-SECTIONS = ("alignment", "terrain", "pipe", "cover", "crossings", "hydraulics", "checks",
-            "output", "sections", "fittings", "offtakes", "scenarios")
+SECTIONS = ("alignment", "terrain", "pipe", "cover", "cover_zones", "crossings", "design",
+            "hydraulics", "checks", "output", "sections", "fittings", "offtakes", "scenarios")
 BOUNDARIES = ("source-head", "two-heads", "min-pressure")
 
 
@@ -423,17 +457,93 @@ def _read_scenario(s: Section) -> ScenarioConfig:
 
 
 def _read_cover(s: Section) -> CoverConfig:
-    return CoverConfig(minimum=s.quantity("minimum", "length", minimum=0.0))
+    minimum = s.quantity("minimum", "length", minimum=0.0)
+    maximum = s.quantity("maximum", "length", None, minimum=0.0)
+    if maximum is not None and maximum < minimum:
+        raise InputError(f"{s.key('maximum')} = {s.table['maximum']!r}: less than "
+                         f"{s.key('minimum')} = {s.table['minimum']!r}")
+    return CoverConfig(minimum=minimum, maximum=maximum)
+
+
+def _field_unit(s: Section, default=None):
+    """``field_unit``: the unit attribute values are in, as metres per unit."""
+    unit = s.string("field_unit", None)
+    if unit is None:
+        return None if default is None else default
+    try:
+        return parse_quantity(f"1 {unit}", "length", s.key("field_unit"))
+    except InputError:
+        raise InputError(f"{s.key('field_unit')} = {unit!r}: expected a length unit, e.g. \"m\" "
+                         "or \"ft\"") from None
+
+
+def _read_cover_zone(s: Section) -> CoverZoneConfig:
+    cfg = CoverZoneConfig(
+        path=s.path("path"),
+        layer=s.string("layer", None),
+        minimum=s.quantity("minimum", "length", None, minimum=0.0),
+        maximum=s.quantity("maximum", "length", None, minimum=0.0),
+        minimum_field=s.string("minimum_field", None),
+        maximum_field=s.string("maximum_field", None),
+        field_factor=_field_unit(s, 1.0),
+        key=s.name,
+    )
+    if all(v is None for v in (cfg.minimum, cfg.maximum, cfg.minimum_field, cfg.maximum_field)):
+        raise InputError(f"{s.file.name}: [[{s.name.split('[')[0]}]] {s.name} sets no cover: give "
+                         "minimum, maximum, minimum_field or maximum_field")
+    return cfg
 
 
 def _read_crossing(s: Section) -> CrossingLayerConfig:
+    bottom = s.string("bottom_field", None)
+    depth = s.string("depth_field", None)
+    if (bottom is None) == (depth is None):
+        raise InputError(f"{s.file.name}: {s.name} needs exactly one of {s.key('bottom_field')} "
+                         f"(the feature's bottom elevation) or {s.key('depth_field')} (its depth "
+                         "below ground)")
     return CrossingLayerConfig(
         path=s.path("path"),
-        bottom_field=s.string("bottom_field"),
         clearance=s.quantity("clearance", "length", minimum=0.0),
+        bottom_field=bottom,
+        depth_field=depth,
+        size_field=s.string("size_field", None),
+        size=s.quantity("size", "length", None, minimum=0.0),
+        side=s.string("side", "under", choices=("under", "over")),
+        field_factor=_field_unit(s),
         layer=s.string("layer", None),
         key=s.name,
     )
+
+
+def _read_design(s: Section) -> DesignConfig:
+    d = DesignConfig()
+    angles = s._get("bend_angles", None)
+    if angles is None:
+        bend_angles = d.bend_angles
+    elif isinstance(angles, list) and angles:
+        bend_angles = tuple(sorted(parse_quantity(a, "angle", s.key("bend_angles")) for a in angles))
+        if not all(0 < a <= math.pi / 2 + 1e-12 for a in bend_angles):
+            raise InputError(f"{s.key('bend_angles')} = {angles!r}: each angle must be above 0 "
+                             "and at most 90 deg")
+    else:
+        raise InputError(f"{s.key('bend_angles')} = {angles!r}: expected a list such as "
+                         "[\"11.25 deg\", \"22.5 deg\", \"45 deg\", \"90 deg\"]")
+    deflection = s.quantity("max_joint_deflection", "angle", "3 deg", minimum=0.0)
+    if deflection > math.radians(15):
+        raise InputError(f"{s.key('max_joint_deflection')} = {s.table['max_joint_deflection']!r}: "
+                         "more than 15 deg per joint is not a pipe joint")
+    cfg = DesignConfig(
+        joint_length=s.quantity("joint_length", "length", "6 m", positive=True),
+        max_joint_deflection=deflection,
+        bend_angles=bend_angles,
+        min_grade=s.quantity("min_grade", "dimensionless", None, positive=True),
+        max_grade=s.quantity("max_grade", "dimensionless", None, positive=True),
+        trench_width=s.quantity("trench_width", "length", None, positive=True),
+    )
+    if cfg.min_grade and cfg.max_grade and cfg.min_grade > cfg.max_grade:
+        raise InputError(f"{s.key('min_grade')} = {s.table['min_grade']!r}: steeper than "
+                         f"{s.key('max_grade')} = {s.table['max_grade']!r}")
+    return cfg
 
 
 def _read_hydraulics(s: Section) -> HydraulicsConfig:
@@ -540,7 +650,6 @@ def load(path, *, ground_only: bool = False) -> Project:
             sec.finish()
         return tuple(out)
 
-    crossings = tables("crossings", _read_crossing)
     project = Project(
         path=file,
         alignment=section("alignment", _read_alignment),
@@ -548,7 +657,9 @@ def load(path, *, ground_only: bool = False) -> Project:
         pipe=section("pipe", _read_pipe, required=not ground_only),
         cover=section("cover", _read_cover, required=not ground_only),
         hydraulics=section("hydraulics", _read_hydraulics, required=not ground_only),
-        crossings=tuple(crossings),
+        crossings=tables("crossings", _read_crossing),
+        cover_zones=tables("cover_zones", _read_cover_zone),
+        design=section("design", _read_design, required=False),
         checks=section("checks", _read_checks, required=False),
         output=section("output", _read_output, required=False),
         sections=tables("sections", _read_pipe_section),

@@ -196,6 +196,7 @@ spacing = "10 m"
 [terrain]
 dem = "dem.tif"
 vertical_unit = "m"
+vertical_accuracy = "0.5 m"   # RMSE of the (synthetic) DEM
 
 [pipe]
 # DN300 ductile iron, cement-mortar lined (sizes approximate)

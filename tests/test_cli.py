@@ -15,7 +15,7 @@ from gisgrade.cli import main
 
 from conftest import write_dem, write_lines
 
-OUTPUTS = {"profile.csv", "gradelines.csv", "findings.csv", "bends.csv", "layers.gpkg",
+OUTPUTS = {"profile.csv", "gradelines.csv", "findings.csv", "fittings.csv", "layers.gpkg",
            "profile.png", "summary.json", "summary.txt"}
 
 

@@ -5,6 +5,7 @@
   the first flow scenario's lowest pressure, from the perceptual, colour-vision
   friendly *cividis* colormap (Nuñez et al. 2018);
 - ``crossings``: one point per crossing with required and achieved clearance;
+- ``fittings``: one point per vertical bend fitting (angle, sag or crest);
 - ``stations``: one point per station with ground, pipe and cover.
 
 The ground-only run (``gisgrade profile``) writes ``crossings`` and
@@ -72,14 +73,34 @@ def crossing_points(result) -> "pd.DataFrame":
     station = c.station
     frame = pd.DataFrame({
         "station_m": station, "name": c.name.astype(str), "layer": c.layer.astype(str),
-        "angle_deg": c.angle_deg, "bottom_m": c.bottom, "clearance_required_m": c.clearance,
+        "side": c.side.astype(str), "angle_deg": c.angle_deg, "bottom_m": c.bottom,
+        "size_m": c.size, "clearance_required_m": c.clearance,
         "ground_m": np.interp(station, t["station_m"], t["ground_m"]),
     })
     if "top_m" in t.columns:
         frame["top_of_pipe_m"] = np.interp(station, t["station_m"], t["top_m"])
-        frame["clearance_achieved_m"] = c.bottom - frame["top_of_pipe_m"]
+        frame["clearance_achieved_m"] = clearance_achieved(result)
     frame["geometry"] = shapely.points(c.x, c.y)
     return frame
+
+
+def fittings_points(result) -> "pd.DataFrame":
+    f = result.bends
+    frame = f.drop(columns=["x", "y"]).copy()
+    frame["geometry"] = shapely.points(f["x"].to_numpy(), f["y"].to_numpy())
+    return frame
+
+
+def clearance_achieved(result) -> np.ndarray:
+    """Vertical separation between the outsides at each crossing (m): under a
+    feature, its bottom minus the top of pipe; over it, the pipe's bottom
+    (top minus outside diameter) minus the feature's top."""
+    c, t = result.crossings, result.table
+    top = np.interp(c.station, t["station_m"], t["top_m"])
+    od = result.project.pipe.outside_diameter
+    feature_top = np.where(np.isfinite(c.size), c.top, np.interp(c.station, t["station_m"],
+                                                                  t["ground_m"]) - c.depth)
+    return np.where(c.side == "over", top - od - feature_top, c.bottom - top)
 
 
 def station_points(result) -> "pd.DataFrame":
@@ -99,6 +120,8 @@ def write_layers(result, folder: Path) -> None:
     layers = {}
     if result.gradelines is not None:
         layers["pipe_pieces"] = pipe_pieces(result)
+    if result.bends is not None:
+        layers["fittings"] = fittings_points(result)
     layers["crossings"] = crossing_points(result)
     layers["stations"] = station_points(result)
     for i, (name, frame) in enumerate(layers.items()):

@@ -15,6 +15,7 @@ import matplotlib
 matplotlib.use("Agg")
 import matplotlib.pyplot as plt  # noqa: E402
 import numpy as np  # noqa: E402
+from matplotlib.patches import Rectangle  # noqa: E402
 from matplotlib.ticker import FuncFormatter  # noqa: E402
 
 from ..cautions import SHORT  # noqa: E402
@@ -94,8 +95,8 @@ def _grade_lines(ax, axp, result, s, k) -> None:
         hgl, egl = g["hgl_m"].to_numpy() * k, g["egl_m"].to_numpy() * k
         p = g["pressure_kpa"].to_numpy()
         if (g["flow_m3_s"].to_numpy() == 0).all():
-            ax.plot(s, hgl, label=f"static HGL", **STATIC)
-            axp.plot(s, p, **STATIC)
+            ax.plot(s, hgl, label="static HGL", **STATIC)
+            axp.plot(s, p, label="static", **STATIC)
             continue
         colour = SCENARIO_COLOURS[flow_i % len(SCENARIO_COLOURS)]
         flow_i += 1
@@ -121,13 +122,28 @@ def _crossings_and_bends(ax, result, s, k) -> None:
     c = result.crossings
     if len(c):
         cs = c.station
+        sized = np.isfinite(c.size) & np.isfinite(c.bottom)
+        if sized.any():  # the crossed feature's outline: bottom to top, 1 % of the route wide
+            w = 0.01 * (s[-1] - s[0])
+            for x, b, h in zip(cs[sized], c.bottom[sized], c.size[sized]):
+                ax.add_patch(Rectangle((x - w / 2, b * k), w, h * k, facecolor="none",
+                                       edgecolor="#222222", lw=0.8))
         ax.scatter(cs, c.bottom * k, marker="v", color="#222222", zorder=5, s=28,
                    label="crossed feature bottom")
-        ax.vlines(cs, (c.bottom - c.clearance) * k, c.bottom * k, color="#222222", lw=2.5,
-                  label="required clearance")
+        under = c.side == "under"
+        ax.vlines(cs[under], (c.bottom - c.clearance)[under] * k, c.bottom[under] * k,
+                  color="#222222", lw=2.5, label="required clearance")
+        over = ~under & np.isfinite(c.top)
+        ax.vlines(cs[over], c.top[over] * k, (c.top + c.clearance)[over] * k, color="#222222",
+                  lw=2.5)
         for x, z, name in zip(cs, c.bottom * k, c.name):
             ax.annotate(str(name), (x, z), xytext=(3, -12), textcoords="offset points",
                         fontsize=7, color="#222222")
+    if "min_cover_m" in t.columns and "cover_m" in t.columns:
+        short = t["cover_m"].to_numpy() < t["min_cover_m"].to_numpy() - 1e-6
+        if short.any():
+            ax.scatter(s[short], t["top_m"].to_numpy()[short] * k, s=10, marker="x",
+                       color="#d9534f", zorder=6, label="cover below minimum")
     if result.bends is not None and len(result.bends):
         b = result.bends["station_m"].to_numpy()
         ax.scatter(b, np.interp(b, s, t["axis_m"]) * k, marker="D", s=14, color="#c7962a",

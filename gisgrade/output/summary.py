@@ -42,10 +42,13 @@ def summarize(result) -> dict:
     if "top_m" in t.columns:
         out["cover_min_m"] = float(t["cover_m"].min())
         out["cover_max_m"] = float(t["cover_m"].max())
-        for c in out["crossings"]:
-            c["clearance_achieved_m"] = c["bottom_m"] - float(np.interp(c["station_m"], s, t["top_m"]))
+        from .layers import clearance_achieved
+
+        for c, achieved in zip(out["crossings"], clearance_achieved(result)):
+            c["clearance_achieved_m"] = float(achieved)
     if result.profile is not None:
         out["excavation_m3"] = float(result.profile.excavation_volume)
+        out["trench_volume_m3"] = float(result.profile.trench_volume)
         out["pipe_length_3d_m"] = float(result.profile.length_3d)
         out["relaxations"] = [_plain(r) for r in result.relaxations]
         out["bends"] = int(len(result.bends))
@@ -113,7 +116,8 @@ def summary_text(summary: dict) -> str:
             f"max velocity {sc['velocity_max_m_s']:.2f} m/s"
         )
     if "excavation_m3" in summary:
-        lines.append(f"trench excavation below the minimum-cover line: {summary['excavation_m3']:.1f} m3; "
+        lines.append(f"earthwork: trench {summary['trench_volume_m3']:.0f} m3, of which "
+                     f"{summary['excavation_m3']:.1f} m3 below the minimum-cover line; "
                      f"pipe length (3D) {summary['pipe_length_3d_m']:.1f} m")
     if "findings" in summary:
         lines.append(f"findings: {summary['findings']}; bends: {summary['bends']}; "

@@ -1,10 +1,14 @@
-"""CSV tables: the station profile, grade lines per scenario, findings, bends."""
+"""CSV tables: the station profile, grade lines per scenario, findings, fittings."""
 from __future__ import annotations
 
 from pathlib import Path
 
 #: profile.csv columns (stable; later issues append).
 PROFILE_COLUMNS = ["station_m", "x", "y", "ground_m", "top_m", "axis_m", "invert_m", "cover_m"]
+#: Columns appended to profile.csv when the stages produced them.
+EXTRA_PROFILE_COLUMNS = ["ground_band_m", "ground_bridged", "min_cover_m", "max_cover_m",
+                         "upper_limit_m", "lower_limit_m", "deflection_deg",
+                         "deflection_limit_deg", "reason"]
 #: gradelines.csv columns (stable; later issues append).
 GRADELINE_COLUMNS = ["scenario", "station_m", "flow_m3_s", "velocity_m_s", "hgl_m", "egl_m",
                      "pressure_kpa"]
@@ -15,7 +19,7 @@ def write_tables(result, folder: Path) -> None:
 
     table = result.table
     columns = [c for c in PROFILE_COLUMNS if c in table.columns]  # ground only: no pipe
-    extra = [c for c in ("ground_band_m", "ground_bridged", "reason") if c in table.columns]
+    extra = [c for c in EXTRA_PROFILE_COLUMNS if c in table.columns]
     profile = table[columns + extra].copy()
     profile["station"] = format_station(table["station_m"], result.project.output.units)
     profile.to_csv(folder / "profile.csv", index=False, float_format="%.4f")
@@ -25,4 +29,4 @@ def write_tables(result, folder: Path) -> None:
     if result.findings is not None:
         result.findings.to_csv(folder / "findings.csv", index=False, float_format="%.4f")
     if result.bends is not None:
-        result.bends.to_csv(folder / "bends.csv", index=False, float_format="%.4f")
+        result.bends.to_csv(folder / "fittings.csv", index=False, float_format="%.4f")
