@@ -11,6 +11,10 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
+#: Pressures within this much (Pa) of a limit meet it (a solved head meets a
+#: required pressure to rounding error, not one pascal short).
+PRESSURE_TOLERANCE = 1e-3
+
 #: Columns of the findings table (``findings.csv``).
 COLUMNS = ["scenario", "check", "severity", "from_station_m", "to_station_m",
            "worst_station_m", "worst_value", "unit", "limit", "message"]
@@ -69,13 +73,12 @@ def pressure_findings(station, pressure, hgl, top, velocity, scenario: str,
     out += range_findings(station, hgl - top, hgl < top, scenario=scenario,
                           check="sub-atmospheric", severity="critical", unit="m", limit=0.0,
                           text="HGL {value:.2f} m below the top of pipe")
-    low = (pressure < limits.min_pressure) & (hgl >= top)
+    low = (pressure < limits.min_pressure - PRESSURE_TOLERANCE) & (hgl >= top)
     out += range_findings(station, kpa, low, scenario=scenario, check="low pressure",
                           severity="warning", unit="kPa", limit=limits.min_pressure / 1e3,
                           text="pressure {value:.0f} kPa below {limit:.0f} kPa")
-    out += range_findings(station, high / 1e3, high > limits.max_pressure, scenario=scenario,
-                          check="high pressure", severity="warning", unit="kPa",
-                          limit=limits.max_pressure / 1e3, worst="max",
+    too_high = high > limits.max_pressure + PRESSURE_TOLERANCE
+    out += range_findings(station, high / 1e3, too_high, scenario=scenario, severity="warning", unit="kPa", limit=limits.max_pressure / 1e3, worst="max",
                           text="pressure {value:.0f} kPa above {limit:.0f} kPa")
     if limits.max_velocity > 0:
         out += range_findings(station, velocity, velocity > limits.max_velocity,
@@ -96,7 +99,7 @@ def rating_findings(station, pressure, rating, scenario: str) -> list[dict]:
     rating = np.asarray(rating, dtype=float)
     out = []
     for r in np.unique(rating[np.isfinite(rating)]):  # one pass per rating (sections)
-        over = (rating == r) & (pressure > r)
+        over = (rating == r) & (pressure > r + PRESSURE_TOLERANCE)
         out += range_findings(station, pressure / 1e3, over, scenario=scenario, check="rating",
                               severity="critical", unit="kPa", limit=r / 1e3, worst="max",
                               text="pressure {value:.0f} kPa above the pipe's rating {limit:.0f} kPa")

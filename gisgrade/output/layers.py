@@ -97,7 +97,8 @@ def clearance_achieved(result) -> np.ndarray:
     (top minus outside diameter) minus the feature's top."""
     c, t = result.crossings, result.table
     top = np.interp(c.station, t["station_m"], t["top_m"])
-    od = result.project.pipe.outside_diameter
+    od = (np.interp(c.station, t["station_m"], t["outside_diameter_m"])
+          if "outside_diameter_m" in t.columns else result.project.pipe.outside_diameter)
     feature_top = np.where(np.isfinite(c.size), c.top, np.interp(c.station, t["station_m"],
                                                                   t["ground_m"]) - c.depth)
     return np.where(c.side == "over", top - od - feature_top, c.bottom - top)

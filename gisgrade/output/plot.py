@@ -1,9 +1,11 @@
 """The profile sheet: ground, pipe, grade lines and a pressure strip.
 
 Upper panel: ground line, the pipe (top of pipe to invert, filled), each
-scenario's HGL (solid) and EGL (dashed; the static line dotted), crossings
-(the crossed feature's bottom and the required clearance) and bends. Lower
-strip: pressure at the pipe axis per scenario against the planning limits.
+scenario's HGL (solid) and EGL (dashed, unless the scenario says
+``show_egl = false``; the static line dotted), crossings (the crossed
+feature's bottom and the required clearance) and bends. Lower strip:
+pressure at the pipe axis per scenario against the planning limits and the
+pipe's pressure rating where given.
 The vertical exaggeration is measured from the drawn axes and printed.
 """
 from __future__ import annotations
@@ -90,19 +92,25 @@ def plot_profile(result, path: Path) -> None:
 def _grade_lines(ax, axp, result, s, k) -> None:
     """Each scenario's HGL and EGL on ``ax``, its pressure on the strip ``axp``."""
     plimit = result.project.checks
+    hide_egl = {sc.name for sc in result.project.scenarios if not sc.show_egl}
     flow_i = 0
     for name, g in result.gradelines.groupby("scenario", sort=False):
         hgl, egl = g["hgl_m"].to_numpy() * k, g["egl_m"].to_numpy() * k
         p = g["pressure_kpa"].to_numpy()
-        if (g["flow_m3_s"].to_numpy() == 0).all():
+        if name == "static":
             ax.plot(s, hgl, label="static HGL", **STATIC)
             axp.plot(s, p, label="static", **STATIC)
             continue
         colour = SCENARIO_COLOURS[flow_i % len(SCENARIO_COLOURS)]
         flow_i += 1
         ax.plot(s, hgl, color=colour, lw=1.6, label=f"HGL {name}")
-        ax.plot(s, egl, color=colour, lw=1.0, ls="--", label=f"EGL {name}")
+        if name not in hide_egl:
+            ax.plot(s, egl, color=colour, lw=1.0, ls="--", label=f"EGL {name}")
         axp.plot(s, p, color=colour, lw=1.4, label=name)
+    t = result.table
+    if "rating_pa" in t.columns and np.isfinite(t["rating_pa"]).any():
+        axp.step(s, t["rating_pa"].to_numpy() / 1e3, where="post", color="#5b2a86", lw=0.9,
+                 ls=(0, (4, 1, 1, 1)), label="pipe rating")
 
     axp.axhspan(min(axp.get_ylim()[0], 0), 0, color="#d9534f", alpha=0.12, lw=0)
     axp.axhline(plimit.min_pressure / 1e3, color="#d9534f", lw=0.8, ls="-.")

@@ -8,6 +8,7 @@ import numpy as np
 
 from .. import __version__
 from ..cautions import CAUTIONS
+from ..hydraulics.friction import G
 
 
 def summarize(result) -> dict:
@@ -56,16 +57,32 @@ def summarize(result) -> dict:
         out["findings"] = int(len(result.findings))
     if result.gradelines is None:
         return out
+    cases = {}
+    if result.cases is not None and len(result.cases):
+        cases = {r["scenario"]: r for r in result.cases.to_dict("records")}
+        out["boundary"] = str(result.cases["boundary"].iloc[0])
     for name, g in result.gradelines.groupby("scenario", sort=False):
+        # Lowest and highest pressure on either side of any point loss.
+        rho_g = g["density_kg_m3"].to_numpy() * G / 1e3 if "density_kg_m3" in g else None
         p = g["pressure_kpa"].to_numpy()
-        i, j = int(np.argmin(p)), int(np.argmax(p))
-        out["scenarios"].append({
+        p_lo, p_hi = p, p
+        if rho_g is not None and "hgl_upstream_m" in g:
+            p_up = p + rho_g * (g["hgl_upstream_m"].to_numpy() - g["hgl_m"].to_numpy())
+            p_lo, p_hi = np.minimum(p, p_up), np.maximum(p, p_up)
+        i, j = int(np.argmin(p_lo)), int(np.argmax(p_hi))
+        row = {
             "scenario": name, "flow_m3_s": float(g["flow_m3_s"].iloc[0]),
             "velocity_max_m_s": float(g["velocity_m_s"].max()),
-            "pressure_min_kpa": float(p[i]), "pressure_min_station_m": float(s[i]),
-            "pressure_max_kpa": float(p[j]), "pressure_max_station_m": float(s[j]),
+            "pressure_min_kpa": float(p_lo[i]), "pressure_min_station_m": float(s[i]),
+            "pressure_max_kpa": float(p_hi[j]), "pressure_max_station_m": float(s[j]),
+            "hgl_start_m": float(g["hgl_m"].iloc[0]),
             "hgl_end_m": float(g["hgl_m"].iloc[-1]),
-        })
+        }
+        case = cases.get(name, {})
+        for key in ("source_head_m", "required_head_m", "pump_head_m", "end_head_m"):
+            if case.get(key) is not None and np.isfinite(case[key]):
+                row[key] = float(case[key])
+        out["scenarios"].append(row)
     return out
 
 
@@ -115,6 +132,14 @@ def summary_text(summary: dict) -> str:
             f"{format_station([sc['pressure_max_station_m']])[0]}, "
             f"max velocity {sc['velocity_max_m_s']:.2f} m/s"
         )
+        if "required_head_m" in sc:
+            pump = (f"; pump head needed {sc['pump_head_m']:.2f} m beyond the available source head"
+                    if "pump_head_m" in sc else "")
+            lines.append(f"  {sc['scenario']}: source head needed {sc['required_head_m']:.2f} m "
+                         f"for the required pressure{pump}")
+        elif summary.get("boundary") == "two-heads" and "end_head_m" in sc:
+            lines.append(f"  {sc['scenario']}: flow solved between source head "
+                         f"{sc['source_head_m']:.2f} m and end head {sc['end_head_m']:.2f} m")
     if "excavation_m3" in summary:
         lines.append(f"earthwork: trench {summary['trench_volume_m3']:.0f} m3, of which "
                      f"{summary['excavation_m3']:.1f} m3 below the minimum-cover line; "
