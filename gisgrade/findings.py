@@ -78,7 +78,9 @@ def pressure_findings(station, pressure, hgl, top, velocity, scenario: str,
                           severity="warning", unit="kPa", limit=limits.min_pressure / 1e3,
                           text="pressure {value:.0f} kPa below {limit:.0f} kPa")
     too_high = high > limits.max_pressure + PRESSURE_TOLERANCE
-    out += range_findings(station, high / 1e3, too_high, scenario=scenario, severity="warning", unit="kPa", limit=limits.max_pressure / 1e3, worst="max",
+    out += range_findings(station, high / 1e3, too_high, scenario=scenario, check="high pressure",
+                          severity="warning", unit="kPa", limit=limits.max_pressure / 1e3,
+                          worst="max",
                           text="pressure {value:.0f} kPa above {limit:.0f} kPa")
     if limits.max_velocity > 0:
         out += range_findings(station, velocity, velocity > limits.max_velocity,
