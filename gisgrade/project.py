@@ -558,10 +558,13 @@ def _read_hydraulics(s: Section) -> HydraulicsConfig:
     # then the head available without a pump, optional).
     source_head = s.quantity("source_head", "length", None if boundary == "min-pressure" else _MISSING)
     flow = s.quantity("flow", "flow", None, minimum=0.0)
-    end_head = s.quantity("end_head", "length", _MISSING if boundary == "two-heads" else None)
+    end = s.string("end", "open", choices=("open", "tank", "main"))
+    # A free outlet ("open") is at atmospheric pressure: its head defaults to the axis there.
+    end_head = s.quantity("end_head", "length",
+                          _MISSING if boundary == "two-heads" and end != "open" else None)
     if boundary != "two-heads" and end_head is not None:
         raise InputError(f"{s.key('end_head')}: only used with {s.key('boundary')} = \"two-heads\"")
-    if boundary == "two-heads" and end_head > source_head:
+    if boundary == "two-heads" and end_head is not None and end_head > source_head:
         raise InputError(f"{s.key('end_head')} = {s.table['end_head']!r}: above "
                          f"{s.key('source_head')}; the flow would run backwards")
     return HydraulicsConfig(
@@ -571,7 +574,7 @@ def _read_hydraulics(s: Section) -> HydraulicsConfig:
         boundary=boundary,
         end_head=end_head,
         start=s.string("start", "main", choices=("main", "tank")),
-        end=s.string("end", "open", choices=("open", "tank", "main")),
+        end=end,
         entrance=s.string("entrance", "sharp", choices=("sharp", "rounded", "projecting")),
         required_pressure=s.quantity("required_pressure", "pressure", None),
         required_at=s.string("required_at", "everywhere", choices=("everywhere", "end")),
