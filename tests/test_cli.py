@@ -95,6 +95,15 @@ BAD = {
     "crossing field": (lambda p: _edit(p, 'bottom_field = "bottom_elev"', 'bottom_field = "invert"'),
                        ["crossings[0].bottom_field", "invert"]),
     "not TOML": (lambda p: p.write_text("[alignment\npath = 1"), ["project.toml", "TOML"]),
+    "unknown fitting kind": (lambda p: p.write_text(p.read_text() + '\n[[fittings]]\nstation = "100 m"\n'
+                                                    'kind = "butterfly valv"\n'),
+                             ["fittings[0].kind", "butterfly_valve_open"]),
+    "unknown material": (lambda p: _edit(p, 'roughness = "0.1 mm"', 'material = "ductile-iron-lined"'),
+                         ["pipe.material", "ductile-iron-cement-lined"]),
+    "scenario without flow": (lambda p: p.write_text(p.read_text() + '\n[[scenarios]]\nname = "peak"\n'),
+                              ["scenarios[0]", "multiplier"]),
+    "fitting off the line": (lambda p: p.write_text(p.read_text() + '\n[[fittings]]\nstation = "9 km"\n'
+                                                    'k = 0.5\n'), ["fittings[0].station", "9000"]),
     "bad vertical unit": (lambda p: _edit(p, 'vertical_unit = "m"', 'vertical_unit = "yards"'),
                           ["terrain.vertical_unit", "yards"]),
 }
