@@ -257,9 +257,10 @@ def stage_pipe(project: Project, table: pd.DataFrame) -> pd.DataFrame:
         raise InputError(f"[[sections]]: outside diameter {outside[i] * 1e3:g} mm is smaller than "
                          f"the inside diameter {inside[i] * 1e3:g} mm at station {station[i]:g} m "
                          "(give both diameters in a section that changes one)")
-    for sec in secs:
+    for sec in secs:  # ends inside the line must be stations; beyond it, the line's end holds
         for value, which in ((sec.start, "from"), (sec.end, "to")):
-            _station_index(station, value, f"{sec.key}.{which}")
+            if station[0] < value < station[-1]:
+                _station_index(station, value, f"{sec.key}.{which}")
     fitting_k = np.zeros(len(station))
     if project.fittings:
         for f in project.fittings:
