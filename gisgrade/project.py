@@ -412,17 +412,23 @@ def _read_pipe_section(s: Section) -> PipeSectionConfig:
                              s.quantity("pressure_rating", "pressure", None, positive=True), s.name)
 
 
+def _exactly_one(s: Section, a, b) -> None:
+    """Require exactly one of two keys, each ``(key, value, what)``; a number must not be negative."""
+    if (a[1] is None) == (b[1] is None):
+        raise InputError(f"{s.file.name}: {s.name} needs exactly one of {s.key(a[0])} ({a[2]}) "
+                         f"or {s.key(b[0])} ({b[2]})")
+    for key, value, _ in (a, b):
+        if isinstance(value, float) and value < 0:
+            raise InputError(f"{s.key(key)} = {value!r}: must not be negative")
+
+
 def _read_fitting(s: Section) -> FittingConfig:
     from .hydraulics.minor import k_for
 
     station = s.quantity("station", "length")
     kind = s.string("kind", None)
     k = s.number("k", None)
-    if (kind is None) == (k is None):
-        raise InputError(f"{s.file.name}: {s.name} needs exactly one of {s.key('kind')} "
-                         f"(a named fitting) or {s.key('k')} (a loss coefficient)")
-    if k is not None and k < 0:
-        raise InputError(f"{s.key('k')} = {k!r}: must not be negative")
+    _exactly_one(s, ("kind", kind, "a named fitting"), ("k", k, "a loss coefficient"))
     if kind is not None:
         try:
             k = k_for(kind)
@@ -448,11 +454,7 @@ def _read_scenario(s: Section) -> ScenarioConfig:
                          "choose another name")
     flow = s.quantity("flow", "flow", None, minimum=0.0)
     mult = s.number("multiplier", None)
-    if (flow is None) == (mult is None):
-        raise InputError(f"{s.file.name}: {s.name} needs exactly one of {s.key('flow')} "
-                         f"or {s.key('multiplier')}")
-    if mult is not None and mult < 0:
-        raise InputError(f"{s.key('multiplier')} = {mult!r}: must not be negative")
+    _exactly_one(s, ("flow", flow, "entering at the start"), ("multiplier", mult, "x hydraulics.flow"))
     return ScenarioConfig(name, flow, mult, s.boolean("show_egl", True))
 
 

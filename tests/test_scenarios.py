@@ -352,6 +352,8 @@ def test_fitting_and_offtake_layer_stations_are_on_the_table(flat_project):
      ["fittings[0].kind", "gate_valve_open"]),
     ("", '[[fittings]]\nstation = "10 m"\n', ["fittings[0]", "kind", "k"]),
     ("", '[[scenarios]]\nname = "peak"\n', ["scenarios[0]", "flow", "multiplier"]),
+    ("", '[[scenarios]]\nname = "peak"\nmultiplier = -2\n', ["scenarios[0].multiplier", "negative"]),
+    ("", '[[fittings]]\nstation = "10 m"\nk = -0.5\n', ["fittings[0].k", "negative"]),
     ("", '[[scenarios]]\nname = "static"\nflow = "1 L/s"\n', ["scenarios[0].name", "static"]),
     ("", '[[scenarios]]\nname = "a"\nmultiplier = 1\n[[scenarios]]\nname = "a"\nmultiplier = 2\n',
      ["'a'", "twice"]),
