@@ -693,9 +693,10 @@ def _check_hydraulic_cases(p: Project) -> None:
             raise InputError(f"{p.path.name}: hydraulics.flow is not used with hydraulics.boundary "
                              "= \"two-heads\" (the flow is solved); remove it")
         return
-    needs_flow = (not p.scenarios or any(sc.multiplier is not None for sc in p.scenarios)
-                  or (any(o.flow is not None or o.path is not None for o in p.offtakes)
-                      and p.scenarios))
+    # The base flow is needed by the default "design" case, by multipliers, and to
+    # scale the offtakes of a scenario given by its flow.
+    needs_flow = (not p.scenarios or bool(p.offtakes)
+                  or any(sc.multiplier is not None for sc in p.scenarios))
     if hyd.flow is None and needs_flow:
         why = ("scenarios scale the offtakes by flow / hydraulics.flow" if p.offtakes and p.scenarios
                else "the design flow or a scenario's multiplier needs it")
