@@ -389,3 +389,56 @@ def test_bad_stations_and_flows_found_by_the_stages(flat_project):
     p = load(flat_project)
     with pytest.raises(InputError, match="scenario 'design'.*offtakes"):
         run(p, STATIONS, np.full(STATIONS.shape, 100.0))
+
+
+# --------------------------------------------------------------------------
+# End to end on the demo (needs the design stage)
+# --------------------------------------------------------------------------
+
+
+def test_demo_with_scenarios_sections_fittings_and_offtakes_end_to_end(demo_copy, tmp_path):
+    import json
+
+    from gisgrade.pipeline import run as run_all
+
+    demo_copy.write_text(demo_copy.read_text() + '''
+[[scenarios]]
+name = "average day"
+multiplier = 0.5
+
+[[scenarios]]
+name = "fire"
+flow = "90 L/s"
+show_egl = false
+
+[[sections]]
+from = "3000 m"
+to = "9 km"
+inside_diameter = "250 mm"
+outside_diameter = "274 mm"
+material = "pvc"
+
+[[fittings]]
+station = "1000 m"
+kind = "butterfly_valve_open"
+
+[[offtakes]]
+station = "2500 m"
+flow = "10 L/s"
+''')
+    out = tmp_path / "out"
+    result = run_all(demo_copy, out)
+    grades = pd.read_csv(out / "gradelines.csv")
+    assert list(dict.fromkeys(grades["scenario"])) == ["average day", "fire", "static"]
+    t = result.table
+    # The design lays each section at its own outside diameter (axis = top - OD/2, exact).
+    od = np.where(t["station_m"] >= 3000.0 - 1e-6, 0.274, 0.326)
+    assert np.allclose(t["top_m"] - t["axis_m"], od / 2, atol=1e-12)
+    assert np.allclose(t["axis_m"] - t["invert_m"], np.where(od == 0.274, 0.125, 0.1525), atol=1e-12)
+    summary = json.loads((out / "summary.json").read_text())
+    names = [sc["scenario"] for sc in summary["scenarios"]]
+    assert names == ["average day", "fire", "static"]
+    for sc in summary["scenarios"]:  # the summary's extremes cover every station's pressure
+        g = result.gradelines[result.gradelines["scenario"] == sc["scenario"]]
+        assert sc["pressure_min_kpa"] <= g["pressure_kpa"].min() + 1e-6
+        assert sc["pressure_max_kpa"] >= g["pressure_kpa"].max() - 1e-6
