@@ -68,7 +68,7 @@ def place_bends(excess: np.ndarray, turn: np.ndarray, allowance: np.ndarray, ang
     station. Returns
     ``{interior index: (signed total angle, fittings tuple)}``.
 
-    >>> b = place_bends(np.array([0, .1, .05, 0]), np.array([0, .2, .15, 0]), np.full(4, .05),
+    >>> b = place_bends(np.array([0, .2, .1, 0]), np.array([0, .25, .15, 0]), np.full(4, .05),
     ...                 np.radians([11.25, 22.5, 45, 90]))
     >>> {k: (round(degrees(v[0]), 2), len(v[1])) for k, v in b.items()}
     {1: (22.5, 1)}
