@@ -18,24 +18,28 @@ import pandas as pd
 MAX_FITTINGS_PER_BEND = 3
 
 
-def standard_combination(need: float, angles, max_count: int = MAX_FITTINGS_PER_BEND) -> tuple:
+def standard_combination(need: float, angles, max_count: int = MAX_FITTINGS_PER_BEND,
+                         at_least: bool = False) -> tuple:
     """Standard fittings (rad) whose angles add up closest to ``need`` (rad).
 
     Up to ``max_count`` fittings; of two totals equally close the one with
     fewer fittings wins. The joints on either side take up the small
-    difference (or a later round adds a bend).
+    difference (or a later round adds a bend). With ``at_least`` only totals
+    of at least ``need`` count (the largest combination if none does).
 
     >>> deg = lambda c: [round(degrees(a), 2) for a in c]
     >>> std = np.radians([11.25, 22.5, 45, 90])
     >>> deg(standard_combination(np.radians(30), std)), deg(standard_combination(np.radians(40), std))
     ([11.25, 22.5], [45.0])
-    >>> deg(standard_combination(np.radians(100), std))
-    [11.25, 90.0]
+    >>> deg(standard_combination(np.radians(100), std)), deg(standard_combination(np.radians(48), std, at_least=True))
+    ([11.25, 90.0], [11.25, 45.0])
     """
     angles = sorted(float(a) for a in angles)
-    best, key = (), None
+    best, key = (angles[-1],) * max_count, None
     for count in range(1, max_count + 1):
         for combo in combinations_with_replacement(angles, count):
+            if at_least and sum(combo) < need - 1e-12:
+                continue
             k = (round(abs(sum(combo) - need), 12), count)
             if key is None or k < key:
                 best, key = combo, k
@@ -56,7 +60,7 @@ def runs(mask: np.ndarray) -> list[tuple[int, int]]:
 
 
 def place_bends(excess: np.ndarray, turn: np.ndarray, allowance: np.ndarray, angles,
-                tol: float = 1e-7) -> dict:
+                tol: float = 1e-7, at_least: bool = False) -> dict:
     """Bend positions and fittings for the stations whose turning exceeds the joints.
 
     excess: rad per interior station, turning beyond the joints' allowance;
@@ -65,7 +69,7 @@ def place_bends(excess: np.ndarray, turn: np.ndarray, allowance: np.ndarray, ang
     A run of consecutive stations with excess of one sign gets one bend, at
     its largest excess; the fittings give, as closely as the standard angles
     allow, the run's whole excess plus the joint allowance lost at the bend
-    station. Returns
+    station (with ``at_least``: never less than that). Returns
     ``{interior index: (signed total angle, fittings tuple)}``.
 
     >>> b = place_bends(np.array([0, .2, .1, 0]), np.array([0, .25, .15, 0]), np.full(4, .05),
@@ -79,7 +83,7 @@ def place_bends(excess: np.ndarray, turn: np.ndarray, allowance: np.ndarray, ang
         for a, b in runs((excess > tol) & (sign == kind)):
             i = a + int(np.argmax(excess[a:b + 1]))
             need = float(excess[a:b + 1].sum() + allowance[i])
-            combo = standard_combination(need, angles)
+            combo = standard_combination(need, angles, at_least=at_least)
             out[i] = (kind * sum(combo), combo)
     return out
 

@@ -37,8 +37,8 @@ BEND_ROUNDS = 4
 #: a mean segment): well apart so a higher rule gives way only when a lower
 #: one cannot make room. Joint deflection is kept by bends, which cost
 #: BEND_WEIGHT per rad there.
-WEIGHT = {"crossing clearance": 1e7, "min cover": 1e5, "max cover": 1e3, "max grade": 1e2,
-          "min grade": 1e1}
+WEIGHT = {"crossing clearance": 1e7, "min cover": 1e5, "joint deflection": 1e4, "max cover": 1e3,
+          "max grade": 1e2, "min grade": 1e1}
 BEND_WEIGHT = 1e-1
 #: Weight of excavation (per m of depth at a mean station) in that solve.
 EXCAVATION_WEIGHT = 1e-3
@@ -150,14 +150,16 @@ def _prepare(station, ground, crossings, rules) -> tuple[_Problem, np.ndarray, n
     return P, group, first
 
 
-def _build(P: _Problem, ghat, bends, mg_dir, mode, caps):
+def _build(P: _Problem, ghat, bends, mg_dir, mode, caps, strict=False):
     """Assemble one linear program about the grades ``ghat``.
 
-    mode "hard": every rule as stated. "least": each rule gets a slack
+    mode "capped" without caps: every rule as stated. "least": each rule gets a slack
     variable, and the objective is the priority-weighted sum of slacks (plus
     a small share of excavation, which keeps the solve well conditioned).
     "capped": every rule loosened by the amount in ``caps`` (the least
-    violation found before), no slack variables. Returns (c, A_ub, b_ub,
+    violation found before), no slack variables. ``strict``: turning beyond
+    the joints where no bend is placed is a violation of joint deflection
+    (weighted by its priority) rather than a cheap call for a bend. Returns (c, A_ub, b_ub,
     A_eq, b_eq, bounds, layout).
     """
     n, h, r = P.n, P.h, P.rules
@@ -166,9 +168,10 @@ def _build(P: _Problem, ghat, bends, mg_dir, mode, caps):
     caps = caps or {}
     cap = lambda name, size: caps.get(name, np.zeros(size))  # noqa: E731
     wt_rel = P.wt / P.wt.mean()
-    cost = [-(EXCAVATION_WEIGHT * wt_rel if least else P.wt), np.full(m, BEND_WEIGHT if least else r.bend_cost)]
+    e_cost = (WEIGHT["joint deflection"] if strict else BEND_WEIGHT) if least else r.bend_cost
+    cost = [-(EXCAVATION_WEIGHT * wt_rel if least else P.wt), np.full(m, e_cost)]
     lo = [np.full(n, -np.inf), np.zeros(m)]
-    hi = [np.full(n, np.inf), np.full(m, np.inf)]
+    hi = [np.full(n, np.inf), caps.get("excess", np.full(m, np.inf)).copy()]
     layout = {"z": (0, n), "excess": (n, n + m)}
     nv = n + m
     R, C, V, rhs = [], [], [], []
@@ -263,14 +266,14 @@ def _bend_arrays(bends, n):
     return is_bend, target
 
 
-def _solve(P, ghat, bends, mg_dir, mode, caps=None, max_iter=SLP_MAX):
+def _solve(P, ghat, bends, mg_dir, mode, caps=None, max_iter=SLP_MAX, strict=False):
     """Sequential linearization: solve, relinearize at the answer, repeat until
     the linearization is exact within :data:`SLP_TOL` at the answer (so the
     true joint and bend angles keep the rules). Returns the last feasible solution, or None if the first
     solve is infeasible."""
     best = None
     for _ in range(max_iter):
-        c, A, b, Aeq, beq, bounds, lay = _build(P, ghat, bends, mg_dir, mode, caps)
+        c, A, b, Aeq, beq, bounds, lay = _build(P, ghat, bends, mg_dir, mode, caps, strict)
         res = linprog(c, A_ub=A, b_ub=b, A_eq=Aeq, b_eq=beq, bounds=bounds, method="highs")
         if res.status != 0 or res.x is None:
             return best
@@ -290,23 +293,36 @@ def _solve(P, ghat, bends, mg_dir, mode, caps=None, max_iter=SLP_MAX):
     return best
 
 
-def _attempt(P, ghat, bends, mg_dir, caps):
-    """One design solve. Without ``caps``: the rules as stated; if they
-    contradict each other (and no bends are fixed yet), find the least
-    priority-weighted violation, then solve again with each rule loosened by
-    that much. Returns (solution or None, caps used)."""
-    if caps is None:
-        sol = _solve(P, ghat, bends, mg_dir, "hard")
-        if sol is not None or bends:
-            return sol, None
-        least = _solve(P, ghat, bends, mg_dir, "least", max_iter=1)
-        if least is None:
-            return None, None
-        caps = {k: v + TOL / 10 for k, v in least.slack.items()}
-        ghat = least.g
+def _attempt(P, ghat, bends, mg_dir, caps, strict=False):
+    """One design solve: the rules as stated (or loosened by ``caps``); if
+    they contradict each other, find the least priority-weighted violation
+    and solve again with each rule loosened by that much. Fittings just
+    placed (``bends``) may make only the rules below joint deflection give
+    way, never crossing clearance or min cover: such bends are refused (None).
+    ``strict`` (see :func:`_build`) goes straight to the least violation.
+    Returns (solution or None, caps used)."""
+    if not strict:
         sol = _solve(P, ghat, bends, mg_dir, "capped", caps)
-        return (sol or least), caps
-    return _solve(P, ghat, bends, mg_dir, "capped", caps), caps
+        if sol is not None:
+            return sol, caps
+    least = _solve(P, ghat, bends, mg_dir, "least", strict=strict)
+    if least is None:
+        return None, None
+    new_caps = {k: v + TOL / 10 for k, v in least.slack.items()}
+    if bends and not strict:
+        for k in ("crossing clearance", "min cover"):
+            if k in new_caps and np.any(new_caps[k] > (caps or {}).get(k, 0.0) + TOL):
+                return None, None
+    if strict:
+        new_caps["excess"] = least.excess + TOL / 10
+    sol = _solve(P, least.g, bends, mg_dir, "capped", new_caps)
+    return (sol or least), new_caps
+
+
+def _place(P, sol, at_least=False):
+    """New bends {station index: (signed angle, fittings)} from a solution's excess turning."""
+    got = place_bends(sol.excess, _turn(sol.g), P.allow, P.rules.bend_angles, at_least=at_least)
+    return {v + 1: val for v, val in got.items()}
 
 
 def _grade_directions(g, ground, h, min_grade):
@@ -354,6 +370,10 @@ def design_profile(station, ground, crossings=(), rules: DesignRules | None = No
     mg_dir = caps = sol = None
     for rnd in range(BEND_ROUNDS + 2):
         new, new_caps = _attempt(P, ghat, bends, mg_dir, caps)
+        if new is None and bends:  # the closest fittings do not fit: try totals at least as large
+            bends = dict(prev_bends)
+            bends.update(_place(P, sol, at_least=True))
+            new, new_caps = _attempt(P, ghat, bends, mg_dir, caps)
         if new is None:  # the bends just placed do not fit: keep the last profile
             bends = prev_bends
             break
@@ -364,11 +384,16 @@ def design_profile(station, ground, crossings=(), rules: DesignRules | None = No
             continue
         if n < 3 or rnd >= BEND_ROUNDS:
             break
-        placed = place_bends(sol.excess, _turn(sol.g), P.allow, rules.bend_angles)
+        placed = _place(P, sol)
         if not placed:
             break
         prev_bends = dict(bends)
-        bends.update({v + 1: val for v, val in placed.items()})
+        bends.update(placed)
+    if sol is not None and n > 2 and sol.excess.max() > TOL:
+        # turning beyond the joints that no standard bend could take: keep the
+        # joints at their priority, letting lower rules (max cover, grades) give way
+        new, _ = _attempt(P, ghat, bends, mg_dir, None, strict=True)
+        sol = new or sol
     if sol is None:  # no solver answer at all: the cover line, with every shortfall reported
         z = np.where(np.isfinite(P.upper), P.upper, P.ground)
         sol = _Solution(z, _grades(z, P.h), np.zeros(max(n - 2, 0)), {})
