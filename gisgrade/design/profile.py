@@ -1,0 +1,486 @@
+"""The least-excavation pipe profile: a sparse linear program solved by HiGHS.
+
+Unknowns: the top-of-pipe elevation z_i at every station. Objective: the
+trench dug below the minimum-cover line, sum of w_i T_i (U_i - z_i), with w
+the trench width, T the tributary length and U = ground - min cover.
+Constraints: cover, crossings, joint deflection, optional grades. The pipe's
+change of angle at a station, atan(g_i) - atan(g_{i-1}), is not linear in z;
+it is linearized about the current grades and the program solved again until
+the linearization error is below :data:`SLP_TOL` (sequential linear
+programming, usually two solves). Turning beyond what the joints allow is paid
+for by an *excess* variable; runs of excess become standard bends, whose
+angles are then held exactly in a new solve. Contradictory rules are relaxed
+in the order of :data:`~gisgrade.design.rules.PRIORITY`. Method, equations and
+limits: docs/design.md.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import scipy.sparse as sp
+from scipy.optimize import linprog
+
+from ..errors import InputError
+from .fittings import bends_frame, place_bends, runs
+from .rules import PRIORITY, Crossing, DesignRules, PipeProfile, Relaxation
+
+#: A rule broken by more than this (m, rad or m/m) is reported as relaxed.
+TOL = 1e-6
+#: Linearization error (rad) at which the sequential solves stop.
+SLP_TOL = 1e-8
+#: Most linear solves per sequential-linearization loop.
+SLP_MAX = 8
+#: Most bend-placing rounds.
+BEND_ROUNDS = 4
+#: Penalty weights of the least-violation solve, per m (per m/m of grade over
+#: a mean segment): well apart so a higher rule gives way only when a lower
+#: one cannot make room. Joint deflection is kept by bends, which cost
+#: BEND_WEIGHT per rad there.
+WEIGHT = {"crossing clearance": 1e7, "min cover": 1e5, "joint deflection": 1e4, "max cover": 1e3,
+          "max grade": 1e2, "min grade": 1e1}
+BEND_WEIGHT = 1e-1
+#: Weight of excavation (per m of depth at a mean station) in that solve.
+EXCAVATION_WEIGHT = 1e-3
+
+#: The words :attr:`PipeProfile.reason` uses.
+REASONS = ("min cover", "crossing <name>", "max cover", "bend", "deflection", "max grade",
+           "min grade", "transition")
+
+
+@dataclass
+class _Problem:
+    s: np.ndarray        # unique stations, m
+    h: np.ndarray        # segment lengths, m
+    ground: np.ndarray
+    upper: np.ndarray    # ground - min cover
+    lower: np.ndarray    # ground - max cover (-inf: none)
+    wt: np.ndarray       # trench width x tributary length, m^2
+    allow: np.ndarray    # joint allowance at interior stations, rad
+    cj: np.ndarray       # crossing: segment index
+    ct: np.ndarray       # crossing: position in segment, 0..1
+    csign: np.ndarray    # +1 under (z <= rhs), -1 over (z >= rhs)
+    crhs: np.ndarray     # crossing limit on top of pipe, m
+    cname: list
+    rules: DesignRules
+
+    @property
+    def n(self):
+        return len(self.s)
+
+
+@dataclass
+class _Solution:
+    z: np.ndarray
+    g: np.ndarray
+    excess: np.ndarray
+    slack: dict
+
+
+def _grades(z, h):
+    return np.diff(z) / h
+
+
+def _turn(g):
+    """Change of pipe angle at each interior station, rad (+ sag)."""
+    a = np.arctan(g)
+    return a[1:] - a[:-1]
+
+
+def _prepare(station, ground, crossings, rules) -> tuple[_Problem, np.ndarray, np.ndarray]:
+    station = np.asarray(station, float)
+    ground = np.asarray(ground, float)
+    if station.ndim != 1 or ground.shape != station.shape or len(station) == 0:
+        raise ValueError("station and ground must be 1-D arrays of the same, non-zero length")
+    if not (np.all(np.isfinite(station)) and np.all(np.isfinite(ground))):
+        raise InputError("design: station or ground has missing (non-finite) values")
+    if np.any(np.diff(station) < 0):
+        raise ValueError("stations must be in increasing order")
+    rules.check(len(station))
+    n0 = len(station)
+
+    def per(v):
+        return np.broadcast_to(np.asarray(v, float), (n0,))
+
+    # stations closer than 1 mm are one station: the pipe has one elevation there
+    new = np.r_[True, np.diff(station) > 1e-3]
+    group = np.cumsum(new) - 1
+    first = np.flatnonzero(new)
+    s = station[first]
+    n = len(s)
+    upper = np.full(n, np.inf)
+    np.minimum.at(upper, group, ground - per(rules.min_cover))
+    lower = np.full(n, -np.inf)
+    if rules.max_cover is not None:
+        np.maximum.at(lower, group, ground - per(rules.max_cover))
+    g_u = ground[first]
+    width = np.zeros(n)
+    np.maximum.at(width, group, per(rules.trench_width))
+    h = np.diff(s)
+    trib = np.r_[h, 0] / 2 + np.r_[0, h] / 2 if n > 1 else np.ones(1)
+    allow = rules.max_joint_deflection * (h[:-1] + h[1:]) / (2 * rules.joint_length)
+
+    cj, ct, cs, cr, names = [], [], [], [], []
+    for k, c in enumerate(crossings):
+        name = c.name or f"#{k + 1}"
+        if c.side not in ("under", "over"):
+            raise InputError(f"crossing {name}: side {c.side!r} is not 'under' or 'over'")
+        if not (np.isfinite(c.limit) and np.isfinite(c.clearance) and c.clearance >= 0):
+            raise InputError(f"crossing {name}: limit and clearance must be finite, clearance >= 0")
+        if not (s[0] - 1e-3 <= c.station <= s[-1] + 1e-3):
+            raise InputError(f"crossing {name}: station {c.station} m is off the line "
+                             f"({s[0]} to {s[-1]} m)")
+        j = int(np.clip(np.searchsorted(s, c.station, "right") - 1, 0, max(n - 2, 0)))
+        t = 0.0 if n == 1 else float(np.clip((c.station - s[j]) / h[j], 0, 1))
+        if t < 1e-6 and n > 1:
+            t = 0.0
+        elif t > 1 - 1e-6:
+            j, t = j + 1, 0.0
+        cj.append(j)
+        ct.append(t)
+        if c.side == "under":
+            cs.append(1.0)
+            cr.append(c.limit - c.clearance)
+        else:
+            cs.append(-1.0)
+            cr.append(c.limit + c.clearance + rules.outside_diameter)
+        names.append(name)
+    P = _Problem(s, h, g_u, upper, lower, width * trib, allow, np.array(cj, int),
+                 np.array(ct, float), np.array(cs, float), np.array(cr, float), names, rules)
+    return P, group, first
+
+
+def _build(P: _Problem, ghat, bends, mg_dir, mode, caps, strict=False):
+    """Assemble one linear program about the grades ``ghat``.
+
+    mode "capped" without caps: every rule as stated. "least": each rule gets a slack
+    variable, and the objective is the priority-weighted sum of slacks (plus
+    a small share of excavation, which keeps the solve well conditioned).
+    "capped": every rule loosened by the amount in ``caps`` (the least
+    violation found before), no slack variables. ``strict``: turning beyond
+    the joints where no bend is placed is a violation of joint deflection
+    (weighted by its priority) rather than a cheap call for a bend. Returns (c, A_ub, b_ub,
+    A_eq, b_eq, bounds, layout).
+    """
+    n, h, r = P.n, P.h, P.rules
+    m = max(n - 2, 0)
+    least = mode == "least"
+    caps = caps or {}
+    cap = lambda name, size: caps.get(name, np.zeros(size))  # noqa: E731
+    wt_rel = P.wt / P.wt.mean()
+    e_cost = (WEIGHT["joint deflection"] if strict else BEND_WEIGHT) if least else r.bend_cost
+    cost = [-(EXCAVATION_WEIGHT * wt_rel if least else P.wt), np.full(m, e_cost)]
+    lo = [np.full(n, -np.inf), np.zeros(m)]
+    hi = [np.full(n, np.inf), caps.get("excess", np.full(m, np.inf)).copy()]
+    layout = {"z": (0, n), "excess": (n, n + m)}
+    nv = n + m
+    R, C, V, rhs = [], [], [], []
+    nrow = 0
+
+    def add_rows(rows, cols, vals, b, name=None, weight=None):
+        """Rows ``A x <= b``; in "least" mode each row gets its own slack."""
+        nonlocal nrow, nv
+        k = len(b)
+        rows, cols, vals = np.asarray(rows), np.asarray(cols), np.asarray(vals, float)
+        if least and name is not None:
+            layout[name] = (nv, nv + k)
+            rows, cols, vals = np.r_[rows, np.arange(k)], np.r_[cols, nv + np.arange(k)], np.r_[vals, -np.ones(k)]
+            cost.append(WEIGHT[name.rstrip(" +-")] * np.broadcast_to(weight, (k,)))
+            lo.append(np.zeros(k))
+            hi.append(np.full(k, np.inf))
+            nv += k
+        elif name is not None:
+            b = b + cap(name, k)
+        R.append(rows + nrow)
+        C.append(cols)
+        V.append(vals)
+        rhs.append(np.asarray(b, float))
+        nrow += k
+
+    # cover: plain bounds unless each station needs its own slack
+    idx = np.arange(n)
+    fin = np.flatnonzero(np.isfinite(P.lower))
+    if least:
+        add_rows(idx, idx, np.ones(n), P.upper, "min cover", wt_rel)
+        add_rows(np.arange(len(fin)), fin, -np.ones(len(fin)), -P.lower[fin], "max cover", wt_rel[fin])
+    else:
+        lo[0] = P.lower.copy()
+        lo[0][fin] -= cap("max cover", len(fin))
+        hi[0] = P.upper + cap("min cover", n)
+
+    # crossings: csign * ((1-t) z_j + t z_{j+1}) <= csign * rhs
+    k = len(P.cj)
+    if k:
+        add_rows(np.r_[np.arange(k), np.arange(k)], np.r_[P.cj, np.minimum(P.cj + 1, n - 1)],
+                 np.r_[P.csign * (1 - P.ct), P.csign * P.ct], P.csign * P.crhs, "crossing clearance", 1.0)
+
+    # grades g_j = (z_{j+1} - z_j) / h_j:  d_j g_j <= b_j
+    seg = np.arange(n - 1)
+    hrel = h / h.mean() if n > 1 else h
+    grade_rows = []
+    if r.max_transition_grade is not None:
+        grade_rows += [("max grade +", np.ones(n - 1), r.max_transition_grade),
+                       ("max grade -", -np.ones(n - 1), r.max_transition_grade)]
+    if r.min_grade is not None and mg_dir is not None:
+        grade_rows.append(("min grade", -mg_dir, -r.min_grade))
+    for name, d, b in grade_rows:
+        add_rows(np.r_[seg, seg], np.r_[seg, seg + 1], np.r_[-d / h, d / h], np.full(n - 1, b), name, hrel)
+
+    # joint deflection, linearized about ghat:
+    # theta_i ~ c_i + a_i g_i - a_{i-1} g_{i-1},  a = 1/(1+ghat^2)
+    Aeq = beq = None
+    if m:
+        a = 1.0 / (1.0 + ghat ** 2)
+        c0 = _turn(ghat) - a[1:] * ghat[1:] + a[:-1] * ghat[:-1]
+        i = np.arange(1, n - 1)
+        cm, cc, cp = a[:-1] / h[:-1], -(a[1:] / h[1:] + a[:-1] / h[:-1]), a[1:] / h[1:]
+        is_bend, target = _bend_arrays(bends, n)
+        is_bend, target = is_bend[1:-1], target[1:-1]
+        hi[1][is_bend] = 0.0
+        free = np.flatnonzero(~is_bend)
+        q = len(free)
+        for sgn in (1.0, -1.0):
+            add_rows(np.tile(np.arange(q), 4), np.r_[i[free] - 1, i[free], i[free] + 1, n + free],
+                     np.r_[sgn * cm[free], sgn * cc[free], sgn * cp[free], -np.ones(q)],
+                     P.allow[free] - sgn * c0[free])
+        fixed = np.flatnonzero(is_bend)
+        if len(fixed):
+            q = len(fixed)
+            Aeq = sp.csr_matrix((np.r_[cm[fixed], cc[fixed], cp[fixed]],
+                                 (np.tile(np.arange(q), 3), np.r_[i[fixed] - 1, i[fixed], i[fixed] + 1])),
+                                shape=(q, nv))
+            beq = target[fixed] - c0[fixed]
+    A = b = None
+    if nrow:
+        A = sp.csr_matrix((np.concatenate(V), (np.concatenate(R), np.concatenate(C))), shape=(nrow, nv))
+        b = np.concatenate(rhs)
+    bounds = np.c_[np.concatenate(lo), np.concatenate(hi)]
+    return np.concatenate(cost), A, b, Aeq, beq, bounds, layout
+
+
+def _bend_arrays(bends, n):
+    is_bend = np.zeros(n, bool)
+    target = np.zeros(n)
+    for v, (total, _) in bends.items():
+        is_bend[v], target[v] = True, total
+    return is_bend, target
+
+
+def _solve(P, ghat, bends, mg_dir, mode, caps=None, max_iter=SLP_MAX, strict=False):
+    """Sequential linearization: solve, relinearize at the answer, repeat until
+    the linearization is exact within :data:`SLP_TOL` at the answer (so the
+    true joint and bend angles keep the rules). Returns the last feasible solution, or None if the first
+    solve is infeasible."""
+    best = None
+    for _ in range(max_iter):
+        c, A, b, Aeq, beq, bounds, lay = _build(P, ghat, bends, mg_dir, mode, caps, strict)
+        res = linprog(c, A_ub=A, b_ub=b, A_eq=Aeq, b_eq=beq, bounds=bounds, method="highs")
+        if res.status != 0 or res.x is None:
+            return best
+        x = res.x
+        z = x[slice(*lay["z"])]
+        g = _grades(z, P.h)
+        e = x[slice(*lay["excess"])]
+        best = _Solution(z, g, e, {k: x[slice(*v)] for k, v in lay.items() if k not in ("z", "excess")})
+        if P.n < 3:
+            break
+        a = 1.0 / (1.0 + ghat ** 2)  # error of the linearization the solve used
+        lin = _turn(ghat) + a[1:] * (g[1:] - ghat[1:]) - a[:-1] * (g[:-1] - ghat[:-1])
+        err = np.abs(_turn(g) - lin)
+        ghat = g
+        if err.max() <= SLP_TOL:
+            break
+    return best
+
+
+def _attempt(P, ghat, bends, mg_dir, caps, strict=False):
+    """One design solve: the rules as stated (or loosened by ``caps``); if
+    they contradict each other, find the least priority-weighted violation
+    and solve again with each rule loosened by that much. Fittings just
+    placed (``bends``) may make only the rules below joint deflection give
+    way, never crossing clearance or min cover: such bends are refused (None).
+    ``strict`` (see :func:`_build`) goes straight to the least violation.
+    Returns (solution or None, caps used)."""
+    if not strict:
+        sol = _solve(P, ghat, bends, mg_dir, "capped", caps)
+        if sol is not None:
+            return sol, caps
+    least = _solve(P, ghat, bends, mg_dir, "least", strict=strict)
+    if least is None:
+        return None, None
+    new_caps = {k: v + TOL / 10 for k, v in least.slack.items()}
+    if bends and not strict:
+        for k in ("crossing clearance", "min cover"):
+            if k in new_caps and np.any(new_caps[k] > (caps or {}).get(k, 0.0) + TOL):
+                return None, None
+    if strict:
+        new_caps["excess"] = least.excess + TOL / 10
+    sol = _solve(P, least.g, bends, mg_dir, "capped", new_caps)
+    return (sol or least), new_caps
+
+
+def _place(P, sol, at_least=False):
+    """New bends {station index: (signed angle, fittings)} from a solution's excess turning."""
+    got = place_bends(sol.excess, _turn(sol.g), P.allow, P.rules.bend_angles, at_least=at_least)
+    return {v + 1: val for v, val in got.items()}
+
+
+def _grade_directions(g, ground, h, min_grade):
+    """Direction (+1 rising, -1 falling) each segment's minimum grade is kept in:
+    the solved grade's sign; a run of flatter segments follows the ground's net
+    rise over the run (rising if level)."""
+    d = np.where(g >= 0, 1.0, -1.0)
+    flat = np.abs(g) < min_grade
+    rise = np.diff(ground)
+    for a, b in runs(flat):
+        net = rise[a:b + 1].sum()
+        d[a:b + 1] = -1.0 if net < 0 else 1.0
+    return d
+
+
+def design_profile(station, ground, crossings=(), rules: DesignRules | None = None) -> PipeProfile:
+    """Least-excavation top-of-pipe profile under cover, crossing, joint and grade rules.
+
+    station: (n,) m, increasing (stations closer than 1 mm are merged);
+    ground: (n,) m elevation; crossings: :class:`Crossing` located on the
+    line; rules: :class:`DesignRules`. Returns a :class:`PipeProfile` with
+    one value per input station. Contradictory rules never raise: the least
+    important rule gives way and is listed in ``relaxations`` [1]_ [2]_.
+
+    References
+    ----------
+    .. [1] Huangfu, Q., Hall, J. A. J. (2018). Parallelizing the dual revised
+       simplex method. Mathematical Programming Computation 10, 119-142
+       (HiGHS, the solver behind scipy.optimize.linprog(method="highs")).
+    .. [2] Nocedal, J., Wright, S. J. (2006). Numerical Optimization, 2nd ed.,
+       ch. 18 (sequential linearization of nonlinear constraints).
+
+    >>> p = design_profile([0, 6, 12, 18], [100.0] * 4, rules=DesignRules(min_cover=1.2))
+    >>> p.top.round(6).tolist(), p.reason.tolist(), p.excavation_volume
+    ([98.8, 98.8, 98.8, 98.8], ['min cover', 'min cover', 'min cover', 'min cover'], 0.0)
+    """
+    if rules is None:
+        raise InputError("design: no design rules given (min_cover is required)")
+    crossings = list(crossings)
+    P, group, first = _prepare(station, ground, crossings, rules)
+    n = P.n
+    ghat = _grades(P.ground, P.h)
+    bends: dict = {}
+    prev_bends: dict = {}
+    mg_dir = caps = sol = None
+    for rnd in range(BEND_ROUNDS + 2):
+        new, new_caps = _attempt(P, ghat, bends, mg_dir, caps)
+        if new is None and bends:  # the closest fittings do not fit: try totals at least as large
+            bends = dict(prev_bends)
+            bends.update(_place(P, sol, at_least=True))
+            new, new_caps = _attempt(P, ghat, bends, mg_dir, caps)
+        if new is None:  # the bends just placed do not fit: keep the last profile
+            bends = prev_bends
+            break
+        sol, caps, ghat = new, new_caps, new.g
+        if rules.min_grade is not None and mg_dir is None and n > 1:
+            mg_dir = _grade_directions(sol.g, P.ground, P.h, rules.min_grade)
+            caps = None  # contradictions are looked for again with the grade rows
+            continue
+        if n < 3 or rnd >= BEND_ROUNDS:
+            break
+        placed = _place(P, sol)
+        if not placed:
+            break
+        prev_bends = dict(bends)
+        bends.update(placed)
+    if sol is not None and n > 2 and sol.excess.max() > TOL:
+        # turning beyond the joints that no standard bend could take: keep the
+        # joints at their priority, letting lower rules (max cover, grades) give way
+        new, _ = _attempt(P, ghat, bends, mg_dir, None, strict=True)
+        sol = new or sol
+    if sol is None:  # no solver answer at all: the cover line, with every shortfall reported
+        z = np.where(np.isfinite(P.upper), P.upper, P.ground)
+        sol = _Solution(z, _grades(z, P.h), np.zeros(max(n - 2, 0)), {})
+    return _finish(P, sol, bends, mg_dir, crossings, group, first, np.asarray(station, float))
+
+
+def _finish(P, sol, bends, mg_dir, crossings, group, first, station) -> PipeProfile:
+    r, n, s = P.rules, P.n, P.s
+    z, g = sol.z, sol.g
+    turn = np.r_[0.0, _turn(g), 0.0] if n > 2 else np.zeros(n)
+    allow = np.r_[np.nan, P.allow, np.nan] if n > 2 else np.full(n, np.nan)
+    is_bend, target = _bend_arrays(bends, n)
+
+    # crossing: value of the constrained quantity at the crossing point
+    ztc = (1 - P.ct) * z[P.cj] + P.ct * z[np.minimum(P.cj + 1, n - 1)] if len(P.cj) else np.zeros(0)
+    cshort = P.csign * (ztc - P.crhs)  # > 0: clearance short by this much
+
+    relax = []
+
+    def report(rule, short, where, unit, why):
+        for a, b in runs(short > TOL):
+            amt = float(short[a:b + 1].max())
+            s0, s1 = where(a, b)
+            relax.append(Relaxation(rule, s0, s1, amt, unit,
+                                    f"{rule} relaxed by up to {amt:.4g} {unit} from station {s0:.2f} m "
+                                    f"to {s1:.2f} m: {why}"))
+
+    at = lambda a, b: (float(s[a]), float(s[b]))  # noqa: E731
+    seg = lambda a, b: (float(s[a]), float(s[b + 1]))  # noqa: E731
+    for k, name in enumerate(P.cname):
+        if cshort[k] > TOL:
+            st = float(crossings[k].station)
+            relax.append(Relaxation("crossing clearance", st, st, float(cshort[k]), "m",
+                                    f"crossing clearance at {name} short by {cshort[k]:.4g} m at station "
+                                    f"{st:.2f} m: no profile keeps it together with the other rules"))
+    report("min cover", z - P.upper, at, "m", "a crossing clearance needs the pipe higher here")
+    report("max cover", P.lower - z, at, "m", "a crossing or minimum cover needs the pipe deeper here")
+    over = np.where(is_bend, 0.0, np.abs(turn) - np.nan_to_num(allow, nan=np.inf))
+    report("joint deflection", over, at, "rad", "turning beyond the joints where no standard bend fitted")
+    report("bend angle", np.where(is_bend, np.abs(turn - target), 0.0), at, "rad",
+           "the bend's fitting angle could not be held exactly")
+    if r.max_transition_grade is not None and n > 1:
+        report("max grade", np.abs(g) - r.max_transition_grade, seg, "m/m",
+               "cover or crossings need a steeper grade here")
+    if r.min_grade is not None and n > 1:
+        report("min grade", r.min_grade - np.abs(g), seg, "m/m",
+               "cover, crossings or joints do not leave room for the minimum grade here")
+    order = {k: i for i, k in enumerate(PRIORITY)}
+    relax.sort(key=lambda x: (order.get(x.rule, 2), x.station_from))
+
+    # why each station sits where it does (later assignments win)
+    act = 1e-6
+    reason = np.full(n, "transition", dtype=object)
+    if n > 1:
+        gflag = lambda cond: np.r_[cond, False] | np.r_[False, cond]  # noqa: E731
+        if r.min_grade is not None:
+            reason[gflag(np.abs(np.abs(g) - r.min_grade) <= act)] = "min grade"
+        if r.max_transition_grade is not None:
+            reason[gflag(np.abs(np.abs(g) - r.max_transition_grade) <= act)] = "max grade"
+    reason[np.abs(turn) >= np.nan_to_num(allow, nan=np.inf) - act] = "deflection"
+    reason[is_bend] = "bend"
+    reason[np.abs(z - P.lower) <= act] = "max cover"
+    reason[np.abs(z - P.upper) <= act] = "min cover"
+    for k, name in enumerate(P.cname):
+        if abs(cshort[k]) <= act or cshort[k] > 0:
+            j = P.cj[k] + (1 if P.ct[k] > 0.5 else 0)
+            reason[j] = f"crossing {name}"
+
+    wt = P.wt
+    depth = np.maximum(P.upper - z, 0.0)
+    excavation = float(np.sum(wt * depth))
+    trench = float(np.sum(wt * np.maximum(P.ground - z + r.outside_diameter, 0.0)))
+    length = float(np.sum(np.hypot(P.h, np.diff(z)))) if n > 1 else 0.0
+    lower = np.where(np.isfinite(P.lower), P.lower, np.nan)
+    for k in range(len(P.cj)):  # crossings tighten the limits at their station
+        j = P.cj[k] + (1 if P.ct[k] > 0.5 else 0)
+        if P.csign[k] > 0:
+            P.upper[j] = min(P.upper[j], P.crhs[k])
+        else:
+            lower[j] = np.fmax(lower[j], P.crhs[k])
+    return PipeProfile(
+        station=station, top=z[group], reason=reason[group],
+        bends=bends_frame(s, bends, first), relaxations=relax,
+        excavation_volume=excavation, length_3d=length,
+        upper_limit=P.upper[group], lower_limit=lower[group],
+        deflection=turn[group], deflection_limit=allow[group], trench_volume=trench,
+    )
+
+
+__all__ = ["Crossing", "DesignRules", "PipeProfile", "Relaxation", "design_profile", "REASONS"]

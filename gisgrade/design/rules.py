@@ -1,0 +1,160 @@
+"""The data the pipe-profile designer takes and gives back.
+
+:class:`Crossing` and :class:`DesignRules` go in; :class:`PipeProfile` (with
+its :class:`Relaxation` records) comes out. All values are SI: metres and
+radians. Defaults marked *common practice* have no single source; those
+marked *from memory* were written from memory of the cited source and must
+be checked against the maker's table or the utility's standard before use.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from math import radians
+
+import numpy as np
+import pandas as pd
+
+from ..errors import InputError
+
+#: Standard vertical bend fitting angles, rad (11.25, 22.5, 45 and 90 degrees;
+#: the usual fitting series, *common practice*).
+STANDARD_BEND_ANGLES = tuple(radians(a) for a in (11.25, 22.5, 45.0, 90.0))
+
+#: The rules in the order they give way, most important first (see
+#: docs/design.md for the reasons). A rule lower in the list is relaxed
+#: before any rule above it.
+PRIORITY = (
+    "crossing clearance",
+    "min cover",
+    "joint deflection",
+    "max cover",
+    "max grade",
+    "min grade",
+)
+
+
+@dataclass(frozen=True)
+class Crossing:
+    """One crossed feature, already located on the line.
+
+    station: m along the line (should be one of the design stations; a
+    crossing between two stations is enforced on the straight pipe between
+    them). limit: m elevation; for ``side="under"`` the crossed feature's
+    bottom, for ``"over"`` its top. clearance: m vertical separation kept
+    between the outsides. side: ``"under"`` (pipe passes below, default) or
+    ``"over"`` (pipe passes above; its bottom, top minus the outside
+    diameter, must clear the feature).
+    """
+
+    station: float
+    limit: float
+    clearance: float
+    side: str = "under"
+    name: str = ""
+
+
+@dataclass(frozen=True)
+class DesignRules:
+    """The rules the profile must keep (SI units: m, rad, m/m).
+
+    min_cover, max_cover: m from ground to top of pipe, a scalar or one value
+    per station (zones give per-station values); ``max_cover=None`` means no
+    limit. outside_diameter: m (over-crossings need it). joint_length: m of
+    one pipe length (about 5.5-6 m, *common practice*). max_joint_deflection:
+    rad allowed at each joint (3 degrees; 2-5 degrees is typical for push-on
+    and mechanical joints, falling with size, *from memory*: the maker's
+    table governs). bend_angles: rad, the standard vertical bend fittings
+    available. min_grade: m/m kept on every segment (e.g. 0.001), or None.
+    trench_width: m, scalar or per station, weights excavation.
+    max_transition_grade: m/m cap on the absolute grade, or None.
+    bend_cost: m^3 of excavation judged equal to one radian of bend angle
+    beyond what the joints allow; the large default means bends are placed
+    only where the rules need them or where they save a great deal of
+    digging (a judgement, not a standard).
+    """
+
+    min_cover: float | np.ndarray
+    max_cover: float | np.ndarray | None = None
+    outside_diameter: float = 0.0
+    joint_length: float = 6.0
+    max_joint_deflection: float = radians(3.0)
+    bend_angles: tuple = STANDARD_BEND_ANGLES
+    min_grade: float | None = None
+    trench_width: float | np.ndarray = 1.0
+    max_transition_grade: float | None = None
+    bend_cost: float = 1.0e5
+
+    def check(self, n: int) -> None:
+        """Raise :class:`InputError` naming the first rule value that cannot be used."""
+        def arr(name, lo, strict=False):
+            v = np.asarray(getattr(self, name), dtype=float)
+            if v.ndim not in (0, 1) or (v.ndim == 1 and len(v) != n):
+                raise InputError(f"design rule {name}: expected one value or {n} values, got shape {v.shape}")
+            bad = ~np.isfinite(v) | ((v <= lo) if strict else (v < lo))
+            if np.any(bad):
+                raise InputError(f"design rule {name}: {float(np.ravel(v)[np.argmax(np.ravel(bad))])!r} "
+                                 f"is not a finite value {'>' if strict else '>='} {lo}")
+
+        arr("min_cover", 0.0)
+        if self.max_cover is not None:
+            arr("max_cover", 0.0)
+        arr("trench_width", 0.0, strict=True)
+        for name, strict in (("outside_diameter", False), ("joint_length", True),
+                             ("max_joint_deflection", False), ("bend_cost", True)):
+            v = getattr(self, name)
+            if not np.isfinite(v) or v < 0 or (strict and v == 0):
+                raise InputError(f"design rule {name}: {v!r} must be a finite value {'>' if strict else '>='} 0")
+        for name in ("min_grade", "max_transition_grade"):
+            v = getattr(self, name)
+            if v is not None and (not np.isfinite(v) or v <= 0):
+                raise InputError(f"design rule {name}: {v!r} must be a finite value > 0 (or unset)")
+        if self.min_grade is not None and self.max_transition_grade is not None \
+                and self.min_grade > self.max_transition_grade:
+            raise InputError(f"design rule min_grade {self.min_grade} exceeds max_transition_grade "
+                             f"{self.max_transition_grade}")
+        for a in self.bend_angles:
+            if not (0 < a < np.pi / 2 + 1e-12):
+                raise InputError(f"design rule bend_angles: {a!r} rad is not in (0, pi/2]")
+
+
+@dataclass(frozen=True)
+class Relaxation:
+    """One rule that gave way: where (a station range, m), by how much, why."""
+
+    rule: str             # one of PRIORITY, or "bend angle"
+    station_from: float   # m
+    station_to: float     # m
+    amount: float         # largest shortfall in the range, in `unit`
+    unit: str             # "m", "rad" or "m/m"
+    message: str
+
+
+@dataclass(frozen=True)
+class PipeProfile:
+    """The designed pipe profile, one value per input station.
+
+    top: m, top of pipe. reason: what set the pipe there (see
+    :data:`REASONS` in :mod:`gisgrade.design.profile`). bends: one row per
+    fitting (station, angle_deg, direction "sag"/"crest", index into the
+    stations). relaxations: rules that gave way. excavation_volume: m^3,
+    trench below the minimum-cover line, sum of trench width x (min-cover
+    line - top) x tributary length. length_3d: m along the pipe.
+    upper_limit / lower_limit: m, the top-of-pipe limits from cover and
+    crossings (nan where none). deflection: rad, change of pipe angle at
+    each station (positive = sag). deflection_limit: rad the joints allow
+    there (nan at the ends). trench_volume: m^3 from ground down to the pipe
+    bottom (top - outside diameter), times trench width.
+    """
+
+    station: np.ndarray
+    top: np.ndarray
+    reason: np.ndarray
+    bends: pd.DataFrame
+    relaxations: list = field(default_factory=list)
+    excavation_volume: float = 0.0
+    length_3d: float = 0.0
+    upper_limit: np.ndarray | None = None
+    lower_limit: np.ndarray | None = None
+    deflection: np.ndarray | None = None
+    deflection_limit: np.ndarray | None = None
+    trench_volume: float = 0.0
