@@ -70,9 +70,9 @@ def pressure_findings(station, pressure, hgl, top, velocity, scenario: str,
     kpa = pressure / 1e3
     high = pressure if pressure_high is None else np.asarray(pressure_high)
     out = []
-    out += range_findings(station, hgl - top, hgl < top, scenario=scenario,
+    out += range_findings(station, top - hgl, hgl < top, scenario=scenario,
                           check="sub-atmospheric", severity="critical", unit="m", limit=0.0,
-                          text="HGL {value:.2f} m below the top of pipe")
+                          worst="max", text="HGL {value:.2f} m below the top of pipe")
     low = (pressure < limits.min_pressure - PRESSURE_TOLERANCE) & (hgl >= top)
     out += range_findings(station, kpa, low, scenario=scenario, check="low pressure",
                           severity="warning", unit="kPa", limit=limits.min_pressure / 1e3,

@@ -55,7 +55,6 @@ def registry() -> pint.UnitRegistry:
     ureg.define("gallon_per_minute = gallon / minute = gpm")
     ureg.define("million_gallons_per_day = 1e6 gallon / day = mgd = MGD")
     ureg.define("megalitre_per_day = megaliter / day = MLD = MLd")
-    ureg.define("metre_of_water = 9806.65 pascal = mH2O = m_H2O")
     return ureg
 
 

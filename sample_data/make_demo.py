@@ -204,20 +204,55 @@ inside_diameter = "305 mm"
 outside_diameter = "326 mm"
 friction = "darcy-weisbach"
 roughness = "0.1 mm"
+pressure_rating = "2.5 MPa"   # invented for the demo
 
 [cover]
 minimum = "1.2 m"
+maximum = "4 m"
+
+[[cover_zones]]
+# the Harrowmere bypass road corridor: deeper cover under traffic
+path = "zones.geojson"
+minimum_field = "min_cover_m"
 
 [[crossings]]
 path = "crossings.geojson"
 bottom_field = "bottom_elev"
 clearance = "0.3 m"
 
+[design]
+joint_length = "5.5 m"
+max_joint_deflection = "3 deg"
+
 [hydraulics]
 # top water level of the Tolley Hill tank
 source_head = "{head} m"
-flow = "60 L/s"
+start = "tank"
+flow = "40 L/s"               # average day
 temperature = "12 degC"
+
+[[scenarios]]
+name = "average day"
+multiplier = 1.0
+
+[[scenarios]]
+name = "peak hour"
+multiplier = 2.0
+
+[[scenarios]]
+name = "max day + fire"
+flow = "123 L/s"              # 1.5 x average day plus a 63 L/s fire flow
+show_egl = false
+
+[[fittings]]
+# isolation valve below the tank
+station = "15 m"
+kind = "butterfly_valve_open"
+
+[[offtakes]]
+# Gorse Knoll farms
+station = "4100 m"
+flow = "6 L/s"
 """
 SOURCE_HEAD = 185.0  # m, top water level of the invented tank
 
@@ -288,6 +323,16 @@ def write_scenario(out):
         })
     dump(feature_collection(feats, "urn:ogc:def:crs:EPSG::32632"), out / "crossings.geojson")
 
+    # cover zone: the Harrowmere bypass, a 40 m road corridor crossing the line
+    u0, half = 4700.0, 20.0
+    ring = [(u0 - half - 60, 1500), (u0 + half - 60, 1500), (u0 + half + 60, 2300),
+            (u0 - half + 60, 2300), (u0 - half - 60, 1500)]
+    zone = {"type": "Feature",
+            "properties": {"name": "Harrowmere bypass corridor", "min_cover_m": 1.8},
+            "geometry": {"type": "Polygon",
+                         "coordinates": [[[round(x, 2), round(y, 2)] for x, y in to_map(ring)]]}}
+    dump(feature_collection([zone], "urn:ogc:def:crs:EPSG::32632"), out / "zones.geojson")
+
     (out / "project.toml").write_text(PROJECT_TOML.format(head=f"{SOURCE_HEAD:.1f}"), encoding="utf-8")
 
 
@@ -337,7 +382,8 @@ def main():
     for out in OUT_DIRS:
         write_scenario(out)
     a, b = OUT_DIRS
-    for name in ("dem.tif", "centerline.geojson", "crossings.geojson", "project.toml"):
+    for name in ("dem.tif", "centerline.geojson", "crossings.geojson", "zones.geojson",
+                 "project.toml"):
         assert (a / name).read_bytes() == (b / name).read_bytes(), f"{name} differs between copies"
     verify(a)
     return 0

@@ -46,7 +46,7 @@ def test_demo_writes_every_output(tmp_path, capsys):
     grades = pd.read_csv(out / "gradelines.csv")
     assert list(grades.columns) == ["scenario", "station_m", "flow_m3_s", "velocity_m_s", "hgl_m",
                                     "egl_m", "pressure_kpa"]
-    assert set(grades["scenario"]) == {"design", "static"}
+    assert set(grades["scenario"]) == {"average day", "peak hour", "max day + fire", "static"}
     text = capsys.readouterr().out
     assert "CAUTION" in text
 
@@ -85,7 +85,7 @@ def _points_file(path):
 
 BAD = {
     "unknown key": (lambda p: _edit(p, 'spacing = "10 m"', 'spacng = "10 m"'), ["alignment.spacng", "spacing"]),
-    "bare number": (lambda p: _edit(p, 'flow = "60 L/s"', "flow = 60"), ["hydraulics.flow"]),
+    "bare number": (lambda p: _edit(p, 'flow = "40 L/s"', "flow = 40"), ["hydraulics.flow"]),
     "wrong dimension": (lambda p: _edit(p, 'minimum = "1.2 m"', 'minimum = "1.2 L/s"'), ["cover.minimum"]),
     "unknown unit": (lambda p: _edit(p, 'roughness = "0.1 mm"', 'roughness = "0.1 mmm"'), ["pipe.roughness", "mmm"]),
     "missing key": (lambda p: _edit(p, 'source_head = "185.0 m"', ""), ["hydraulics.source_head"]),
@@ -97,13 +97,13 @@ BAD = {
     "not TOML": (lambda p: p.write_text("[alignment\npath = 1"), ["project.toml", "TOML"]),
     "unknown fitting kind": (lambda p: p.write_text(p.read_text() + '\n[[fittings]]\nstation = "100 m"\n'
                                                     'kind = "butterfly valv"\n'),
-                             ["fittings[0].kind", "butterfly_valve_open"]),
+                             ["fittings[1].kind", "butterfly_valve_open"]),
     "unknown material": (lambda p: _edit(p, 'roughness = "0.1 mm"', 'material = "ductile-iron-lined"'),
                          ["pipe.material", "ductile-iron-cement-lined"]),
     "scenario without flow": (lambda p: p.write_text(p.read_text() + '\n[[scenarios]]\nname = "peak"\n'),
-                              ["scenarios[0]", "multiplier"]),
+                              ["scenarios[3]", "multiplier"]),
     "fitting off the line": (lambda p: p.write_text(p.read_text() + '\n[[fittings]]\nstation = "9 km"\n'
-                                                    'k = 0.5\n'), ["fittings[0].station", "9000"]),
+                                                    'k = 0.5\n'), ["fittings[1].station", "9000"]),
     "bad vertical unit": (lambda p: _edit(p, 'vertical_unit = "m"', 'vertical_unit = "yards"'),
                           ["terrain.vertical_unit", "yards"]),
 }

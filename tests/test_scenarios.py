@@ -403,7 +403,7 @@ def test_demo_with_scenarios_sections_fittings_and_offtakes_end_to_end(demo_copy
 
     demo_copy.write_text(demo_copy.read_text() + '''
 [[scenarios]]
-name = "average day"
+name = "night minimum"
 multiplier = 0.5
 
 [[scenarios]]
@@ -429,7 +429,8 @@ flow = "10 L/s"
     out = tmp_path / "out"
     result = run_all(demo_copy, out)
     grades = pd.read_csv(out / "gradelines.csv")
-    assert list(dict.fromkeys(grades["scenario"])) == ["average day", "fire", "static"]
+    expected = ["average day", "peak hour", "max day + fire", "night minimum", "fire", "static"]
+    assert list(dict.fromkeys(grades["scenario"])) == expected
     t = result.table
     # The design lays each section at its own outside diameter (axis = top - OD/2, exact).
     od = np.where(t["station_m"] >= 3000.0 - 1e-6, 0.274, 0.326)
@@ -437,7 +438,7 @@ flow = "10 L/s"
     assert np.allclose(t["axis_m"] - t["invert_m"], np.where(od == 0.274, 0.125, 0.1525), atol=1e-12)
     summary = json.loads((out / "summary.json").read_text())
     names = [sc["scenario"] for sc in summary["scenarios"]]
-    assert names == ["average day", "fire", "static"]
+    assert names == expected
     for sc in summary["scenarios"]:  # the summary's extremes cover every station's pressure
         g = result.gradelines[result.gradelines["scenario"] == sc["scenario"]]
         assert sc["pressure_min_kpa"] <= g["pressure_kpa"].min() + 1e-6
