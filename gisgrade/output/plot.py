@@ -75,7 +75,7 @@ def plot_profile(result, path: Path) -> None:
     axp.set_xlabel(f"Station ({station_unit})")
     axp.xaxis.set_major_formatter(FuncFormatter(lambda v, _: format_station([v], units, 0)[0]))
     ax.grid(True, lw=0.3, color="#cccccc")
-    ax.legend(loc="upper right", fontsize=7, ncol=3, framealpha=0.9)
+    ax.legend(loc="upper left", bbox_to_anchor=(1.005, 1.0), fontsize=7, framealpha=0.9)
     ax.set_xlim(s[0], s[-1])
     fig.canvas.draw()
     # x is in metres; in US display y is in feet, so convert y back to metres.
@@ -108,9 +108,19 @@ def _grade_lines(ax, axp, result, s, k) -> None:
             ax.plot(s, egl, color=colour, lw=1.0, ls="--", label=f"EGL {name}")
         axp.plot(s, p, color=colour, lw=1.4, label=name)
     t = result.table
+    p_all = result.gradelines["pressure_kpa"].to_numpy()
+    top = max(float(np.nanmax(p_all)), plimit.max_pressure / 1e3)
     if "rating_pa" in t.columns and np.isfinite(t["rating_pa"]).any():
-        axp.step(s, t["rating_pa"].to_numpy() / 1e3, where="post", color="#5b2a86", lw=0.9,
-                 ls=(0, (4, 1, 1, 1)), label="pipe rating")
+        rating = t["rating_pa"].to_numpy() / 1e3
+        if np.nanmin(rating) <= 1.5 * top:  # near enough to matter: draw it
+            axp.step(s, rating, where="post", color="#5b2a86", lw=0.9, ls=(0, (4, 1, 1, 1)),
+                     label="pipe rating")
+            top = max(top, float(np.nanmax(rating)))
+        else:  # far above every pressure: say so rather than squash the strip
+            axp.text(s[-1], top * 1.12, f"pipe rating {np.nanmin(rating):.0f} kPa (off scale) ",
+                     fontsize=7, ha="right", va="top", color="#5b2a86")
+    bottom = min(float(np.nanmin(p_all)), 0.0)
+    axp.set_ylim(bottom - 0.08 * (top - bottom), top + 0.15 * (top - bottom))
 
     axp.axhspan(min(axp.get_ylim()[0], 0), 0, color="#d9534f", alpha=0.12, lw=0)
     axp.axhline(plimit.min_pressure / 1e3, color="#d9534f", lw=0.8, ls="-.")
@@ -121,7 +131,7 @@ def _grade_lines(ax, axp, result, s, k) -> None:
              fontsize=7, va="bottom", color="#8a6d3b")
     axp.set_ylabel("Pressure at axis (kPa)")
     axp.grid(True, lw=0.3, color="#cccccc")
-    axp.legend(loc="upper right", fontsize=7, ncol=4, framealpha=0.9)
+    axp.legend(loc="upper left", bbox_to_anchor=(1.005, 1.0), fontsize=7, framealpha=0.9)
 
 
 def _crossings_and_bends(ax, result, s, k) -> None:
