@@ -377,11 +377,15 @@ def stage_hydraulics(project: Project, table: pd.DataFrame, bends: pd.DataFrame)
             elif head is None:  # static case without an available head: the highest used
                 head = max(flowing_heads) if flowing_heads else float(np.max(axis)) + p_req / (rho * G)
         g = grade_lines(station, axis, source_head=head, flow=flows, point_k=k, **engine)
+        band = table["ground_band_m"].to_numpy() if "ground_band_m" in table else 0.0
         frames.append(pd.DataFrame({
             "scenario": name, "station_m": station, "flow_m3_s": np.append(flows, flows[-1]),
             "velocity_m_s": g.velocity, "hgl_m": g.hgl, "egl_m": g.egl,
-            "pressure_kpa": g.pressure / 1e3, "hgl_upstream_m": g.hgl_upstream,
-            "density_kg_m3": rho,
+            "pressure_kpa": g.pressure / 1e3,
+            # a pipe laid at its cover below a ground line that is off by the DEM's
+            # 95 % band sits that much higher or lower: pressure +/- rho g band
+            "pressure_band_kpa": rho * G * band / 1e3,
+            "hgl_upstream_m": g.hgl_upstream, "density_kg_m3": rho,
         }))
         cases.append(dict(scenario=name, boundary=hyd.boundary, inflow_m3_s=float(inflow),
                           source_head_m=float(head), required_head_m=required, pump_head_m=pump,

@@ -106,3 +106,25 @@ def test_crossing_bottom_field_must_exist(tmp_path):
 ])
 def test_station_labels(station, units, label):
     assert al.format_station([station], units)[0] == label
+
+
+def test_a_feature_crossed_twice_and_a_crossing_at_a_vertex(tmp_path):
+    # Analytic: the centerline bends at (500100, 4649000); a U-shaped feature
+    # crosses the first leg twice (x = 500020 and 500060) and a straight one
+    # passes exactly through the vertex.
+    line_path = write_lines(tmp_path / "l.geojson",
+                            [[(500000.0, 4649000.0), (500100.0, 4649000.0), (500100.0, 4649100.0)]])
+    xing = write_lines(tmp_path / "x.geojson",
+                       [[(500020.0, 4648990.0), (500020.0, 4649010.0), (500060.0, 4649010.0),
+                         (500060.0, 4648990.0)],
+                        [(500090.0, 4648990.0), (500110.0, 4649010.0)]],
+                       props=[{"name": "loop", "bot": 90.0}, {"name": "diag", "bot": 91.0}])
+    line = al.read_alignment(line_path)
+    cfg = CrossingLayerConfig(path=xing, bottom_field="bot", clearance=0.3, key="crossings[0]")
+    c = al.locate_crossings(line, [cfg])
+    assert c.station.tolist() == pytest.approx([20.0, 60.0, 100.0])
+    assert c.name.tolist() == ["loop", "loop", "diag"]
+    assert c.angle_deg[:2].tolist() == pytest.approx([90.0, 90.0])
+    s, _, _, kind = al.stations(line, 30.0, c)
+    at_vertex = kind[s.tolist().index(100.0)]
+    assert at_vertex & al.VERTEX and at_vertex & al.CROSSING  # one station, both kinds

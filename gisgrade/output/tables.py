@@ -11,7 +11,7 @@ EXTRA_PROFILE_COLUMNS = ["ground_band_m", "ground_bridged", "min_cover_m", "max_
                          "deflection_limit_deg", "reason"]
 #: gradelines.csv columns (stable; later issues append).
 GRADELINE_COLUMNS = ["scenario", "station_m", "flow_m3_s", "velocity_m_s", "hgl_m", "egl_m",
-                     "pressure_kpa"]
+                     "pressure_kpa", "pressure_band_kpa"]
 
 
 def write_tables(result, folder: Path) -> None:
