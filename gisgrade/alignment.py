@@ -199,15 +199,14 @@ def crossing_angle(a: np.ndarray, b: np.ndarray) -> np.ndarray:
 def read_vector(path: Path, key: str, layer=None, where=None, fids=None):
     """Read a GeoJSON/GeoPackage layer as a GeoDataFrame, errors naming the file."""
     import geopandas as gpd
-    import pyogrio
 
     extra = {"fids": fids} if fids is not None else {}
     try:
         gdf = gpd.read_file(path, layer=layer, where=where, engine="pyogrio", **extra)
-    except (pyogrio.errors.DataSourceError, pyogrio.errors.DataLayerError) as exc:
+    except Exception as exc:  # GDAL raises a variety of errors for bad files or SQL
         raise InputError(f"{key}: cannot read {path.name} ({_first_line(exc)})") from None
-    except Exception as exc:  # GDAL raises a variety of errors for bad SQL or files
-        raise InputError(f"{key}: cannot read {path.name} ({_first_line(exc)})") from None
+    if not isinstance(gdf, gpd.GeoDataFrame):
+        raise InputError(f"{key}: {path.name} holds no geometry")
     if gdf.crs is None:
         raise InputError(f"{key}: {path.name} has no coordinate reference system")
     gdf = gdf[~(gdf.geometry.isna() | gdf.geometry.is_empty)]
@@ -219,10 +218,32 @@ def _first_line(exc: Exception) -> str:
     return text[0] if text else type(exc).__name__
 
 
-def working_crs(crs: pyproj.CRS, lon: float, lat: float) -> pyproj.CRS:
-    """A projected CRS for stationing: ``crs`` itself if projected, else the
-    UTM zone holding (lon, lat) on the same datum (WGS 84 zones as fallback)."""
-    if crs.is_projected:
+#: Largest grid-vs-geodesic length difference accepted from the line's own
+#: projected CRS; beyond it (e.g. Web Mercator away from the equator) the line
+#: is stationed in UTM instead. UTM itself stays within -0.04 %..+0.1 % [DMA
+#: TM 8358.2], so 0.5 % only turns away projections not meant for distances.
+MAX_SCALE_ERROR = 0.005
+
+
+def metres_per_unit(crs: pyproj.CRS) -> float:
+    """Metres per horizontal unit of a projected CRS (1 for metres).
+
+    >>> metres_per_unit(pyproj.CRS("EPSG:2227"))  # a state plane zone in US survey feet
+    0.30480060960121924
+    """
+    return float(crs.axis_info[0].unit_conversion_factor) if crs.axis_info else 1.0
+
+
+def working_crs(crs: pyproj.CRS, lon: float, lat: float, scale_error: float = 0.0) -> pyproj.CRS:
+    """A projected CRS in metres for stationing.
+
+    ``crs`` itself if it is projected, in metres, and its grid length differs
+    from the geodesic length by at most :data:`MAX_SCALE_ERROR`
+    (``scale_error``); otherwise the UTM zone holding (lon, lat) on the same
+    datum (WGS 84 zones as fallback). A line in feet is therefore stationed
+    in UTM metres, not in feet read as metres.
+    """
+    if crs.is_projected and metres_per_unit(crs) == 1.0 and abs(scale_error) <= MAX_SCALE_ERROR:
         return crs
     from pyproj.aoi import AreaOfInterest
     from pyproj.database import query_utm_crs_info
@@ -322,12 +343,19 @@ def read_alignment(path: Path, *, layer=None, reverse=False, where=None, feature
     lon, lat = to_geo.transform(coords[:, 0], coords[:, 1])
     geodesic = float(geod.line_length(lon, lat))
 
-    work = working_crs(src, float(np.mean(lon)), float(np.mean(lat)))
+    scale_error = 0.0
+    if src.is_projected:
+        grid = float(np.hypot(*np.diff(coords, axis=0).T).sum()) * metres_per_unit(src)
+        scale_error = grid / geodesic - 1.0 if geodesic > 0 else 0.0
+    work = working_crs(src, float(np.mean(lon)), float(np.mean(lat)), scale_error)
     if work != src:
         fwd = pyproj.Transformer.from_crs(src, work, always_xy=True)
         x, y = fwd.transform(coords[:, 0], coords[:, 1])
         coords = np.column_stack([x, y])
-        notes.append(f"centerline CRS {src.name} is geographic; stationed in {work.name}")
+        why = ("is geographic" if not src.is_projected else
+               f"is in {src.axis_info[0].unit_name}" if metres_per_unit(src) != 1.0 else
+               f"stretches lengths by {scale_error * 100:+.2f} % here")
+        notes.append(f"centerline CRS {src.name} {why}; stationed in {work.name}")
     if reverse:
         coords = coords[::-1]
         notes.append("centerline reversed (alignment.reverse = true): flow runs against the digitized direction")

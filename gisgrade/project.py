@@ -198,6 +198,12 @@ class Project:
     def base_dir(self) -> Path:
         return self.path.parent
 
+    def input_paths(self) -> list[Path]:
+        """Every local file this project reads (for the never-overwrite check)."""
+        layers = [*self.crossings, *self.cover_zones, *self.offtakes]
+        paths = [self.path, self.alignment.path, *(c.path for c in layers if c.path)]
+        return paths + [d for d in self.terrain.dem if isinstance(d, Path)]
+
 
 # --------------------------------------------------------------------------
 # Reading helpers

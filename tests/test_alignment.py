@@ -128,3 +128,21 @@ def test_a_feature_crossed_twice_and_a_crossing_at_a_vertex(tmp_path):
     s, _, _, kind = al.stations(line, 30.0, c)
     at_vertex = kind[s.tolist().index(100.0)]
     assert at_vertex & al.VERTEX and at_vertex & al.CROSSING  # one station, both kinds
+
+
+@pytest.mark.parametrize("epsg, why", [
+    (2227, "US survey foot"),   # California zone 3, ftUS (EPSG registry)
+    (3857, "stretches"),        # Web Mercator: scale 1/cos(lat), ~1.37 at 43 N
+])
+def test_projected_lines_not_in_true_metres_are_stationed_in_utm(tmp_path, epsg, why):
+    # Reference: pyproj.Geod (Karney 2013). The same ground line, given in a
+    # feet CRS or in Web Mercator, must get the same metres of stationing.
+    lonlat = np.array([(-122.30, 37.80), (-122.25, 37.82), (-122.20, 37.81)])
+    to = pyproj.Transformer.from_crs("EPSG:4326", f"EPSG:{epsg}", always_xy=True)
+    xy = np.column_stack(to.transform(lonlat[:, 0], lonlat[:, 1]))
+    path = write_lines(tmp_path / "l.geojson", [xy.tolist()], crs=f"EPSG:{epsg}")
+    line = al.read_alignment(path)
+    geod = pyproj.Geod(ellps="GRS80").line_length(lonlat[:, 0], lonlat[:, 1])
+    assert line.crs.to_epsg() in (26910, 32610)  # UTM zone 10N holds 122.3 W
+    assert line.length == pytest.approx(geod, rel=1e-3)
+    assert any(why in n for n in line.notes)

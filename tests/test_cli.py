@@ -142,3 +142,33 @@ def test_line_outside_the_dem_is_an_input_error(tmp_path, capsys):
     err = capsys.readouterr().err
     assert "terrain.dem" in err and err.count("\n") == 1
     assert not (tmp_path / "o").exists()
+
+
+def test_outputs_never_replace_an_input(demo_copy, capsys):
+    # An input named like an output, in the output folder: refused, untouched.
+    import geopandas as gpd
+
+    folder = demo_copy.parent
+    gpd.read_file(folder / "centerline.geojson").to_file(folder / "layers.gpkg", layer="route")
+    _edit(demo_copy, 'path = "centerline.geojson"', 'path = "layers.gpkg"')
+    before = digest(folder)
+    assert main(["run", str(demo_copy), "-o", str(folder)]) == 2
+    err = capsys.readouterr().err
+    assert "layers.gpkg" in err and "input" in err and err.count("\n") == 1
+    assert digest(folder) == before
+
+
+def test_outdir_that_is_a_file_is_an_input_error(demo_copy, tmp_path, capsys):
+    target = tmp_path / "taken"
+    target.write_text("x")
+    assert main(["run", str(demo_copy), "-o", str(target)]) == 2
+    assert "is a file" in capsys.readouterr().err
+    assert target.read_text() == "x"
+
+
+def test_a_later_ground_only_run_leaves_no_stale_tables(demo_copy, tmp_path):
+    out = tmp_path / "o"
+    assert main(["run", str(demo_copy), "-o", str(out), "-q"]) == 0
+    assert (out / "gradelines.csv").exists()
+    assert main(["profile", str(demo_copy), "-o", str(out), "-q"]) == 0
+    assert not (out / "gradelines.csv").exists() and not (out / "findings.csv").exists()
