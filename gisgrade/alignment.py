@@ -32,6 +32,9 @@ REGULAR, VERTEX, CROSSING, END, ZONE = 1, 2, 4, 8, 16
 #: Hydraulic station kinds: a fitting or valve, an offtake, a pipe-section boundary.
 FITTING, OFFTAKE, SECTION = 32, 64, 128
 
+#: Most regular stations a line may get (a guard against a mistyped spacing).
+MAX_STATIONS = 5e6
+
 #: Stations closer than this (m) to a special station are dropped as duplicates.
 STATION_TOLERANCE = 1e-3
 
@@ -72,10 +75,11 @@ class Crossings:
     depth: np.ndarray = None  # m, ground to the feature's top (nan: bottom given)
     size: np.ndarray = None  # m, the feature's outside height (nan: unknown)
     side: np.ndarray = None  # str, "under" or "over": how the pipe passes
+    width: np.ndarray = None  # m, the feature's outside width in plan (0: a line)
 
     def __post_init__(self):
         n = len(self.station)
-        for name, fill in (("depth", np.nan), ("size", np.nan), ("side", "under")):
+        for name, fill in (("depth", np.nan), ("size", np.nan), ("side", "under"), ("width", 0.0)):
             if getattr(self, name) is None:
                 dtype = object if isinstance(fill, str) else float
                 object.__setattr__(self, name, np.full(n, fill, dtype=dtype))
@@ -100,6 +104,27 @@ class Crossings:
     def top(self) -> np.ndarray:
         """The crossed feature's top (m); nan where its size is unknown."""
         return self.bottom + self.size
+
+    def reach(self) -> np.ndarray:
+        """Half the length of centerline over each feature's plan width (m):
+        (width / 2) / sin(crossing angle), the angle taken as at least 10 deg.
+
+        >>> c = Crossings(*(np.array([v]) for v in (50.0, 0.0, 0.0, 99.0, 0.3, 30.0)),
+        ...               name=np.array(["a"], dtype=object), layer=np.array(["l"], dtype=object),
+        ...               width=np.array([0.6]))
+        >>> c.reach().round(9).tolist()
+        [0.6]
+        """
+        angle = np.where(np.isfinite(self.angle_deg), self.angle_deg, 90.0)
+        return self.width / 2 / np.sin(np.radians(np.clip(angle, 10.0, 90.0)))
+
+    def edges(self) -> tuple[np.ndarray, np.ndarray]:
+        """Stations where the pipe enters and leaves each wide feature's
+        footprint, and the index of the crossing each belongs to."""
+        wide = np.flatnonzero(self.width > 0)
+        r = self.reach()[wide]
+        return (np.concatenate([self.station[wide] - r, self.station[wide] + r]),
+                np.concatenate([wide, wide]))
 
     def __len__(self) -> int:
         return len(self.station)
@@ -210,7 +235,22 @@ def read_vector(path: Path, key: str, layer=None, where=None, fids=None):
     if gdf.crs is None:
         raise InputError(f"{key}: {path.name} has no coordinate reference system")
     gdf = gdf[~(gdf.geometry.isna() | gdf.geometry.is_empty)]
+    if len(gdf) and gdf.crs.is_geographic:
+        x0, y0, x1, y1 = gdf.total_bounds
+        if x0 < -180.5 or x1 > 360.5 or y0 < -90.5 or y1 > 90.5:
+            raise InputError(f"{key}: {path.name} is read as {gdf.crs.name} (longitude/latitude) "
+                             f"but holds coordinates up to {max(abs(x0), abs(x1)):.0f}, "
+                             f"{max(abs(y0), abs(y1)):.0f}: the file does not state its CRS")
     return gdf
+
+
+def require_lines(gdf, key: str, path: Path) -> None:
+    """Crossed features must be lines: a point or polygon cannot be crossed at one place."""
+    kinds = set(gdf.geom_type)
+    bad = sorted(kinds - {"LineString", "MultiLineString"})
+    if bad:
+        raise InputError(f"{key}: {path.name} holds {bad[0]} features; crossed features must be "
+                         "lines (LineString)")
 
 
 def _first_line(exc: Exception) -> str:
@@ -383,6 +423,15 @@ def _field_values(gdf, cfg_key: str, field: str | None, factor: float, path: Pat
     return values * factor
 
 
+def _shown(value) -> str:
+    """An attribute value for a message: plain Python, 'empty' for a missing one."""
+    import pandas as pd
+
+    if pd.isna(value):
+        return "empty"
+    return repr(value.item() if hasattr(value, "item") else value)
+
+
 def locate_crossings(alignment: Alignment, layers, vertical_factor: float = 1.0) -> Crossings:
     """Find where each crossing layer's features cross the centerline.
 
@@ -398,12 +447,17 @@ def locate_crossings(alignment: Alignment, layers, vertical_factor: float = 1.0)
     coords = alignment.coords
     for cfg in layers:
         gdf = read_vector(cfg.path, f"{cfg.key}.path", layer=cfg.layer)
+        require_lines(gdf, f"{cfg.key}.path", cfg.path)
         factor = cfg.field_factor if cfg.field_factor is not None else vertical_factor
         bottom = _field_values(gdf, f"{cfg.key}.bottom_field", cfg.bottom_field, factor, cfg.path)
         depth = _field_values(gdf, f"{cfg.key}.depth_field", cfg.depth_field, factor, cfg.path)
         size = _field_values(gdf, f"{cfg.key}.size_field", cfg.size_field, factor, cfg.path)
         if cfg.size is not None:
             size = np.where(np.isfinite(size), size, cfg.size)
+        width = _field_values(gdf, f"{cfg.key}.width_field", cfg.width_field, factor, cfg.path)
+        if cfg.width is not None:
+            width = np.where(np.isfinite(width), width, cfg.width)
+        width = np.where(np.isfinite(width), width, np.where(np.isfinite(size), size, 0.0))
         gdf = gdf.to_crs(alignment.crs)
         geoms = gdf.geometry.values
         hits = shapely.intersection(geoms, alignment.line)
@@ -419,7 +473,7 @@ def locate_crossings(alignment: Alignment, layers, vertical_factor: float = 1.0)
             if not math.isfinite(value):
                 raise InputError(
                     f"{cfg.key}: feature {i} of {cfg.path.name} crosses the line but its "
-                    f"{used!r} is {gdf[used].iloc[i]!r}"
+                    f"{used!r} is {_shown(gdf[used].iloc[i])}"
                 )
             if cfg.side == "over" and not math.isfinite(size[i]) and cfg.depth_field is None:
                 raise InputError(
@@ -437,7 +491,7 @@ def locate_crossings(alignment: Alignment, layers, vertical_factor: float = 1.0)
             xy = shapely.get_coordinates(points)
             for k in range(len(points)):
                 rows.append((s_line[k], xy[k, 0], xy[k, 1], bottom[i], cfg.clearance, angle[k],
-                             name, cfg.key, depth[i], size[i], cfg.side))
+                             name, cfg.key, depth[i], size[i], cfg.side, width[i]))
     if not rows:
         return Crossings.empty()
     rows.sort(key=lambda r: r[0])
@@ -445,7 +499,7 @@ def locate_crossings(alignment: Alignment, layers, vertical_factor: float = 1.0)
     f = [np.asarray(c, dtype=float) if i not in (6, 7, 10) else None for i, c in enumerate(cols)]
     return Crossings(f[0], f[1], f[2], f[3], f[4], f[5],
                      name=np.asarray(cols[6], dtype=object), layer=np.asarray(cols[7], dtype=object),
-                     depth=f[8], size=f[9], side=np.asarray(cols[10], dtype=object))
+                     depth=f[8], size=f[9], side=np.asarray(cols[10], dtype=object), width=f[11])
 
 
 @dataclass(frozen=True)
@@ -457,11 +511,12 @@ class CoverZones:
     minimum: np.ndarray  # m cover inside the stretch (nan: the line's own)
     maximum: np.ndarray  # m (nan: the line's own)
     name: np.ndarray  # str
+    layer: np.ndarray = None  # str, project-file key of the zone layer
 
     @classmethod
     def empty(cls) -> "CoverZones":
         f = np.empty(0)
-        return cls(f, f, f, f, np.empty(0, dtype=object))
+        return cls(f, f, f, f, np.empty(0, dtype=object), np.empty(0, dtype=object))
 
     def __len__(self) -> int:
         return len(self.start)
@@ -469,9 +524,6 @@ class CoverZones:
     @property
     def boundaries(self) -> np.ndarray:
         return np.concatenate([self.start, self.end])
-
-    def shifted(self, offset: float) -> "CoverZones":
-        return replace(self, start=self.start + offset, end=self.end + offset)
 
 
 def locate_zones(alignment: Alignment, layers) -> CoverZones:
@@ -506,13 +558,14 @@ def locate_zones(alignment: Alignment, layers) -> CoverZones:
                 ends = shapely.line_locate_point(alignment.line, shapely.points(
                     np.asarray(part.coords)[[0, -1], :2]))
                 name = names[i] if names is not None else f"{cfg.path.stem}#{i}"
-                rows.append((float(ends.min()), float(ends.max()), mins[i], maxs[i], name))
+                rows.append((float(ends.min()), float(ends.max()), mins[i], maxs[i], name,
+                             cfg.key))
     if not rows:
         return CoverZones.empty()
     rows.sort()
     cols = list(zip(*rows))
     return CoverZones(*(np.asarray(c, dtype=float) for c in cols[:4]),
-                      name=np.asarray(cols[4], dtype=object))
+                      name=np.asarray(cols[4], dtype=object), layer=np.asarray(cols[5], dtype=object))
 
 
 def zone_cover(station, zones: CoverZones, minimum: float, maximum: float | None):
@@ -552,9 +605,15 @@ def stations(alignment: Alignment, spacing: float, crossings: Crossings,
 
     ``extra`` is more ``(stations, flag)`` pairs (fittings, offtakes, ...).
     """
+    if alignment.length / spacing > MAX_STATIONS:
+        raise InputError(f"alignment.spacing = {spacing:g} m gives {alignment.length / spacing:.3g} "
+                         f"stations on {alignment.length:.0f} m; more than {MAX_STATIONS:.0e} is "
+                         "not a planning profile")
     special = [(alignment.vertex_stations, VERTEX), *extra]
     if len(crossings):
         special.append((crossings.station, CROSSING))
+        inside = (crossings.edges()[0] > 0) & (crossings.edges()[0] < alignment.length)
+        special.append((crossings.edges()[0][inside], CROSSING))
     if zones is not None and len(zones):
         special.append((zones.boundaries, ZONE))
     s, kind = station_positions(alignment.length, spacing, special)
@@ -591,7 +650,7 @@ def format_station(station_m, units: str = "SI", decimals: int = 2) -> np.ndarra
     ['1+500']
     """
     s = np.asarray(station_m, dtype=float)
-    if units.upper() == "US":
+    if str(units).upper() == "US":
         value, unit, width = s / 0.3048, 100, 2
     else:
         value, unit, width = s, 1000, 3

@@ -66,6 +66,11 @@ def stage_alignment(project: Project):
         at = _station_index(table["station_m"].to_numpy(), located[0], "offtakes")
         table["offtake_m3_s"] = np.bincount(at, weights=located[1], minlength=len(table))
     crossings = replace(crossings, station=crossings.station + offset)
+    hit = set(crossings.layer) | set(zones.layer)
+    missed = tuple(f"{c.key}: no feature of {c.path.name} meets the centerline"
+                   for c in (*project.crossings, *project.cover_zones) if c.key not in hit)
+    if missed:
+        line = replace(line, notes=line.notes + missed)
     return line, crossings, table
 
 
@@ -173,11 +178,17 @@ def stage_design(project: Project, table: pd.DataFrame, crossings: al.Crossings)
     crossings = crossings.resolve(lambda s: np.interp(s, station, ground))
     ground_at = np.interp(crossings.station, station, ground)
     top = np.where(np.isfinite(crossings.size), crossings.top, ground_at - crossings.depth)
+    # a wide feature holds its limit over its whole footprint: at its centre
+    # and where the pipe enters and leaves it (edges inside the line only)
+    edge_s, edge_i = crossings.edges()
+    keep = (edge_s >= station[0]) & (edge_s <= station[-1])
+    at = np.concatenate([crossings.station, edge_s[keep]])
+    i = np.concatenate([np.arange(len(crossings)), edge_i[keep]])
     design_crossings = [
         Crossing(station=float(s), limit=float(b if side == "under" else t), clearance=float(c),
                  side=str(side), name=str(n))
-        for s, b, t, c, side, n in zip(crossings.station, crossings.bottom, top,
-                                       crossings.clearance, crossings.side, crossings.name)
+        for s, b, t, c, side, n in zip(at, crossings.bottom[i], top[i], crossings.clearance[i],
+                                       crossings.side[i], crossings.name[i])
     ]
     od = _column(table, "outside_diameter_m", pipe.outside_diameter)  # per station (sections)
     rules = DesignRules(

@@ -139,6 +139,8 @@ class CrossingLayerConfig:
     size_field: str | None = None  # the feature's outside height (attribute) ...
     size: float | None = None  # ... or one value for the layer, m
     side: str = "under"  # "under" or "over"
+    width_field: str | None = None  # the feature's plan width (attribute) ...
+    width: float | None = None  # ... or one value; default: its size (a round pipe)
     field_factor: float | None = None  # m per attribute unit (None: the DEM's vertical unit)
     layer: str | None = None
     key: str = "crossings[0]"  # where it sits in the project file, for messages
@@ -517,6 +519,8 @@ def _read_crossing(s: Section) -> CrossingLayerConfig:
         size_field=s.string("size_field", None),
         size=s.quantity("size", "length", None, minimum=0.0),
         side=s.string("side", "under", choices=("under", "over")),
+        width_field=s.string("width_field", None),
+        width=s.quantity("width", "length", None, minimum=0.0),
         field_factor=_field_unit(s),
         layer=s.string("layer", None),
         key=s.name,

@@ -172,3 +172,38 @@ def test_a_later_ground_only_run_leaves_no_stale_tables(demo_copy, tmp_path):
     assert (out / "gradelines.csv").exists()
     assert main(["profile", str(demo_copy), "-o", str(out), "-q"]) == 0
     assert not (out / "gradelines.csv").exists() and not (out / "findings.csv").exists()
+
+
+def test_crossing_layers_that_cannot_be_crossed_are_input_errors(demo_copy, capsys):
+    import json
+
+    folder = demo_copy.parent
+    doc = json.loads((folder / "crossings.geojson").read_text())
+    # 1) points instead of lines
+    pts = dict(doc, features=[dict(f, geometry={"type": "Point",
+                                                "coordinates": f["geometry"]["coordinates"][0]})
+                              for f in doc["features"]])
+    (folder / "crossings.geojson").write_text(json.dumps(pts))
+    assert main(["run", str(demo_copy), "-o", str(folder / "o")]) == 2
+    assert "Point features" in capsys.readouterr().err
+    # 2) UTM coordinates in a GeoJSON that does not state its CRS: read as
+    # lon/lat (RFC 7946 default), which those numbers cannot be
+    (folder / "crossings.geojson").write_text(json.dumps({k: v for k, v in doc.items() if k != "crs"}))
+    assert main(["run", str(demo_copy), "-o", str(folder / "o")]) == 2
+    assert "does not state its CRS" in capsys.readouterr().err
+    assert not (folder / "o").exists()
+
+
+def test_a_crossing_layer_that_misses_the_line_is_noted(demo_copy):
+    import json
+
+    from gisgrade.pipeline import run
+
+    folder = demo_copy.parent
+    doc = json.loads((folder / "crossings.geojson").read_text())
+    for f in doc["features"]:  # move every feature 100 km east
+        f["geometry"]["coordinates"] = [[x + 1e5, y] for x, y in f["geometry"]["coordinates"]]
+    (folder / "crossings.geojson").write_text(json.dumps(doc))
+    r = run(demo_copy, write=False)
+    assert len(r.crossings) == 0
+    assert any("crossings[0]: no feature of crossings.geojson" in n for n in r.summary["notes"])

@@ -136,3 +136,26 @@ max_joint_deflection = "0 deg"
     assert set(r.bends["direction"]) <= {"sag", "crest"}
     top_at = dict(zip(r.table["station_m"], r.table["top_m"]))
     assert top_at[500.0] <= 95.0 - 0.3 + 1e-6
+
+
+def test_a_wide_feature_is_cleared_over_its_whole_footprint(tmp_path):
+    extra = """
+[[crossings]]
+path = "x.geojson"
+bottom_field = "bottom"
+width_field = "width"
+clearance = "0.3 m"
+"""
+    # A 3 m wide box culvert crossed at 30 degrees: the pipe runs (3/2)/sin 30 = 3 m
+    # either side of the crossing point beneath it (plane geometry, exact).
+    t30 = np.tan(np.radians(30))
+    xing = [([(X0 + 500 - 40, Y - 40 * t30), (X0 + 500 + 40, Y + 40 * t30)],
+             {"bottom": 97.0, "width": 3.0})]
+    r = run(flat_site(tmp_path, extra, crossings=xing), write=False)
+    st, top = r.table["station_m"].to_numpy(), r.table["top_m"].to_numpy()
+    for s in (497.0, 500.0, 503.0):
+        at = np.isclose(st, s, atol=1e-9)
+        assert at.sum() == 1
+        assert top[at][0] <= 97.0 - 0.3 + 1e-6
+    from gisgrade.output.layers import clearance_achieved
+    assert clearance_achieved(r)[0] >= 0.3 - 1e-6

@@ -92,16 +92,23 @@ def fittings_points(result) -> "pd.DataFrame":
 
 
 def clearance_achieved(result) -> np.ndarray:
-    """Vertical separation between the outsides at each crossing (m): under a
-    feature, its bottom minus the top of pipe; over it, the pipe's bottom
-    (top minus outside diameter) minus the feature's top."""
+    """Vertical separation between the outsides at each crossing (m), the
+    least over the feature's footprint (its centre and the two edges where
+    the pipe enters and leaves it): under a feature, its bottom minus the top
+    of pipe; over it, the pipe's bottom (top minus outside diameter) minus the
+    feature's top."""
     c, t = result.crossings, result.table
-    top = np.interp(c.station, t["station_m"], t["top_m"])
-    od = (np.interp(c.station, t["station_m"], t["outside_diameter_m"])
-          if "outside_diameter_m" in t.columns else result.project.pipe.outside_diameter)
-    feature_top = np.where(np.isfinite(c.size), c.top, np.interp(c.station, t["station_m"],
-                                                                  t["ground_m"]) - c.depth)
-    return np.where(c.side == "over", top - od - feature_top, c.bottom - top)
+    s = t["station_m"].to_numpy()
+    r = c.reach()
+    at = np.stack([c.station - r, c.station, c.station + r])
+    top = np.interp(at, s, t["top_m"].to_numpy())
+    od_col = "outside_diameter_m" if "outside_diameter_m" in t else None
+    od = (np.interp(c.station, s, t[od_col].to_numpy()) if od_col
+          else result.project.pipe.outside_diameter)
+    ground = np.interp(c.station, s, t["ground_m"].to_numpy())
+    feature_top = np.where(np.isfinite(c.size), c.top, ground - c.depth)
+    return np.where(c.side == "over", top.min(axis=0) - od - feature_top,
+                    c.bottom - top.max(axis=0))
 
 
 def station_points(result) -> "pd.DataFrame":
