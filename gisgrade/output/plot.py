@@ -22,13 +22,27 @@ from matplotlib.ticker import FuncFormatter  # noqa: E402
 
 from ..cautions import SHORT  # noqa: E402
 
-FT = 0.3048  # international foot, m
+FT = 0.3048  # international foot, m (NIST SP 811)
+PSI = 6894.757293168361  # pound-force per square inch, Pa (NIST SP 811)
 
 #: Line styles of our own choosing; scenario lines cycle through SCENARIO_COLOURS.
 GROUND = dict(color="#7a5c3a", lw=1.2)
 PIPE_FILL = dict(color="#5b6770", alpha=0.55, lw=0)
 SCENARIO_COLOURS = ["#1b5e9e", "#b8412c", "#2f8f6a", "#7b4fa0", "#c7962a"]
 STATIC = dict(color="#444444", lw=1.0, ls=":")
+
+
+class FeetLocator(matplotlib.ticker.Locator):
+    """Tick positions (in metres) at round numbers of feet along the axis."""
+
+    def __init__(self, lo: float, hi: float):
+        self.lo, self.hi = lo, hi
+
+    def __call__(self):
+        lo, hi = self.axis.get_view_interval() if self.axis else (self.lo, self.hi)
+        feet = matplotlib.ticker.MaxNLocator(nbins=8, steps=[1, 2, 5, 10]).tick_values(
+            lo / FT, hi / FT)
+        return feet * FT
 
 
 def vertical_exaggeration(ax) -> float:
@@ -73,6 +87,8 @@ def plot_profile(result, path: Path) -> None:
     ax.set_ylabel(f"Elevation ({zunit})")
     station_unit = "hundreds ft + ft" if units == "US" else "km + m"
     axp.set_xlabel(f"Station ({station_unit})")
+    if units == "US":  # ticks at round hundreds of feet, labelled 12+00
+        axp.xaxis.set_major_locator(FeetLocator(s[0], s[-1]))
     axp.xaxis.set_major_formatter(FuncFormatter(lambda v, _: format_station([v], units, 0)[0]))
     ax.grid(True, lw=0.3, color="#cccccc")
     ax.legend(loc="upper left", bbox_to_anchor=(1.005, 1.0), fontsize=7, framealpha=0.9)
@@ -90,13 +106,16 @@ def plot_profile(result, path: Path) -> None:
 
 
 def _grade_lines(ax, axp, result, s, k) -> None:
-    """Each scenario's HGL and EGL on ``ax``, its pressure on the strip ``axp``."""
+    """Each scenario's HGL and EGL on ``ax``, its pressure on the strip ``axp``
+    (kPa, or psi in US display)."""
+    us = result.project.output.units == "US"
+    pa, punit = (PSI, "psi") if us else (1e3, "kPa")
     plimit = result.project.checks
     hide_egl = {sc.name for sc in result.project.scenarios if not sc.show_egl}
     flow_i = 0
     for name, g in result.gradelines.groupby("scenario", sort=False):
         hgl, egl = g["hgl_m"].to_numpy() * k, g["egl_m"].to_numpy() * k
-        p = g["pressure_kpa"].to_numpy()
+        p = g["pressure_kpa"].to_numpy() * 1e3 / pa
         if name == "static":
             ax.plot(s, hgl, label="static HGL", **STATIC)
             axp.plot(s, p, label="static", **STATIC)
@@ -108,28 +127,28 @@ def _grade_lines(ax, axp, result, s, k) -> None:
             ax.plot(s, egl, color=colour, lw=1.0, ls="--", label=f"EGL {name}")
         axp.plot(s, p, color=colour, lw=1.4, label=name)
     t = result.table
-    p_all = result.gradelines["pressure_kpa"].to_numpy()
-    top = max(float(np.nanmax(p_all)), plimit.max_pressure / 1e3)
+    p_all = result.gradelines["pressure_kpa"].to_numpy() * 1e3 / pa
+    top = max(float(np.nanmax(p_all)), plimit.max_pressure / pa)
     if "rating_pa" in t.columns and np.isfinite(t["rating_pa"]).any():
-        rating = t["rating_pa"].to_numpy() / 1e3
+        rating = t["rating_pa"].to_numpy() / pa
         if np.nanmin(rating) <= 1.5 * top:  # near enough to matter: draw it
             axp.step(s, rating, where="post", color="#5b2a86", lw=0.9, ls=(0, (4, 1, 1, 1)),
                      label="pipe rating")
             top = max(top, float(np.nanmax(rating)))
         else:  # far above every pressure: say so rather than squash the strip
-            axp.text(s[-1], top * 1.12, f"pipe rating {np.nanmin(rating):.0f} kPa (off scale) ",
+            axp.text(s[-1], top * 1.12, f"pipe rating {np.nanmin(rating):.0f} {punit} (off scale) ",
                      fontsize=7, ha="right", va="top", color="#5b2a86")
     bottom = min(float(np.nanmin(p_all)), 0.0)
     axp.set_ylim(bottom - 0.08 * (top - bottom), top + 0.15 * (top - bottom))
 
     axp.axhspan(min(axp.get_ylim()[0], 0), 0, color="#d9534f", alpha=0.12, lw=0)
-    axp.axhline(plimit.min_pressure / 1e3, color="#d9534f", lw=0.8, ls="-.")
-    axp.axhline(plimit.max_pressure / 1e3, color="#8a6d3b", lw=0.8, ls="-.")
-    axp.text(s[0], plimit.min_pressure / 1e3, f" min {plimit.min_pressure / 1e3:.0f} kPa",
+    axp.axhline(plimit.min_pressure / pa, color="#d9534f", lw=0.8, ls="-.")
+    axp.axhline(plimit.max_pressure / pa, color="#8a6d3b", lw=0.8, ls="-.")
+    axp.text(s[0], plimit.min_pressure / pa, f" min {plimit.min_pressure / pa:.0f} {punit}",
              fontsize=7, va="bottom", color="#d9534f")
-    axp.text(s[0], plimit.max_pressure / 1e3, f" max {plimit.max_pressure / 1e3:.0f} kPa",
+    axp.text(s[0], plimit.max_pressure / pa, f" max {plimit.max_pressure / pa:.0f} {punit}",
              fontsize=7, va="bottom", color="#8a6d3b")
-    axp.set_ylabel("Pressure at axis (kPa)")
+    axp.set_ylabel(f"Pressure at axis ({punit})")
     axp.grid(True, lw=0.3, color="#cccccc")
     axp.legend(loc="upper left", bbox_to_anchor=(1.005, 1.0), fontsize=7, framealpha=0.9)
 

@@ -38,6 +38,7 @@ def summarize(result) -> dict:
                                       result.crossings.bottom)
         ],
         "scenarios": [],
+        "display_units": result.project.output.units,
         "cautions": CAUTIONS,
     }
     if "top_m" in t.columns:
@@ -105,7 +106,12 @@ def _plain(obj):
 
 def summary_text(summary: dict) -> str:
     """A short human-readable account of the run."""
-    from ..alignment import format_station
+    from ..alignment import format_station as label
+
+    units = summary.get("display_units", "SI")
+
+    def format_station(values):
+        return label(values, units)
 
     lines = [
         f"route: {summary['length_m']:.1f} m in {summary['working_crs']} "
