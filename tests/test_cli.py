@@ -207,3 +207,17 @@ def test_a_crossing_layer_that_misses_the_line_is_noted(demo_copy):
     r = run(demo_copy, write=False)
     assert len(r.crossings) == 0
     assert any("crossings[0]: no feature of crossings.geojson" in n for n in r.summary["notes"])
+
+
+def test_us_display_labels_stations_in_feet(demo_copy, tmp_path):
+    import re
+
+    demo_copy.write_text(demo_copy.read_text() + '\n[output]\nunits = "US"\n')
+    out = tmp_path / "us"
+    assert main(["run", str(demo_copy), "-o", str(out), "-q"]) == 0
+    prof = pd.read_csv(out / "profile.csv")
+    # last station in feet (1 ft = 0.3048 m, NIST SP 811), written hundreds + feet
+    feet = prof["station_m"].iloc[-1] / 0.3048
+    assert prof["station"].iloc[-1] == f"{int(feet // 100)}+{feet % 100:05.2f}"
+    text = (out / "summary.txt").read_text()
+    assert re.search(r"crossing .* at \d+\+\d{2}\.\d{2}:", text)
