@@ -25,7 +25,7 @@ import pyproj
 import shapely
 from shapely.geometry import LineString, MultiLineString
 
-from .errors import InputError
+from .errors import InputError, first_line
 
 #: Station kind flags.
 REGULAR, VERTEX, CROSSING, END, ZONE = 1, 2, 4, 8, 16
@@ -229,7 +229,7 @@ def read_vector(path: Path, key: str, layer=None, where=None, fids=None):
     try:
         gdf = gpd.read_file(path, layer=layer, where=where, engine="pyogrio", **extra)
     except Exception as exc:  # GDAL raises a variety of errors for bad files or SQL
-        raise InputError(f"{key}: cannot read {path.name} ({_first_line(exc)})") from None
+        raise InputError(f"{key}: cannot read {path.name} ({first_line(exc)})") from None
     if not isinstance(gdf, gpd.GeoDataFrame):
         raise InputError(f"{key}: {path.name} holds no geometry")
     if gdf.crs is None:
@@ -251,11 +251,6 @@ def require_lines(gdf, key: str, path: Path) -> None:
     if bad:
         raise InputError(f"{key}: {path.name} holds {bad[0]} features; crossed features must be "
                          "lines (LineString)")
-
-
-def _first_line(exc: Exception) -> str:
-    text = str(exc).strip().splitlines()
-    return text[0] if text else type(exc).__name__
 
 
 #: Largest grid-vs-geodesic length difference accepted from the line's own

@@ -12,3 +12,10 @@ class InputError(Exception):
     def __init__(self, message: str):
         # One line, always: the CLI promises a single-line error.
         super().__init__(" ".join(str(message).split()))
+
+
+def first_line(exc: BaseException) -> str:
+    """The first line of an exception's message (its type name if it has none),
+    for quoting a library's error inside our one-line message."""
+    text = str(exc).strip().splitlines()
+    return text[0] if text else type(exc).__name__

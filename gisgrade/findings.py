@@ -11,6 +11,8 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
+from .arrays import runs
+
 #: Pressures within this much (Pa) of a limit meet it (a solved head meets a
 #: required pressure to rounding error, not one pascal short).
 PRESSURE_TOLERANCE = 1e-3
@@ -28,17 +30,6 @@ class Thresholds:
     max_pressure: float = 550e3  # Pa: upper end of normal working pressure, 80 psi (common practice)
     min_velocity: float = 0.0  # m/s: 0 disables the check
     max_velocity: float = 3.0  # m/s: upper end even in fire flow (common practice)
-
-
-def runs(mask: np.ndarray) -> np.ndarray:
-    """Start and end index (inclusive) of each run of True in ``mask``.
-
-    >>> runs(np.array([0, 1, 1, 0, 1], dtype=bool)).tolist()
-    [[1, 2], [4, 4]]
-    """
-    m = np.concatenate([[False], np.asarray(mask, dtype=bool), [False]])
-    edges = np.flatnonzero(np.diff(m.astype(np.int8)))
-    return edges.reshape(-1, 2) - np.array([0, 1])
 
 
 def range_findings(station, value, mask, *, scenario, check, severity, unit, limit,

@@ -42,7 +42,8 @@ from pathlib import Path
 
 import numpy as np
 
-from .errors import InputError
+from .arrays import runs
+from .errors import InputError, first_line
 
 __all__ = [
     "VERTICAL_UNITS",
@@ -527,10 +528,9 @@ def _sample_one(src, xd, yd, todo, method, path, key):
 
 
 def _runs(mask: np.ndarray):
-    """(start, end) inclusive index pairs of the True runs in ``mask``."""
-    m = np.concatenate([[False], mask, [False]]).astype(np.int8)
-    d = np.diff(m)
-    return np.flatnonzero(d == 1), np.flatnonzero(d == -1) - 1
+    """(starts, ends) inclusive index arrays of the True runs in ``mask``."""
+    r = runs(mask)
+    return r[:, 0], r[:, 1]
 
 
 def _fmt_ranges(station, starts, ends, limit=8) -> str:
@@ -631,7 +631,7 @@ def sample_ground(
         try:
             src = rasterio.open(path)
         except Exception as exc:
-            reason = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
+            reason = first_line(exc)
             raise InputError(f"{key}: cannot open DEM {str(path)!r} ({reason})") from None
         with src:
             if src.crs is None:

@@ -12,7 +12,7 @@ import functools
 
 import pint
 
-from .errors import InputError
+from .errors import InputError, first_line
 
 #: SI unit each physical dimension is converted to.
 SI_UNITS = {
@@ -80,7 +80,7 @@ def parse_quantity(value, kind: str, key: str) -> float:
     try:
         q = ureg.Quantity(value.strip())
     except Exception as exc:  # pint raises many kinds on malformed text
-        raise InputError(f"{key} = {value!r}: cannot read it as a quantity ({_reason(exc)})") from None
+        raise InputError(f"{key} = {value!r}: cannot read it as a quantity ({first_line(exc)})") from None
     if not isinstance(q, ureg.Quantity):
         q = ureg.Quantity(q)
     if q.dimensionless and kind not in ("angle", "dimensionless"):
@@ -101,8 +101,3 @@ def parse_quantity(value, kind: str, key: str) -> float:
         return float(magnitude)
     except TypeError:
         raise InputError(f"{key} = {value!r}: expected a single value") from None
-
-
-def _reason(exc: Exception) -> str:
-    text = str(exc).strip().splitlines()
-    return text[0] if text else type(exc).__name__
