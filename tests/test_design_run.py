@@ -12,30 +12,9 @@ import pytest
 
 from gisgrade.pipeline import run
 
-from conftest import write_dem, write_lines
+from conftest import PROJECT, write_dem, write_lines
 
-BASE = """\
-[alignment]
-path = "line.geojson"
-spacing = "5 m"
-
-[terrain]
-dem = "dem.tif"
-
-[pipe]
-inside_diameter = "300 mm"
-outside_diameter = "320 mm"
-friction = "darcy-weisbach"
-roughness = "0.1 mm"
-
-[cover]
-minimum = "1.2 m"
-
-[hydraulics]
-source_head = "150 m"
-flow = "40 L/s"
-temperature = "15 degC"
-"""
+BASE = PROJECT.replace('spacing = "10 m"', 'spacing = "5 m"')
 
 X0, Y = 500_100.0, 4_649_000.0  # the line runs east along y = Y from X0 for 1 km
 
