@@ -29,6 +29,8 @@ from .rules import PRIORITY, Crossing, DesignRules, PipeProfile, Relaxation
 TOL = 1e-6
 #: Linearization error (rad) at which the sequential solves stop.
 SLP_TOL = 1e-8
+#: Linearization error (rad) enough while turning is still short (more bends to come).
+SLP_ROUGH = 1e-3
 #: Most linear solves per sequential-linearization loop.
 SLP_MAX = 8
 #: Most bend-placing rounds.
@@ -63,6 +65,8 @@ class _Problem:
     crhs: np.ndarray     # crossing limit on top of pipe, m
     cname: list
     rules: DesignRules
+    upper_lp: np.ndarray = None  # upper and lower with pointwise contradictions
+    lower_lp: np.ndarray = None  # settled by priority (see _settle_pointwise)
 
     @property
     def n(self):
@@ -147,7 +151,23 @@ def _prepare(station, ground, crossings, rules) -> tuple[_Problem, np.ndarray, n
         names.append(name)
     P = _Problem(s, h, g_u, upper, lower, width * trib, allow, np.array(cj, int),
                  np.array(ct, float), np.array(cs, float), np.array(cr, float), names, rules)
+    P.upper_lp, P.lower_lp = _settle_pointwise(P)
     return P, group, first
+
+
+def _settle_pointwise(P: _Problem):
+    """Limits for the solver with the contradictions at single stations settled
+    by priority before any solve: a crossing at a station beats max cover
+    (under) or min cover (over); min cover beats max cover. The rules
+    themselves are unchanged, so the shortfall is still reported. Two
+    crossings that contradict each other are left to the least-violation
+    solve."""
+    upper, lower = P.upper.copy(), P.lower.copy()
+    at = P.ct == 0
+    under, over = at & (P.csign > 0), at & (P.csign < 0)
+    np.minimum.at(lower, P.cj[under], P.crhs[under])
+    np.maximum.at(upper, P.cj[over], P.crhs[over])
+    return upper, np.minimum(lower, upper)
 
 
 def _build(P: _Problem, ghat, bends, mg_dir, mode, caps, strict=False):
@@ -199,14 +219,15 @@ def _build(P: _Problem, ghat, bends, mg_dir, mode, caps, strict=False):
 
     # cover: plain bounds unless each station needs its own slack
     idx = np.arange(n)
-    fin = np.flatnonzero(np.isfinite(P.lower))
+    upper, lower = P.upper_lp, P.lower_lp
+    fin = np.flatnonzero(np.isfinite(lower))
     if least:
-        add_rows(idx, idx, np.ones(n), P.upper, "min cover", wt_rel)
-        add_rows(np.arange(len(fin)), fin, -np.ones(len(fin)), -P.lower[fin], "max cover", wt_rel[fin])
+        add_rows(idx, idx, np.ones(n), upper, "min cover", wt_rel)
+        add_rows(np.arange(len(fin)), fin, -np.ones(len(fin)), -lower[fin], "max cover", wt_rel[fin])
     else:
-        lo[0] = P.lower.copy()
+        lo[0] = lower.copy()
         lo[0][fin] -= cap("max cover", len(fin))
-        hi[0] = P.upper + cap("min cover", n)
+        hi[0] = upper + cap("min cover", n)
 
     # crossings: csign * ((1-t) z_j + t z_{j+1}) <= csign * rhs
     k = len(P.cj)
@@ -271,7 +292,8 @@ def _solve(P, ghat, bends, mg_dir, mode, caps=None, max_iter=SLP_MAX, strict=Fal
     the linearization is exact within :data:`SLP_TOL` at the answer (so the
     true joint and bend angles keep the rules). Returns the last feasible solution, or None if the first
     solve is infeasible."""
-    best = None
+    best, best_err = None, np.inf
+    prev_err = np.inf
     for _ in range(max_iter):
         c, A, b, Aeq, beq, bounds, lay = _build(P, ghat, bends, mg_dir, mode, caps, strict)
         res = linprog(c, A_ub=A, b_ub=b, A_eq=Aeq, b_eq=beq, bounds=bounds, method="highs")
@@ -280,32 +302,40 @@ def _solve(P, ghat, bends, mg_dir, mode, caps=None, max_iter=SLP_MAX, strict=Fal
         x = res.x
         z = x[slice(*lay["z"])]
         g = _grades(z, P.h)
-        e = x[slice(*lay["excess"])]
-        best = _Solution(z, g, e, {k: x[slice(*v)] for k, v in lay.items() if k not in ("z", "excess")})
+        sol = _Solution(z, g, x[slice(*lay["excess"])],
+                        {k: x[slice(*v)] for k, v in lay.items() if k not in ("z", "excess")})
         if P.n < 3:
-            break
-        a = 1.0 / (1.0 + ghat ** 2)  # error of the linearization the solve used
+            return sol
+        a = 1.0 / (1.0 + ghat ** 2)  # error of the linearization this solve used
         lin = _turn(ghat) + a[1:] * (g[1:] - ghat[1:]) - a[:-1] * (g[:-1] - ghat[:-1])
-        err = np.abs(_turn(g) - lin)
-        ghat = g
-        if err.max() <= SLP_TOL:
-            break
+        err = float(np.max(np.abs(_turn(g) - lin)))
+        if err <= best_err:
+            best, best_err = sol, err
+        if err <= SLP_TOL or (err <= SLP_ROUGH and sol.excess.max() > TOL):
+            break  # (with excess turning left, a bend round follows: rough angles do)
+        # relinearize at the answer; halfway there when the error stalls
+        # (the answer jumping between two vertices of the linear program)
+        ghat = g if err < 0.5 * prev_err else 0.5 * (ghat + g)
+        prev_err = err
     return best
 
 
-def _attempt(P, ghat, bends, mg_dir, caps, strict=False):
+def _attempt(P, ghat, bends, mg_dir, caps, strict=False, relax=True):
     """One design solve: the rules as stated (or loosened by ``caps``); if
     they contradict each other, find the least priority-weighted violation
     and solve again with each rule loosened by that much. Fittings just
     placed (``bends``) may make only the rules below joint deflection give
     way, never crossing clearance or min cover: such bends are refused (None).
-    ``strict`` (see :func:`_build`) goes straight to the least violation.
-    Returns (solution or None, caps used)."""
+    ``strict`` (see :func:`_build`) goes straight to the least violation;
+    without ``relax`` there is no least-violation step. Returns (solution or
+    None, caps used)."""
     if not strict:
         sol = _solve(P, ghat, bends, mg_dir, "capped", caps)
-        if sol is not None:
+        if sol is not None or not relax:
             return sol, caps
-    least = _solve(P, ghat, bends, mg_dir, "least", strict=strict)
+    # the least violation needs only approximate angles; the capped solve
+    # after it iterates to full accuracy
+    least = _solve(P, ghat, bends, mg_dir, "least", strict=strict, max_iter=SLP_MAX if strict else 1)
     if least is None:
         return None, None
     new_caps = {k: v + TOL / 10 for k, v in least.slack.items()}
@@ -368,13 +398,14 @@ def design_profile(station, ground, crossings=(), rules: DesignRules | None = No
     bends: dict = {}
     prev_bends: dict = {}
     mg_dir = caps = sol = None
+    trials = [(bends, True)]
     for rnd in range(BEND_ROUNDS + 2):
-        new, new_caps = _attempt(P, ghat, bends, mg_dir, caps)
-        if new is None and bends:  # the closest fittings do not fit: try totals at least as large
-            bends = dict(prev_bends)
-            bends.update(_place(P, sol, at_least=True))
-            new, new_caps = _attempt(P, ghat, bends, mg_dir, caps)
-        if new is None:  # the bends just placed do not fit: keep the last profile
+        for trial, relax in trials:  # closest fittings, then totals at least as large
+            new, new_caps = _attempt(P, ghat, trial, mg_dir, caps, relax=relax)
+            if new is not None:
+                bends = trial
+                break
+        if new is None:  # no fittings fit: keep the last profile
             bends = prev_bends
             break
         sol, caps, ghat = new, new_caps, new.g
@@ -387,8 +418,10 @@ def design_profile(station, ground, crossings=(), rules: DesignRules | None = No
         placed = _place(P, sol)
         if not placed:
             break
-        prev_bends = dict(bends)
-        bends.update(placed)
+        prev_bends = bends
+        near, over = {**bends, **placed}, {**bends, **_place(P, sol, at_least=True)}
+        trials = [(near, False), (over, False), (near, True), (over, True)] if over != near \
+            else [(near, False), (near, True)]
     if sol is not None and n > 2 and sol.excess.max() > TOL:
         # turning beyond the joints that no standard bend could take: keep the
         # joints at their priority, letting lower rules (max cover, grades) give way
