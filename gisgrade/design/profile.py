@@ -45,6 +45,12 @@ BEND_WEIGHT = 1e-1
 #: Weight of excavation (per m of depth at a mean station) in that solve.
 EXCAVATION_WEIGHT = 1e-3
 
+#: m^3 of excavation judged equal to breaking the minimum grade by 1 m/m over
+#: 1 m of pipe: the minimum grade is elastic in every solve, so it gives way
+#: where it cannot be kept without relaxing anything else, or only at an
+#: enormous excavation (0.001 short over 10 m weighs as 100 m^3).
+MIN_GRADE_COST = 1e4
+
 #: The words :attr:`PipeProfile.reason` uses.
 REASONS = ("min cover", "crossing <name>", "max cover", "bend", "deflection", "max grade",
            "min grade", "transition")
@@ -202,10 +208,12 @@ def _build(P: _Problem, ghat, bends, mg_dir, mode, caps, strict=False):
         nonlocal nrow, nv
         k = len(b)
         rows, cols, vals = np.asarray(rows), np.asarray(cols), np.asarray(vals, float)
-        if least and name is not None:
+        soft = name == "min grade" and not least  # always elastic, at MIN_GRADE_COST
+        if (least or soft) and name is not None:
             layout[name] = (nv, nv + k)
             rows, cols, vals = np.r_[rows, np.arange(k)], np.r_[cols, nv + np.arange(k)], np.r_[vals, -np.ones(k)]
-            cost.append(WEIGHT[name.rstrip(" +-")] * np.broadcast_to(weight, (k,)))
+            w = MIN_GRADE_COST * h if soft else WEIGHT[name.rstrip(" +-")] * np.broadcast_to(weight, (k,))
+            cost.append(w)
             lo.append(np.zeros(k))
             hi.append(np.full(k, np.inf))
             nv += k
@@ -430,10 +438,10 @@ def design_profile(station, ground, crossings=(), rules: DesignRules | None = No
     if sol is None:  # no solver answer at all: the cover line, with every shortfall reported
         z = np.where(np.isfinite(P.upper), P.upper, P.ground)
         sol = _Solution(z, _grades(z, P.h), np.zeros(max(n - 2, 0)), {})
-    return _finish(P, sol, bends, mg_dir, crossings, group, first, np.asarray(station, float))
+    return _finish(P, sol, bends, crossings, group, first, np.asarray(station, float))
 
 
-def _finish(P, sol, bends, mg_dir, crossings, group, first, station) -> PipeProfile:
+def _finish(P, sol, bends, crossings, group, first, station) -> PipeProfile:
     r, n, s = P.rules, P.n, P.s
     z, g = sol.z, sol.g
     turn = np.r_[0.0, _turn(g), 0.0] if n > 2 else np.zeros(n)
@@ -445,13 +453,17 @@ def _finish(P, sol, bends, mg_dir, crossings, group, first, station) -> PipeProf
     cshort = P.csign * (ztc - P.crhs)  # > 0: clearance short by this much
 
     relax = []
+    above = {k: PRIORITY[:i] for i, k in enumerate(PRIORITY)}
+    above["bend angle"] = PRIORITY[:2]
 
-    def report(rule, short, where, unit, why):
+    def report(rule, short, where, unit):
         for a, b in runs(short > TOL):
             amt = float(short[a:b + 1].max())
             s0, s1 = where(a, b)
+            why = (f"it ranks below {', '.join(above[rule])}, which could not all be kept otherwise"
+                   if above[rule] else "no profile keeps every crossing clearance")
             relax.append(Relaxation(rule, s0, s1, amt, unit,
-                                    f"{rule} relaxed by up to {amt:.4g} {unit} from station {s0:.2f} m "
+                                    f"{rule} gave way by up to {amt:.4g} {unit} from station {s0:.2f} m "
                                     f"to {s1:.2f} m: {why}"))
 
     at = lambda a, b: (float(s[a]), float(s[b]))  # noqa: E731
@@ -460,20 +472,17 @@ def _finish(P, sol, bends, mg_dir, crossings, group, first, station) -> PipeProf
         if cshort[k] > TOL:
             st = float(crossings[k].station)
             relax.append(Relaxation("crossing clearance", st, st, float(cshort[k]), "m",
-                                    f"crossing clearance at {name} short by {cshort[k]:.4g} m at station "
-                                    f"{st:.2f} m: no profile keeps it together with the other rules"))
-    report("min cover", z - P.upper, at, "m", "a crossing clearance needs the pipe higher here")
-    report("max cover", P.lower - z, at, "m", "a crossing or minimum cover needs the pipe deeper here")
+                                    f"crossing clearance at {name} gave way by {cshort[k]:.4g} m at station "
+                                    f"{st:.2f} m: no profile keeps every crossing clearance"))
+    report("min cover", z - P.upper, at, "m")
+    report("max cover", P.lower - z, at, "m")
     over = np.where(is_bend, 0.0, np.abs(turn) - np.nan_to_num(allow, nan=np.inf))
-    report("joint deflection", over, at, "rad", "turning beyond the joints where no standard bend fitted")
-    report("bend angle", np.where(is_bend, np.abs(turn - target), 0.0), at, "rad",
-           "the bend's fitting angle could not be held exactly")
+    report("joint deflection", over, at, "rad")
+    report("bend angle", np.where(is_bend, np.abs(turn - target), 0.0), at, "rad")
     if r.max_transition_grade is not None and n > 1:
-        report("max grade", np.abs(g) - r.max_transition_grade, seg, "m/m",
-               "cover or crossings need a steeper grade here")
+        report("max grade", np.abs(g) - r.max_transition_grade, seg, "m/m")
     if r.min_grade is not None and n > 1:
-        report("min grade", r.min_grade - np.abs(g), seg, "m/m",
-               "cover, crossings or joints do not leave room for the minimum grade here")
+        report("min grade", r.min_grade - np.abs(g), seg, "m/m")
     order = {k: i for i, k in enumerate(PRIORITY)}
     relax.sort(key=lambda x: (order.get(x.rule, 2), x.station_from))
 
@@ -491,7 +500,7 @@ def _finish(P, sol, bends, mg_dir, crossings, group, first, station) -> PipeProf
     reason[np.abs(z - P.lower) <= act] = "max cover"
     reason[np.abs(z - P.upper) <= act] = "min cover"
     for k, name in enumerate(P.cname):
-        if abs(cshort[k]) <= act or cshort[k] > 0:
+        if cshort[k] >= -act:
             j = P.cj[k] + (1 if P.ct[k] > 0.5 else 0)
             reason[j] = f"crossing {name}"
 
@@ -500,20 +509,48 @@ def _finish(P, sol, bends, mg_dir, crossings, group, first, station) -> PipeProf
     excavation = float(np.sum(wt * depth))
     trench = float(np.sum(wt * np.maximum(P.ground - z + r.outside_diameter, 0.0)))
     length = float(np.sum(np.hypot(P.h, np.diff(z)))) if n > 1 else 0.0
+    upper = P.upper.copy()
     lower = np.where(np.isfinite(P.lower), P.lower, np.nan)
     for k in range(len(P.cj)):  # crossings tighten the limits at their station
         j = P.cj[k] + (1 if P.ct[k] > 0.5 else 0)
         if P.csign[k] > 0:
-            P.upper[j] = min(P.upper[j], P.crhs[k])
+            upper[j] = min(upper[j], P.crhs[k])
         else:
             lower[j] = np.fmax(lower[j], P.crhs[k])
     return PipeProfile(
         station=station, top=z[group], reason=reason[group],
         bends=bends_frame(s, bends, first), relaxations=relax,
         excavation_volume=excavation, length_3d=length,
-        upper_limit=P.upper[group], lower_limit=lower[group],
+        upper_limit=upper[group], lower_limit=lower[group],
         deflection=turn[group], deflection_limit=allow[group], trench_volume=trench,
     )
 
 
-__all__ = ["Crossing", "DesignRules", "PipeProfile", "Relaxation", "design_profile", "REASONS"]
+def crossing_clearances(profile: PipeProfile, crossings, outside_diameter: float = 0.0):
+    """Required and achieved clearance at each crossing (m), for reports and layers.
+
+    The pipe's top is interpolated linearly at the crossing station; for an
+    over-crossing the clearance is measured from the pipe's bottom (top -
+    outside diameter) down to the feature's top. Columns: name,
+    station, side, limit, clearance_required, clearance_achieved, kept.
+
+    >>> p = design_profile([0, 10, 20], [100.0] * 3, [Crossing(10, 98.0, 0.3, name="duct")],
+    ...                    DesignRules(min_cover=1.2))
+    >>> crossing_clearances(p, [Crossing(10, 98.0, 0.3, name="duct")]).round(3).to_dict("records")
+    [{'name': 'duct', 'station': 10.0, 'side': 'under', 'limit': 98.0, 'clearance_required': 0.3, 'clearance_achieved': 0.3, 'kept': True}]
+    """
+    import pandas as pd
+
+    rows = []
+    for c in crossings:
+        top = float(np.interp(c.station, profile.station, profile.top))
+        got = c.limit - top if c.side == "under" else (top - outside_diameter) - c.limit
+        rows.append({"name": c.name, "station": float(c.station), "side": c.side, "limit": float(c.limit),
+                     "clearance_required": float(c.clearance), "clearance_achieved": got,
+                     "kept": bool(got >= c.clearance - TOL)})
+    return pd.DataFrame(rows, columns=["name", "station", "side", "limit", "clearance_required",
+                                       "clearance_achieved", "kept"])
+
+
+__all__ = ["Crossing", "DesignRules", "PipeProfile", "Relaxation", "design_profile", "crossing_clearances",
+           "REASONS"]
