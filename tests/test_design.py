@@ -283,3 +283,15 @@ def test_bad_rules_name_the_culprit(kw, crossing, word):
     s, ground = flat_line()
     with pytest.raises(InputError, match=word):
         design_profile(s, ground, [crossing] if crossing else [], DesignRules(**kw))
+
+
+def test_max_cover_unlimited_where_not_finite():
+    # exact analytic: a crossing 3.2 m down where max cover is unset (nan)
+    # needs no relaxation; the same depth where max cover is 2.5 m does
+    s, ground = flat_line()
+    maxc = np.where(s < 300, np.nan, 2.5)
+    cx = [Crossing(150.0, 96.8, 0.0, name="a"), Crossing(450.0, 96.8, 0.0, name="b")]
+    p = design_profile(s, ground, cx, DesignRules(min_cover=1.2, max_cover=maxc))
+    (mc,) = rules_of(p.relaxations, "max cover")
+    assert mc.station_from == mc.station_to == 450.0
+    assert mc.amount == pytest.approx(0.7, abs=1e-6)

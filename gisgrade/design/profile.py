@@ -122,7 +122,8 @@ def _prepare(station, ground, crossings, rules) -> tuple[_Problem, np.ndarray, n
     np.minimum.at(upper, group, ground - per(rules.min_cover))
     lower = np.full(n, -np.inf)
     if rules.max_cover is not None:
-        np.maximum.at(lower, group, ground - per(rules.max_cover))
+        mc = per(rules.max_cover)
+        np.maximum.at(lower, group, np.where(np.isfinite(mc), ground - mc, -np.inf))
     g_u = ground[first]
     width = np.zeros(n)
     np.maximum.at(width, group, per(rules.trench_width))
