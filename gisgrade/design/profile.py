@@ -85,6 +85,8 @@ class _Solution:
     g: np.ndarray
     excess: np.ndarray
     slack: dict
+    err: float = 0.0  # linearization error left, rad
+    done: bool = True  # the linearization converged (or is rough only where bends are pending)
 
 
 def _grades(z, h):
@@ -299,8 +301,9 @@ def _bend_arrays(bends, n):
 def _solve(P, ghat, bends, mg_dir, mode, caps=None, max_iter=SLP_MAX, strict=False):
     """Sequential linearization: solve, relinearize at the answer, repeat until
     the linearization is exact within :data:`SLP_TOL` at the answer (so the
-    true joint and bend angles keep the rules). Returns the last feasible solution, or None if the first
-    solve is infeasible."""
+    true joint and bend angles keep the rules). Returns the converged
+    solution, else the one with the least linearization error (``done`` is
+    then False), or None if the first solve is infeasible."""
     best, best_err = None, np.inf
     prev_err = np.inf
     for _ in range(max_iter):
@@ -314,14 +317,17 @@ def _solve(P, ghat, bends, mg_dir, mode, caps=None, max_iter=SLP_MAX, strict=Fal
         sol = _Solution(z, g, x[slice(*lay["excess"])],
                         {k: x[slice(*v)] for k, v in lay.items() if k not in ("z", "excess")})
         if P.n < 3:
-            return sol
+            return sol  # no angles: linear, exact
         a = 1.0 / (1.0 + ghat ** 2)  # error of the linearization this solve used
         lin = _turn(ghat) + a[1:] * (g[1:] - ghat[1:]) - a[:-1] * (g[:-1] - ghat[:-1])
         err = float(np.max(np.abs(_turn(g) - lin)))
+        sol.err = err
+        sol.done = err <= SLP_TOL or (err <= SLP_ROUGH and sol.excess.max() > TOL)
         if err <= best_err:
             best, best_err = sol, err
-        if err <= SLP_TOL or (err <= SLP_ROUGH and sol.excess.max() > TOL):
-            break  # (with excess turning left, a bend round follows: rough angles do)
+        if sol.done:
+            best = sol  # (with excess turning left, a bend round follows: rough angles do)
+            break
         # relinearize at the answer; halfway there when the error stalls
         # (the answer jumping between two vertices of the linear program)
         ghat = g if err < 0.5 * prev_err else 0.5 * (ghat + g)
@@ -338,24 +344,35 @@ def _attempt(P, ghat, bends, mg_dir, caps, strict=False, relax=True):
     ``strict`` (see :func:`_build`) goes straight to the least violation;
     without ``relax`` there is no least-violation step. Returns (solution or
     None, caps used)."""
+    best = None
     if not strict:
-        sol = _solve(P, ghat, bends, mg_dir, "capped", caps)
-        if sol is not None or not relax:
-            return sol, caps
-    # the least violation needs only approximate angles; the capped solve
-    # after it iterates to full accuracy
-    least = _solve(P, ghat, bends, mg_dir, "least", strict=strict, max_iter=SLP_MAX if strict else 1)
-    if least is None:
-        return None, None
-    new_caps = {k: v + TOL / 10 for k, v in least.slack.items()}
-    if bends and not strict:
-        for k in ("crossing clearance", "min cover"):
-            if k in new_caps and np.any(new_caps[k] > (caps or {}).get(k, 0.0) + TOL):
-                return None, None
-    if strict:
-        new_caps["excess"] = least.excess + TOL / 10
-    sol = _solve(P, least.g, bends, mg_dir, "capped", new_caps)
-    return (sol or least), new_caps
+        best = _solve(P, ghat, bends, mg_dir, "capped", caps)
+        if not relax or (best is not None and best.done):
+            return best, caps
+        ghat = best.g if best is not None else ghat
+    best_caps = caps
+    # when the answer is not exact yet (a later linearization left no room
+    # within the caps), the least violation is found again about it, once
+    for _ in range(2):
+        # the least violation needs only approximate angles; the capped solve
+        # after it iterates to full accuracy
+        least = _solve(P, ghat, bends, mg_dir, "least", strict=strict, max_iter=SLP_MAX if strict else 1)
+        if least is None:
+            break
+        new_caps = {k: v + TOL / 10 for k, v in least.slack.items()}
+        if bends and not strict:
+            for k in ("crossing clearance", "min cover"):
+                if k in new_caps and np.any(new_caps[k] > (caps or {}).get(k, 0.0) + TOL):
+                    return None, None
+        if strict:
+            new_caps["excess"] = least.excess + TOL / 10
+        sol = _solve(P, least.g, bends, mg_dir, "capped", new_caps) or least
+        if best is None or sol.done or sol.err < best.err:
+            best, best_caps = sol, new_caps
+        if best.done:
+            break
+        ghat = sol.g
+    return best, best_caps
 
 
 def _place(P, sol, at_least=False):
