@@ -295,3 +295,26 @@ def test_max_cover_unlimited_where_not_finite():
     (mc,) = rules_of(p.relaxations, "max cover")
     assert mc.station_from == mc.station_to == 450.0
     assert mc.amount == pytest.approx(0.7, abs=1e-6)
+
+
+def test_dip_too_sharp_for_the_joints_without_fittings_relaxes_max_cover():
+    # priority: joint deflection above max cover. The crossing needs the
+    # joints-only dip of the analytic test above, but max cover allows only
+    # half its depth and no fittings are available: the joints must keep
+    # their limit everywhere and max cover gives way, by exactly the excess
+    # depth at the crossing (exact analytic) and wherever else it must
+    s, ground = flat_line()
+    rise, _ = dip_profile(3, DELTA, JOINT)
+    depth = -rise[0]
+    rules = DesignRules(min_cover=1.2, max_cover=1.2 + depth / 2, bend_angles=())
+    p = design_profile(s, ground, [Crossing(300.0, 98.8 - depth, 0.0, name="main")], rules)
+    j = int(np.flatnonzero(s == 300.0)[0])
+    assert p.top[j] == pytest.approx(98.8 - depth, abs=1e-7)  # clearance kept
+    turn = np.diff(np.arctan(np.diff(p.top) / np.diff(s)))
+    assert np.abs(turn).max() <= DELTA + 1e-6  # every joint within 3 deg (the reporting tolerance)
+    assert np.all(p.top <= 98.8 + 1e-7)  # min cover kept
+    assert {r.rule for r in p.relaxations} == {"max cover"} and len(p.bends) == 0
+    (mc,) = p.relaxations
+    assert mc.amount == pytest.approx(depth / 2, abs=1e-6)
+    too_deep = s[(100.0 - p.top) > 1.2 + depth / 2 + 1e-6]
+    assert mc.station_from <= too_deep[0] and too_deep[-1] <= mc.station_to

@@ -42,6 +42,10 @@ BEND_ROUNDS = 4
 WEIGHT = {"crossing clearance": 1e7, "min cover": 1e5, "joint deflection": 1e4, "max cover": 1e3,
           "max grade": 1e2, "min grade": 1e1}
 BEND_WEIGHT = 1e-1
+#: The rules settled first (stage 1) when rules contradict each other; the
+#: rest are then settled with these held (stage 2), so a rule below joint
+#: deflection never buys relief for one above it.
+UPPER_RULES = PRIORITY[:3]
 #: Weight of excavation (per m of depth at a mean station) in that solve.
 EXCAVATION_WEIGHT = 1e-3
 
@@ -179,14 +183,17 @@ def _settle_pointwise(P: _Problem):
     return upper, np.minimum(lower, upper)
 
 
-def _build(P: _Problem, ghat, bends, mg_dir, mode, caps, strict=False):
+def _build(P: _Problem, ghat, bends, mg_dir, mode, caps, strict=False, stage=2):
     """Assemble one linear program about the grades ``ghat``.
 
     mode "capped" without caps: every rule as stated. "least": each rule gets a slack
     variable, and the objective is the priority-weighted sum of slacks (plus
     a small share of excavation, which keeps the solve well conditioned).
     "capped": every rule loosened by the amount in ``caps`` (the least
-    violation found before), no slack variables. ``strict``: turning beyond
+    violation found before), no slack variables. In "least" mode ``stage``
+    1 weighs the rules below joint deflection a thousandth as much, and
+    stage 2 bounds the slacks named in ``caps`` (the rules above, settled
+    in stage 1). ``strict``: turning beyond
     the joints where no bend is placed is a violation of joint deflection
     (weighted by its priority) rather than a cheap call for a bend. Returns (c, A_ub, b_ub,
     A_eq, b_eq, bounds, layout).
@@ -215,10 +222,13 @@ def _build(P: _Problem, ghat, bends, mg_dir, mode, caps, strict=False):
         if (least or soft) and name is not None:
             layout[name] = (nv, nv + k)
             rows, cols, vals = np.r_[rows, np.arange(k)], np.r_[cols, nv + np.arange(k)], np.r_[vals, -np.ones(k)]
-            w = MIN_GRADE_COST * h if soft else WEIGHT[name.rstrip(" +-")] * np.broadcast_to(weight, (k,))
+            base = name.rstrip(" +-")
+            w = MIN_GRADE_COST * h if soft else WEIGHT[base] * np.broadcast_to(weight, (k,))
+            if least and stage == 1 and base not in UPPER_RULES:
+                w = w * 1e-3
             cost.append(w)
             lo.append(np.zeros(k))
-            hi.append(np.full(k, np.inf))
+            hi.append(caps.get(name, np.full(k, np.inf)) if least else np.full(k, np.inf))
             nv += k
         elif name is not None:
             b = b + cap(name, k)
@@ -298,7 +308,7 @@ def _bend_arrays(bends, n):
     return is_bend, target
 
 
-def _solve(P, ghat, bends, mg_dir, mode, caps=None, max_iter=SLP_MAX, strict=False):
+def _solve(P, ghat, bends, mg_dir, mode, caps=None, max_iter=SLP_MAX, strict=False, stage=2):
     """Sequential linearization: solve, relinearize at the answer, repeat until
     the linearization is exact within :data:`SLP_TOL` at the answer (so the
     true joint and bend angles keep the rules). Returns the converged
@@ -307,7 +317,7 @@ def _solve(P, ghat, bends, mg_dir, mode, caps=None, max_iter=SLP_MAX, strict=Fal
     best, best_err = None, np.inf
     prev_err = np.inf
     for _ in range(max_iter):
-        c, A, b, Aeq, beq, bounds, lay = _build(P, ghat, bends, mg_dir, mode, caps, strict)
+        c, A, b, Aeq, beq, bounds, lay = _build(P, ghat, bends, mg_dir, mode, caps, strict, stage)
         res = linprog(c, A_ub=A, b_ub=b, A_eq=Aeq, b_eq=beq, bounds=bounds, method="highs")
         if res.status != 0 or res.x is None:
             return best
@@ -335,6 +345,18 @@ def _solve(P, ghat, bends, mg_dir, mode, caps=None, max_iter=SLP_MAX, strict=Fal
     return best
 
 
+def _least(P, ghat, bends, mg_dir, strict, max_iter):
+    """Least priority-weighted violation in two stages: crossing clearance,
+    min cover and joint deflection first; then, with those held, the rest."""
+    first = _solve(P, ghat, bends, mg_dir, "least", None, max_iter, strict, stage=1)
+    if first is None or all(k.rstrip(" +-") in UPPER_RULES for k in first.slack):
+        return first
+    held = {k: v + TOL / 10 for k, v in first.slack.items() if k.rstrip(" +-") in UPPER_RULES}
+    if strict:
+        held["excess"] = first.excess + TOL / 10
+    return _solve(P, first.g, bends, mg_dir, "least", held, max_iter, strict, stage=2) or first
+
+
 def _attempt(P, ghat, bends, mg_dir, caps, strict=False, relax=True):
     """One design solve: the rules as stated (or loosened by ``caps``); if
     they contradict each other, find the least priority-weighted violation
@@ -356,7 +378,7 @@ def _attempt(P, ghat, bends, mg_dir, caps, strict=False, relax=True):
     for _ in range(2):
         # the least violation needs only approximate angles; the capped solve
         # after it iterates to full accuracy
-        least = _solve(P, ghat, bends, mg_dir, "least", strict=strict, max_iter=SLP_MAX if strict else 1)
+        least = _least(P, ghat, bends, mg_dir, strict, SLP_MAX if strict else 1)
         if least is None:
             break
         new_caps = {k: v + TOL / 10 for k, v in least.slack.items()}
@@ -377,6 +399,8 @@ def _attempt(P, ghat, bends, mg_dir, caps, strict=False, relax=True):
 
 def _place(P, sol, at_least=False):
     """New bends {station index: (signed angle, fittings)} from a solution's excess turning."""
+    if not len(P.rules.bend_angles):
+        return {}
     got = place_bends(sol.excess, _turn(sol.g), P.allow, P.rules.bend_angles, at_least=at_least)
     return {v + 1: val for v, val in got.items()}
 

@@ -64,7 +64,7 @@ class DesignRules:
     rad allowed at each joint (3 degrees; 2-5 degrees is typical for push-on
     and mechanical joints, falling with size, *from memory*: the maker's
     table governs). bend_angles: rad, the standard vertical bend fittings
-    available. min_grade: m/m kept on every segment (e.g. 0.001), or None.
+    available (empty: no fittings, joints only). min_grade: m/m kept on every segment (e.g. 0.001), or None.
     trench_width: m, scalar or per station, weights excavation.
     max_transition_grade: m/m cap on the absolute grade, or None.
     bend_cost: m^3 of excavation judged equal to one radian of bend angle
