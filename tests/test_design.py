@@ -318,3 +318,17 @@ def test_dip_too_sharp_for_the_joints_without_fittings_relaxes_max_cover():
     assert mc.amount == pytest.approx(depth / 2, abs=1e-6)
     too_deep = s[(100.0 - p.top) > 1.2 + depth / 2 + 1e-6]
     assert mc.station_from <= too_deep[0] and too_deep[-1] <= mc.station_to
+
+
+@pytest.mark.parametrize("station", [[5.0], [0.0, 8.0], [0.0, 0.0, 0.0], [0.0, 0.0, 8.0, 8.0]])
+def test_degenerate_lines(station):
+    # exact analytic: a line of one or two distinct stations (repeated
+    # stations are one point) has no joint to turn, so it lies at minimum
+    # cover except where the crossing holds it down
+    s = np.array(station)
+    p = design_profile(s, np.full(len(s), 50.0), [Crossing(s[-1], 49.0, 0.5, name="x")],
+                       DesignRules(min_cover=1.0, max_cover=2.0))
+    assert p.top.shape == s.shape
+    np.testing.assert_allclose(p.top[s < s[-1]], 49.0, atol=1e-9)
+    np.testing.assert_allclose(p.top[s == s[-1]], 48.5, atol=1e-9)  # the crossing's clearance
+    assert p.relaxations == []

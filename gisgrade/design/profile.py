@@ -186,16 +186,16 @@ def _settle_pointwise(P: _Problem):
 def _build(P: _Problem, ghat, bends, mg_dir, mode, caps, strict=False, stage=2):
     """Assemble one linear program about the grades ``ghat``.
 
-    mode "capped" without caps: every rule as stated. "least": each rule gets a slack
-    variable, and the objective is the priority-weighted sum of slacks (plus
-    a small share of excavation, which keeps the solve well conditioned).
-    "capped": every rule loosened by the amount in ``caps`` (the least
-    violation found before), no slack variables. In "least" mode ``stage``
-    1 weighs the rules below joint deflection a thousandth as much, and
-    stage 2 bounds the slacks named in ``caps`` (the rules above, settled
-    in stage 1). ``strict``: turning beyond
-    the joints where no bend is placed is a violation of joint deflection
-    (weighted by its priority) rather than a cheap call for a bend. Returns (c, A_ub, b_ub,
+    mode "capped": every rule as stated, or loosened by the amounts in
+    ``caps`` (the least violation found before); no slack variables except
+    the always-elastic minimum grade. mode "least": each rule row gets a
+    slack variable and the objective is the priority-weighted sum of slacks
+    (plus a small share of excavation, which keeps the solve well
+    conditioned); ``stage`` 1 weighs the rules below joint deflection a
+    thousandth as much, stage 2 bounds the slacks named in ``caps`` (the
+    upper rules, settled in stage 1). ``strict``: turning beyond the joints
+    where no bend is placed is a joint-deflection violation, weighted by its
+    priority, rather than a cheap call for a bend. Returns (c, A_ub, b_ub,
     A_eq, b_eq, bounds, layout).
     """
     n, h, r = P.n, P.h, P.rules
