@@ -149,6 +149,17 @@ def test_min_grade_on_flat_ground_rises_at_exactly_min_grade():
     assert p.relaxations == []
 
 
+def test_min_grade_follows_gently_falling_ground():
+    # exact analytic: ground falls at 0.05 %, flatter than the 0.1 % minimum;
+    # the run follows the ground's fall (documented rule), so the pipe falls
+    # at exactly 0.1 % from minimum cover at the high end
+    s = np.linspace(0.0, 300.0, 31)
+    ground = 100.0 - 0.0005 * s
+    p = design_profile(s, ground, [], DesignRules(min_cover=1.0, min_grade=0.001))
+    np.testing.assert_allclose(p.top, 99.0 - 0.001 * s, atol=1e-9)
+    assert p.relaxations == []
+
+
 def test_max_grade_on_steep_plane():
     # exact analytic: ground climbs at 30 %, the pipe may climb at 20 %; it
     # keeps minimum cover only at the low end and falls behind the ground

@@ -411,10 +411,10 @@ def _grade_directions(g, ground, h, min_grade):
     rise over the run (rising if level)."""
     d = np.where(g >= 0, 1.0, -1.0)
     flat = np.abs(g) < min_grade
-    rise = np.diff(ground)
-    for a, b in runs(flat):
-        net = rise[a:b + 1].sum()
-        d[a:b + 1] = -1.0 if net < 0 else 1.0
+    run = np.cumsum(flat & ~np.r_[False, flat[:-1]])  # run number of each flat segment
+    net = np.zeros(run.max() + 1 if len(run) else 1)
+    np.add.at(net, run[flat], np.diff(ground)[flat])
+    d[flat] = np.where(net[run[flat]] < 0, -1.0, 1.0)
     return d
 
 
