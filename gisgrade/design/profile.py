@@ -7,11 +7,13 @@ Constraints: cover, crossings, joint deflection, optional grades. The pipe's
 change of angle at a station, atan(g_i) - atan(g_{i-1}), is not linear in z;
 it is linearized about the current grades and the program solved again until
 the linearization error is below :data:`SLP_TOL` (sequential linear
-programming, usually two solves). Turning beyond what the joints allow is paid
-for by an *excess* variable; runs of excess become standard bends, whose
-angles are then held exactly in a new solve. Contradictory rules are relaxed
-in the order of :data:`~gisgrade.design.rules.PRIORITY`. Method, equations and
-limits: docs/design.md.
+programming, usually two or three solves). Turning beyond what the joints
+allow is paid for by an *excess* variable; runs of excess become standard
+bends, whose angles are then held exactly in a new solve. Contradictory rules
+give way in the order of :data:`~gisgrade.design.rules.PRIORITY`: settled at
+single stations first, else by a least-violation program in two stages, and
+every shortfall is re-measured on the final profile and reported. Method,
+equations and limits: docs/design.md.
 """
 from __future__ import annotations
 
