@@ -149,6 +149,17 @@ def test_min_grade_on_flat_ground_rises_at_exactly_min_grade():
     assert p.relaxations == []
 
 
+def test_min_grade_follows_gently_falling_ground():
+    # exact analytic: ground falls at 0.05 %, flatter than the 0.1 % minimum;
+    # the run follows the ground's fall (documented rule), so the pipe falls
+    # at exactly 0.1 % from minimum cover at the high end
+    s = np.linspace(0.0, 300.0, 31)
+    ground = 100.0 - 0.0005 * s
+    p = design_profile(s, ground, [], DesignRules(min_cover=1.0, min_grade=0.001))
+    np.testing.assert_allclose(p.top, 99.0 - 0.001 * s, atol=1e-9)
+    assert p.relaxations == []
+
+
 def test_max_grade_on_steep_plane():
     # exact analytic: ground climbs at 30 %, the pipe may climb at 20 %; it
     # keeps minimum cover only at the low end and falls behind the ground
@@ -283,3 +294,52 @@ def test_bad_rules_name_the_culprit(kw, crossing, word):
     s, ground = flat_line()
     with pytest.raises(InputError, match=word):
         design_profile(s, ground, [crossing] if crossing else [], DesignRules(**kw))
+
+
+def test_max_cover_unlimited_where_not_finite():
+    # exact analytic: a crossing 3.2 m down where max cover is unset (nan)
+    # needs no relaxation; the same depth where max cover is 2.5 m does
+    s, ground = flat_line()
+    maxc = np.where(s < 300, np.nan, 2.5)
+    cx = [Crossing(150.0, 96.8, 0.0, name="a"), Crossing(450.0, 96.8, 0.0, name="b")]
+    p = design_profile(s, ground, cx, DesignRules(min_cover=1.2, max_cover=maxc))
+    (mc,) = rules_of(p.relaxations, "max cover")
+    assert mc.station_from == mc.station_to == 450.0
+    assert mc.amount == pytest.approx(0.7, abs=1e-6)
+
+
+def test_dip_too_sharp_for_the_joints_without_fittings_relaxes_max_cover():
+    # priority: joint deflection above max cover. The crossing needs the
+    # joints-only dip of the analytic test above, but max cover allows only
+    # half its depth and no fittings are available: the joints must keep
+    # their limit everywhere and max cover gives way, by exactly the excess
+    # depth at the crossing (exact analytic) and wherever else it must
+    s, ground = flat_line()
+    rise, _ = dip_profile(3, DELTA, JOINT)
+    depth = -rise[0]
+    rules = DesignRules(min_cover=1.2, max_cover=1.2 + depth / 2, bend_angles=())
+    p = design_profile(s, ground, [Crossing(300.0, 98.8 - depth, 0.0, name="main")], rules)
+    j = int(np.flatnonzero(s == 300.0)[0])
+    assert p.top[j] == pytest.approx(98.8 - depth, abs=1e-7)  # clearance kept
+    turn = np.diff(np.arctan(np.diff(p.top) / np.diff(s)))
+    assert np.abs(turn).max() <= DELTA + 1e-6  # every joint within 3 deg (the reporting tolerance)
+    assert np.all(p.top <= 98.8 + 1e-7)  # min cover kept
+    assert {r.rule for r in p.relaxations} == {"max cover"} and len(p.bends) == 0
+    (mc,) = p.relaxations
+    assert mc.amount == pytest.approx(depth / 2, abs=1e-6)
+    too_deep = s[(100.0 - p.top) > 1.2 + depth / 2 + 1e-6]
+    assert mc.station_from <= too_deep[0] and too_deep[-1] <= mc.station_to
+
+
+@pytest.mark.parametrize("station", [[5.0], [0.0, 8.0], [0.0, 0.0, 0.0], [0.0, 0.0, 8.0, 8.0]])
+def test_degenerate_lines(station):
+    # exact analytic: a line of one or two distinct stations (repeated
+    # stations are one point) has no joint to turn, so it lies at minimum
+    # cover except where the crossing holds it down
+    s = np.array(station)
+    p = design_profile(s, np.full(len(s), 50.0), [Crossing(s[-1], 49.0, 0.5, name="x")],
+                       DesignRules(min_cover=1.0, max_cover=2.0))
+    assert p.top.shape == s.shape
+    np.testing.assert_allclose(p.top[s < s[-1]], 49.0, atol=1e-9)
+    np.testing.assert_allclose(p.top[s == s[-1]], 48.5, atol=1e-9)  # the crossing's clearance
+    assert p.relaxations == []

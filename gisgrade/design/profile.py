@@ -7,11 +7,13 @@ Constraints: cover, crossings, joint deflection, optional grades. The pipe's
 change of angle at a station, atan(g_i) - atan(g_{i-1}), is not linear in z;
 it is linearized about the current grades and the program solved again until
 the linearization error is below :data:`SLP_TOL` (sequential linear
-programming, usually two solves). Turning beyond what the joints allow is paid
-for by an *excess* variable; runs of excess become standard bends, whose
-angles are then held exactly in a new solve. Contradictory rules are relaxed
-in the order of :data:`~gisgrade.design.rules.PRIORITY`. Method, equations and
-limits: docs/design.md.
+programming, usually two or three solves). Turning beyond what the joints
+allow is paid for by an *excess* variable; runs of excess become standard
+bends, whose angles are then held exactly in a new solve. Contradictory rules
+give way in the order of :data:`~gisgrade.design.rules.PRIORITY`: settled at
+single stations first, else by a least-violation program in two stages, and
+every shortfall is re-measured on the final profile and reported. Method,
+equations and limits: docs/design.md.
 """
 from __future__ import annotations
 
@@ -29,6 +31,8 @@ from .rules import PRIORITY, Crossing, DesignRules, PipeProfile, Relaxation
 TOL = 1e-6
 #: Linearization error (rad) at which the sequential solves stop.
 SLP_TOL = 1e-8
+#: Linearization error (rad) enough while turning is still short (more bends to come).
+SLP_ROUGH = 1e-3
 #: Most linear solves per sequential-linearization loop.
 SLP_MAX = 8
 #: Most bend-placing rounds.
@@ -40,8 +44,18 @@ BEND_ROUNDS = 4
 WEIGHT = {"crossing clearance": 1e7, "min cover": 1e5, "joint deflection": 1e4, "max cover": 1e3,
           "max grade": 1e2, "min grade": 1e1}
 BEND_WEIGHT = 1e-1
+#: The rules settled first (stage 1) when rules contradict each other; the
+#: rest are then settled with these held (stage 2), so a rule below joint
+#: deflection never buys relief for one above it.
+UPPER_RULES = PRIORITY[:3]
 #: Weight of excavation (per m of depth at a mean station) in that solve.
 EXCAVATION_WEIGHT = 1e-3
+
+#: m^3 of excavation judged equal to breaking the minimum grade by 1 m/m over
+#: 1 m of pipe: the minimum grade is elastic in every solve, so it gives way
+#: where it cannot be kept without relaxing anything else, or only at an
+#: enormous excavation (0.001 short over 10 m weighs as 100 m^3).
+MIN_GRADE_COST = 1e4
 
 #: The words :attr:`PipeProfile.reason` uses.
 REASONS = ("min cover", "crossing <name>", "max cover", "bend", "deflection", "max grade",
@@ -63,6 +77,8 @@ class _Problem:
     crhs: np.ndarray     # crossing limit on top of pipe, m
     cname: list
     rules: DesignRules
+    upper_lp: np.ndarray = None  # upper and lower with pointwise contradictions
+    lower_lp: np.ndarray = None  # settled by priority (see _settle_pointwise)
 
     @property
     def n(self):
@@ -75,6 +91,8 @@ class _Solution:
     g: np.ndarray
     excess: np.ndarray
     slack: dict
+    err: float = 0.0  # linearization error left, rad
+    done: bool = True  # the linearization converged (or is rough only where bends are pending)
 
 
 def _grades(z, h):
@@ -112,7 +130,8 @@ def _prepare(station, ground, crossings, rules) -> tuple[_Problem, np.ndarray, n
     np.minimum.at(upper, group, ground - per(rules.min_cover))
     lower = np.full(n, -np.inf)
     if rules.max_cover is not None:
-        np.maximum.at(lower, group, ground - per(rules.max_cover))
+        mc = per(rules.max_cover)
+        np.maximum.at(lower, group, np.where(np.isfinite(mc), ground - mc, -np.inf))
     g_u = ground[first]
     width = np.zeros(n)
     np.maximum.at(width, group, per(rules.trench_width))
@@ -147,19 +166,38 @@ def _prepare(station, ground, crossings, rules) -> tuple[_Problem, np.ndarray, n
         names.append(name)
     P = _Problem(s, h, g_u, upper, lower, width * trib, allow, np.array(cj, int),
                  np.array(ct, float), np.array(cs, float), np.array(cr, float), names, rules)
+    P.upper_lp, P.lower_lp = _settle_pointwise(P)
     return P, group, first
 
 
-def _build(P: _Problem, ghat, bends, mg_dir, mode, caps, strict=False):
+def _settle_pointwise(P: _Problem):
+    """Limits for the solver with the contradictions at single stations settled
+    by priority before any solve: a crossing at a station beats max cover
+    (under) or min cover (over); min cover beats max cover. The rules
+    themselves are unchanged, so the shortfall is still reported. Two
+    crossings that contradict each other are left to the least-violation
+    solve."""
+    upper, lower = P.upper.copy(), P.lower.copy()
+    at = P.ct == 0
+    under, over = at & (P.csign > 0), at & (P.csign < 0)
+    np.minimum.at(lower, P.cj[under], P.crhs[under])
+    np.maximum.at(upper, P.cj[over], P.crhs[over])
+    return upper, np.minimum(lower, upper)
+
+
+def _build(P: _Problem, ghat, bends, mg_dir, mode, caps, strict=False, stage=2):
     """Assemble one linear program about the grades ``ghat``.
 
-    mode "capped" without caps: every rule as stated. "least": each rule gets a slack
-    variable, and the objective is the priority-weighted sum of slacks (plus
-    a small share of excavation, which keeps the solve well conditioned).
-    "capped": every rule loosened by the amount in ``caps`` (the least
-    violation found before), no slack variables. ``strict``: turning beyond
-    the joints where no bend is placed is a violation of joint deflection
-    (weighted by its priority) rather than a cheap call for a bend. Returns (c, A_ub, b_ub,
+    mode "capped": every rule as stated, or loosened by the amounts in
+    ``caps`` (the least violation found before); no slack variables except
+    the always-elastic minimum grade. mode "least": each rule row gets a
+    slack variable and the objective is the priority-weighted sum of slacks
+    (plus a small share of excavation, which keeps the solve well
+    conditioned); ``stage`` 1 weighs the rules below joint deflection a
+    thousandth as much, stage 2 bounds the slacks named in ``caps`` (the
+    upper rules, settled in stage 1). ``strict``: turning beyond the joints
+    where no bend is placed is a joint-deflection violation, weighted by its
+    priority, rather than a cheap call for a bend. Returns (c, A_ub, b_ub,
     A_eq, b_eq, bounds, layout).
     """
     n, h, r = P.n, P.h, P.rules
@@ -182,12 +220,17 @@ def _build(P: _Problem, ghat, bends, mg_dir, mode, caps, strict=False):
         nonlocal nrow, nv
         k = len(b)
         rows, cols, vals = np.asarray(rows), np.asarray(cols), np.asarray(vals, float)
-        if least and name is not None:
+        soft = name == "min grade" and not least  # always elastic, at MIN_GRADE_COST
+        if (least or soft) and name is not None:
             layout[name] = (nv, nv + k)
             rows, cols, vals = np.r_[rows, np.arange(k)], np.r_[cols, nv + np.arange(k)], np.r_[vals, -np.ones(k)]
-            cost.append(WEIGHT[name.rstrip(" +-")] * np.broadcast_to(weight, (k,)))
+            base = name.rstrip(" +-")
+            w = MIN_GRADE_COST * h if soft else WEIGHT[base] * np.broadcast_to(weight, (k,))
+            if least and stage == 1 and base not in UPPER_RULES:
+                w = w * 1e-3
+            cost.append(w)
             lo.append(np.zeros(k))
-            hi.append(np.full(k, np.inf))
+            hi.append(caps.get(name, np.full(k, np.inf)) if least else np.full(k, np.inf))
             nv += k
         elif name is not None:
             b = b + cap(name, k)
@@ -199,14 +242,15 @@ def _build(P: _Problem, ghat, bends, mg_dir, mode, caps, strict=False):
 
     # cover: plain bounds unless each station needs its own slack
     idx = np.arange(n)
-    fin = np.flatnonzero(np.isfinite(P.lower))
+    upper, lower = P.upper_lp, P.lower_lp
+    fin = np.flatnonzero(np.isfinite(lower))
     if least:
-        add_rows(idx, idx, np.ones(n), P.upper, "min cover", wt_rel)
-        add_rows(np.arange(len(fin)), fin, -np.ones(len(fin)), -P.lower[fin], "max cover", wt_rel[fin])
+        add_rows(idx, idx, np.ones(n), upper, "min cover", wt_rel)
+        add_rows(np.arange(len(fin)), fin, -np.ones(len(fin)), -lower[fin], "max cover", wt_rel[fin])
     else:
-        lo[0] = P.lower.copy()
+        lo[0] = lower.copy()
         lo[0][fin] -= cap("max cover", len(fin))
-        hi[0] = P.upper + cap("min cover", n)
+        hi[0] = upper + cap("min cover", n)
 
     # crossings: csign * ((1-t) z_j + t z_{j+1}) <= csign * rhs
     k = len(P.cj)
@@ -266,61 +310,99 @@ def _bend_arrays(bends, n):
     return is_bend, target
 
 
-def _solve(P, ghat, bends, mg_dir, mode, caps=None, max_iter=SLP_MAX, strict=False):
+def _solve(P, ghat, bends, mg_dir, mode, caps=None, max_iter=SLP_MAX, strict=False, stage=2):
     """Sequential linearization: solve, relinearize at the answer, repeat until
     the linearization is exact within :data:`SLP_TOL` at the answer (so the
-    true joint and bend angles keep the rules). Returns the last feasible solution, or None if the first
-    solve is infeasible."""
-    best = None
+    true joint and bend angles keep the rules). Returns the converged
+    solution, else the one with the least linearization error (``done`` is
+    then False), or None if the first solve is infeasible."""
+    best, best_err = None, np.inf
+    prev_err = np.inf
     for _ in range(max_iter):
-        c, A, b, Aeq, beq, bounds, lay = _build(P, ghat, bends, mg_dir, mode, caps, strict)
+        c, A, b, Aeq, beq, bounds, lay = _build(P, ghat, bends, mg_dir, mode, caps, strict, stage)
         res = linprog(c, A_ub=A, b_ub=b, A_eq=Aeq, b_eq=beq, bounds=bounds, method="highs")
         if res.status != 0 or res.x is None:
             return best
         x = res.x
         z = x[slice(*lay["z"])]
         g = _grades(z, P.h)
-        e = x[slice(*lay["excess"])]
-        best = _Solution(z, g, e, {k: x[slice(*v)] for k, v in lay.items() if k not in ("z", "excess")})
+        sol = _Solution(z, g, x[slice(*lay["excess"])],
+                        {k: x[slice(*v)] for k, v in lay.items() if k not in ("z", "excess")})
         if P.n < 3:
-            break
-        a = 1.0 / (1.0 + ghat ** 2)  # error of the linearization the solve used
+            return sol  # no angles: linear, exact
+        a = 1.0 / (1.0 + ghat ** 2)  # error of the linearization this solve used
         lin = _turn(ghat) + a[1:] * (g[1:] - ghat[1:]) - a[:-1] * (g[:-1] - ghat[:-1])
-        err = np.abs(_turn(g) - lin)
-        ghat = g
-        if err.max() <= SLP_TOL:
+        err = float(np.max(np.abs(_turn(g) - lin)))
+        sol.err = err
+        sol.done = err <= SLP_TOL or (err <= SLP_ROUGH and sol.excess.max() > TOL)
+        if err <= best_err:
+            best, best_err = sol, err
+        if sol.done:
+            best = sol  # (with excess turning left, a bend round follows: rough angles do)
             break
+        # relinearize at the answer; halfway there when the error stalls
+        # (the answer jumping between two vertices of the linear program)
+        ghat = g if err < 0.5 * prev_err else 0.5 * (ghat + g)
+        prev_err = err
     return best
 
 
-def _attempt(P, ghat, bends, mg_dir, caps, strict=False):
+def _least(P, ghat, bends, mg_dir, strict, max_iter):
+    """Least priority-weighted violation in two stages: crossing clearance,
+    min cover and joint deflection first; then, with those held, the rest."""
+    first = _solve(P, ghat, bends, mg_dir, "least", None, max_iter, strict, stage=1)
+    if first is None or all(k.rstrip(" +-") in UPPER_RULES for k in first.slack):
+        return first
+    held = {k: v + TOL / 10 for k, v in first.slack.items() if k.rstrip(" +-") in UPPER_RULES}
+    if strict:
+        held["excess"] = first.excess + TOL / 10
+    return _solve(P, first.g, bends, mg_dir, "least", held, max_iter, strict, stage=2) or first
+
+
+def _attempt(P, ghat, bends, mg_dir, caps, strict=False, relax=True):
     """One design solve: the rules as stated (or loosened by ``caps``); if
     they contradict each other, find the least priority-weighted violation
     and solve again with each rule loosened by that much. Fittings just
     placed (``bends``) may make only the rules below joint deflection give
     way, never crossing clearance or min cover: such bends are refused (None).
-    ``strict`` (see :func:`_build`) goes straight to the least violation.
-    Returns (solution or None, caps used)."""
+    ``strict`` (see :func:`_build`) goes straight to the least violation;
+    without ``relax`` there is no least-violation step. Returns (solution or
+    None, caps used)."""
+    best = None
     if not strict:
-        sol = _solve(P, ghat, bends, mg_dir, "capped", caps)
-        if sol is not None:
-            return sol, caps
-    least = _solve(P, ghat, bends, mg_dir, "least", strict=strict)
-    if least is None:
-        return None, None
-    new_caps = {k: v + TOL / 10 for k, v in least.slack.items()}
-    if bends and not strict:
-        for k in ("crossing clearance", "min cover"):
-            if k in new_caps and np.any(new_caps[k] > (caps or {}).get(k, 0.0) + TOL):
-                return None, None
-    if strict:
-        new_caps["excess"] = least.excess + TOL / 10
-    sol = _solve(P, least.g, bends, mg_dir, "capped", new_caps)
-    return (sol or least), new_caps
+        best = _solve(P, ghat, bends, mg_dir, "capped", caps)
+        if not relax or (best is not None and best.done):
+            return best, caps
+        ghat = best.g if best is not None else ghat
+    best_caps = caps
+    # when the answer is not exact yet (a later linearization left no room
+    # within the caps), the least violation is found again about it, once
+    for _ in range(2):
+        # the least violation needs only approximate angles; the capped solve
+        # after it iterates to full accuracy
+        least = _least(P, ghat, bends, mg_dir, strict, SLP_MAX if strict else 1)
+        if least is None:
+            break
+        new_caps = {k: v + TOL / 10 for k, v in least.slack.items()}
+        if bends and not strict:
+            for k in ("crossing clearance", "min cover"):
+                if k in new_caps and np.any(new_caps[k] > (caps or {}).get(k, 0.0) + TOL):
+                    return None, None
+        if strict:
+            new_caps["excess"] = least.excess + TOL / 10
+        sol = _solve(P, least.g, bends, mg_dir, "capped", new_caps) or least
+        if best is None or sol.done or sol.err < best.err:
+            best, best_caps = sol, new_caps
+        if best.done:
+            break
+        ghat = sol.g
+    return best, best_caps
 
 
 def _place(P, sol, at_least=False):
     """New bends {station index: (signed angle, fittings)} from a solution's excess turning."""
+    if not len(P.rules.bend_angles):
+        return {}
     got = place_bends(sol.excess, _turn(sol.g), P.allow, P.rules.bend_angles, at_least=at_least)
     return {v + 1: val for v, val in got.items()}
 
@@ -331,10 +413,10 @@ def _grade_directions(g, ground, h, min_grade):
     rise over the run (rising if level)."""
     d = np.where(g >= 0, 1.0, -1.0)
     flat = np.abs(g) < min_grade
-    rise = np.diff(ground)
-    for a, b in runs(flat):
-        net = rise[a:b + 1].sum()
-        d[a:b + 1] = -1.0 if net < 0 else 1.0
+    run = np.cumsum(flat & ~np.r_[False, flat[:-1]])  # run number of each flat segment
+    net = np.zeros(run.max() + 1 if len(run) else 1)
+    np.add.at(net, run[flat], np.diff(ground)[flat])
+    d[flat] = np.where(net[run[flat]] < 0, -1.0, 1.0)
     return d
 
 
@@ -368,13 +450,14 @@ def design_profile(station, ground, crossings=(), rules: DesignRules | None = No
     bends: dict = {}
     prev_bends: dict = {}
     mg_dir = caps = sol = None
+    trials = [(bends, True)]
     for rnd in range(BEND_ROUNDS + 2):
-        new, new_caps = _attempt(P, ghat, bends, mg_dir, caps)
-        if new is None and bends:  # the closest fittings do not fit: try totals at least as large
-            bends = dict(prev_bends)
-            bends.update(_place(P, sol, at_least=True))
-            new, new_caps = _attempt(P, ghat, bends, mg_dir, caps)
-        if new is None:  # the bends just placed do not fit: keep the last profile
+        for trial, relax in trials:  # closest fittings, then totals at least as large
+            new, new_caps = _attempt(P, ghat, trial, mg_dir, caps, relax=relax)
+            if new is not None:
+                bends = trial
+                break
+        if new is None:  # no fittings fit: keep the last profile
             bends = prev_bends
             break
         sol, caps, ghat = new, new_caps, new.g
@@ -387,8 +470,10 @@ def design_profile(station, ground, crossings=(), rules: DesignRules | None = No
         placed = _place(P, sol)
         if not placed:
             break
-        prev_bends = dict(bends)
-        bends.update(placed)
+        prev_bends = bends
+        near, over = {**bends, **placed}, {**bends, **_place(P, sol, at_least=True)}
+        trials = [(near, False), (over, False), (near, True), (over, True)] if over != near \
+            else [(near, False), (near, True)]
     if sol is not None and n > 2 and sol.excess.max() > TOL:
         # turning beyond the joints that no standard bend could take: keep the
         # joints at their priority, letting lower rules (max cover, grades) give way
@@ -397,10 +482,10 @@ def design_profile(station, ground, crossings=(), rules: DesignRules | None = No
     if sol is None:  # no solver answer at all: the cover line, with every shortfall reported
         z = np.where(np.isfinite(P.upper), P.upper, P.ground)
         sol = _Solution(z, _grades(z, P.h), np.zeros(max(n - 2, 0)), {})
-    return _finish(P, sol, bends, mg_dir, crossings, group, first, np.asarray(station, float))
+    return _finish(P, sol, bends, crossings, group, first, np.asarray(station, float))
 
 
-def _finish(P, sol, bends, mg_dir, crossings, group, first, station) -> PipeProfile:
+def _finish(P, sol, bends, crossings, group, first, station) -> PipeProfile:
     r, n, s = P.rules, P.n, P.s
     z, g = sol.z, sol.g
     turn = np.r_[0.0, _turn(g), 0.0] if n > 2 else np.zeros(n)
@@ -412,13 +497,17 @@ def _finish(P, sol, bends, mg_dir, crossings, group, first, station) -> PipeProf
     cshort = P.csign * (ztc - P.crhs)  # > 0: clearance short by this much
 
     relax = []
+    above = {k: PRIORITY[:i] for i, k in enumerate(PRIORITY)}
+    above["bend angle"] = PRIORITY[:2]
 
-    def report(rule, short, where, unit, why):
+    def report(rule, short, where, unit):
         for a, b in runs(short > TOL):
             amt = float(short[a:b + 1].max())
             s0, s1 = where(a, b)
+            why = (f"it ranks below {', '.join(above[rule])}, which could not all be kept otherwise"
+                   if above[rule] else "no profile keeps every crossing clearance")
             relax.append(Relaxation(rule, s0, s1, amt, unit,
-                                    f"{rule} relaxed by up to {amt:.4g} {unit} from station {s0:.2f} m "
+                                    f"{rule} gave way by up to {amt:.4g} {unit} from station {s0:.2f} m "
                                     f"to {s1:.2f} m: {why}"))
 
     at = lambda a, b: (float(s[a]), float(s[b]))  # noqa: E731
@@ -427,20 +516,17 @@ def _finish(P, sol, bends, mg_dir, crossings, group, first, station) -> PipeProf
         if cshort[k] > TOL:
             st = float(crossings[k].station)
             relax.append(Relaxation("crossing clearance", st, st, float(cshort[k]), "m",
-                                    f"crossing clearance at {name} short by {cshort[k]:.4g} m at station "
-                                    f"{st:.2f} m: no profile keeps it together with the other rules"))
-    report("min cover", z - P.upper, at, "m", "a crossing clearance needs the pipe higher here")
-    report("max cover", P.lower - z, at, "m", "a crossing or minimum cover needs the pipe deeper here")
+                                    f"crossing clearance at {name} gave way by {cshort[k]:.4g} m at station "
+                                    f"{st:.2f} m: no profile keeps every crossing clearance"))
+    report("min cover", z - P.upper, at, "m")
+    report("max cover", P.lower - z, at, "m")
     over = np.where(is_bend, 0.0, np.abs(turn) - np.nan_to_num(allow, nan=np.inf))
-    report("joint deflection", over, at, "rad", "turning beyond the joints where no standard bend fitted")
-    report("bend angle", np.where(is_bend, np.abs(turn - target), 0.0), at, "rad",
-           "the bend's fitting angle could not be held exactly")
+    report("joint deflection", over, at, "rad")
+    report("bend angle", np.where(is_bend, np.abs(turn - target), 0.0), at, "rad")
     if r.max_transition_grade is not None and n > 1:
-        report("max grade", np.abs(g) - r.max_transition_grade, seg, "m/m",
-               "cover or crossings need a steeper grade here")
+        report("max grade", np.abs(g) - r.max_transition_grade, seg, "m/m")
     if r.min_grade is not None and n > 1:
-        report("min grade", r.min_grade - np.abs(g), seg, "m/m",
-               "cover, crossings or joints do not leave room for the minimum grade here")
+        report("min grade", r.min_grade - np.abs(g), seg, "m/m")
     order = {k: i for i, k in enumerate(PRIORITY)}
     relax.sort(key=lambda x: (order.get(x.rule, 2), x.station_from))
 
@@ -458,7 +544,7 @@ def _finish(P, sol, bends, mg_dir, crossings, group, first, station) -> PipeProf
     reason[np.abs(z - P.lower) <= act] = "max cover"
     reason[np.abs(z - P.upper) <= act] = "min cover"
     for k, name in enumerate(P.cname):
-        if abs(cshort[k]) <= act or cshort[k] > 0:
+        if cshort[k] >= -act:
             j = P.cj[k] + (1 if P.ct[k] > 0.5 else 0)
             reason[j] = f"crossing {name}"
 
@@ -467,20 +553,48 @@ def _finish(P, sol, bends, mg_dir, crossings, group, first, station) -> PipeProf
     excavation = float(np.sum(wt * depth))
     trench = float(np.sum(wt * np.maximum(P.ground - z + r.outside_diameter, 0.0)))
     length = float(np.sum(np.hypot(P.h, np.diff(z)))) if n > 1 else 0.0
+    upper = P.upper.copy()
     lower = np.where(np.isfinite(P.lower), P.lower, np.nan)
     for k in range(len(P.cj)):  # crossings tighten the limits at their station
         j = P.cj[k] + (1 if P.ct[k] > 0.5 else 0)
         if P.csign[k] > 0:
-            P.upper[j] = min(P.upper[j], P.crhs[k])
+            upper[j] = min(upper[j], P.crhs[k])
         else:
             lower[j] = np.fmax(lower[j], P.crhs[k])
     return PipeProfile(
         station=station, top=z[group], reason=reason[group],
         bends=bends_frame(s, bends, first), relaxations=relax,
         excavation_volume=excavation, length_3d=length,
-        upper_limit=P.upper[group], lower_limit=lower[group],
+        upper_limit=upper[group], lower_limit=lower[group],
         deflection=turn[group], deflection_limit=allow[group], trench_volume=trench,
     )
 
 
-__all__ = ["Crossing", "DesignRules", "PipeProfile", "Relaxation", "design_profile", "REASONS"]
+def crossing_clearances(profile: PipeProfile, crossings, outside_diameter: float = 0.0):
+    """Required and achieved clearance at each crossing (m), for reports and layers.
+
+    The pipe's top is interpolated linearly at the crossing station; for an
+    over-crossing the clearance is measured from the pipe's bottom (top -
+    outside diameter) down to the feature's top. Columns: name,
+    station, side, limit, clearance_required, clearance_achieved, kept.
+
+    >>> p = design_profile([0, 10, 20], [100.0] * 3, [Crossing(10, 98.0, 0.3, name="duct")],
+    ...                    DesignRules(min_cover=1.2))
+    >>> crossing_clearances(p, [Crossing(10, 98.0, 0.3, name="duct")]).round(3).to_dict("records")
+    [{'name': 'duct', 'station': 10.0, 'side': 'under', 'limit': 98.0, 'clearance_required': 0.3, 'clearance_achieved': 0.3, 'kept': True}]
+    """
+    import pandas as pd
+
+    rows = []
+    for c in crossings:
+        top = float(np.interp(c.station, profile.station, profile.top))
+        got = c.limit - top if c.side == "under" else (top - outside_diameter) - c.limit
+        rows.append({"name": c.name, "station": float(c.station), "side": c.side, "limit": float(c.limit),
+                     "clearance_required": float(c.clearance), "clearance_achieved": got,
+                     "kept": bool(got >= c.clearance - TOL)})
+    return pd.DataFrame(rows, columns=["name", "station", "side", "limit", "clearance_required",
+                                       "clearance_achieved", "kept"])
+
+
+__all__ = ["Crossing", "DesignRules", "PipeProfile", "Relaxation", "design_profile", "crossing_clearances",
+           "REASONS"]

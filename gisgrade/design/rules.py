@@ -59,12 +59,12 @@ class DesignRules:
 
     min_cover, max_cover: m from ground to top of pipe, a scalar or one value
     per station (zones give per-station values); ``max_cover=None`` means no
-    limit. outside_diameter: m (over-crossings need it). joint_length: m of
+    limit, and so does nan or inf at a station. outside_diameter: m (over-crossings need it). joint_length: m of
     one pipe length (about 5.5-6 m, *common practice*). max_joint_deflection:
     rad allowed at each joint (3 degrees; 2-5 degrees is typical for push-on
     and mechanical joints, falling with size, *from memory*: the maker's
     table governs). bend_angles: rad, the standard vertical bend fittings
-    available. min_grade: m/m kept on every segment (e.g. 0.001), or None.
+    available (empty: no fittings, joints only). min_grade: m/m kept on every segment (e.g. 0.001), or None.
     trench_width: m, scalar or per station, weights excavation.
     max_transition_grade: m/m cap on the absolute grade, or None.
     bend_cost: m^3 of excavation judged equal to one radian of bend angle
@@ -86,10 +86,12 @@ class DesignRules:
 
     def check(self, n: int) -> None:
         """Raise :class:`InputError` naming the first rule value that cannot be used."""
-        def arr(name, lo, strict=False):
+        def arr(name, lo, strict=False, open_ended=False):
             v = np.asarray(getattr(self, name), dtype=float)
             if v.ndim not in (0, 1) or (v.ndim == 1 and len(v) != n):
                 raise InputError(f"design rule {name}: expected one value or {n} values, got shape {v.shape}")
+            if open_ended:  # nan or +inf: no limit at that station
+                v = np.where(np.isnan(v) | (v == np.inf), lo, v)
             bad = ~np.isfinite(v) | ((v <= lo) if strict else (v < lo))
             if np.any(bad):
                 raise InputError(f"design rule {name}: {float(np.ravel(v)[np.argmax(np.ravel(bad))])!r} "
@@ -97,7 +99,7 @@ class DesignRules:
 
         arr("min_cover", 0.0)
         if self.max_cover is not None:
-            arr("max_cover", 0.0)
+            arr("max_cover", 0.0, open_ended=True)
         arr("trench_width", 0.0, strict=True)
         for name, strict in (("outside_diameter", False), ("joint_length", True),
                              ("max_joint_deflection", False), ("bend_cost", True)):
