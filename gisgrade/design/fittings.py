@@ -14,6 +14,8 @@ from math import degrees
 import numpy as np
 import pandas as pd
 
+from ..arrays import runs
+
 #: Most fittings stacked at one bend position.
 MAX_FITTINGS_PER_BEND = 3
 
@@ -46,19 +48,6 @@ def standard_combination(need: float, angles, max_count: int = MAX_FITTINGS_PER_
     return best
 
 
-def runs(mask: np.ndarray) -> list[tuple[int, int]]:
-    """(first, last) index of every run of consecutive True values.
-
-    >>> runs(np.array([0, 1, 1, 0, 1], bool))
-    [(1, 2), (4, 4)]
-    """
-    m = np.asarray(mask, bool)
-    if not m.any():
-        return []
-    d = np.diff(np.r_[0, m.astype(np.int8), 0])
-    return list(zip(np.flatnonzero(d == 1).tolist(), (np.flatnonzero(d == -1) - 1).tolist()))
-
-
 def place_bends(excess: np.ndarray, turn: np.ndarray, allowance: np.ndarray, angles,
                 tol: float = 1e-7, at_least: bool = False) -> dict:
     """Bend positions and fittings for the stations whose turning exceeds the joints.
@@ -80,7 +69,7 @@ def place_bends(excess: np.ndarray, turn: np.ndarray, allowance: np.ndarray, ang
     out = {}
     sign = np.sign(turn)
     for kind in (1.0, -1.0):
-        for a, b in runs((excess > tol) & (sign == kind)):
+        for a, b in runs((excess > tol) & (sign == kind)).tolist():
             i = a + int(np.argmax(excess[a:b + 1]))
             need = float(excess[a:b + 1].sum() + allowance[i])
             combo = standard_combination(need, angles, at_least=at_least)

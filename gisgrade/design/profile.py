@@ -24,7 +24,8 @@ import scipy.sparse as sp
 from scipy.optimize import linprog
 
 from ..errors import InputError
-from .fittings import bends_frame, place_bends, runs
+from ..arrays import runs
+from .fittings import bends_frame, place_bends
 from .rules import PRIORITY, Crossing, DesignRules, PipeProfile, Relaxation
 
 #: A rule broken by more than this (m, rad or m/m) is reported as relaxed.
@@ -501,7 +502,7 @@ def _finish(P, sol, bends, crossings, group, first, station) -> PipeProfile:
     above["bend angle"] = PRIORITY[:2]
 
     def report(rule, short, where, unit):
-        for a, b in runs(short > TOL):
+        for a, b in runs(short > TOL).tolist():
             amt = float(short[a:b + 1].max())
             s0, s1 = where(a, b)
             why = (f"it ranks below {', '.join(above[rule])}, which could not all be kept otherwise"
