@@ -193,8 +193,7 @@ def stage_design(project: Project, table: pd.DataFrame, crossings: al.Crossings)
     od = _column(table, "outside_diameter_m", pipe.outside_diameter)  # per station (sections)
     rules = DesignRules(
         min_cover=table["min_cover_m"].to_numpy(),
-        max_cover=None if not np.isfinite(table["max_cover_m"]).any() else
-        np.where(np.isfinite(table["max_cover_m"]), table["max_cover_m"], 1e6),
+        max_cover=table["max_cover_m"].to_numpy(),  # inf where there is no limit
         outside_diameter=float(od.max()),
         joint_length=rules_cfg.joint_length,
         max_joint_deflection=rules_cfg.max_joint_deflection,
