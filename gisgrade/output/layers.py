@@ -134,5 +134,6 @@ def write_layers(result, folder: Path) -> None:
     layers["stations"] = station_points(result)
     for i, (name, frame) in enumerate(layers.items()):
         gdf = gpd.GeoDataFrame(frame, geometry="geometry", crs=crs)
+        kind = "LineString" if name == "pipe_pieces" else "Point"  # declared even when empty
         gdf.to_file(path, layer=name, driver="GPKG", engine="pyogrio",
-                    mode="w" if i == 0 else "a")
+                    mode="w" if i == 0 else "a", geometry_type=kind)
