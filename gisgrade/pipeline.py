@@ -296,8 +296,7 @@ def stage_hydraulics(project: Project, table: pd.DataFrame, bends: pd.DataFrame)
     expansion recovers pressure), so the checks see the lowest pressure.
     """
     from .hydraulics import minor, water
-    from .hydraulics.cases import solve_inflow
-    from .hydraulics.gradelines import grade_lines, required_source_head, segment_flows
+    from .hydraulics.gradelines import grade_lines, required_source_head, segment_flows, solve_flow
 
     if "fitting_k" not in table.columns:
         table = stage_pipe(project, table)
@@ -323,6 +322,7 @@ def stage_hydraulics(project: Project, table: pd.DataFrame, bends: pd.DataFrame)
         roughness=None if pipe.friction == "hazen-williams" else eps[:-1],
         hw_c=table["hw_c"].to_numpy(dtype=float)[:-1] if pipe.friction == "hazen-williams" else None,
         density=rho, viscosity=mu, source_at_rest=hyd.start == "tank",
+        end_at_rest=hyd.end == "tank",
     )
 
     def point_k(flows):
@@ -360,9 +360,9 @@ def stage_hydraulics(project: Project, table: pd.DataFrame, bends: pd.DataFrame)
             for _ in range(3):
                 k = point_k(flows_for(name, inflow, scale))
                 try:
-                    inflow = solve_inflow(station, axis, head_start=head, head_end=end_head,
-                                          offtake_station=xs, offtake_flow=qs * scale,
-                                          end_at_rest=hyd.end == "tank", point_k=k, **engine)
+                    inflow = solve_flow(station, axis, head_start=head, head_end=end_head,
+                                        offtake_station=xs, offtake_flow=qs * scale,
+                                        point_k=k, **engine)
                 except ValueError as exc:
                     raise InputError(f"hydraulics.end_head: {exc}") from None
         flows = flows_for(name, inflow, scale)

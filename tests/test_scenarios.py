@@ -109,6 +109,13 @@ def test_two_heads_tank_to_tank_matches_energy_balance_and_both_heads(flat_proje
     v0 = g["velocity_m_s"].iloc[0]
     assert g["egl_m"].iloc[0] + k_in * v0 ** 2 / (2 * G) == pytest.approx(200.0, abs=1e-3)
     assert g["egl_m"].iloc[-1] == pytest.approx(190.0, abs=1e-3)
+    # In each tank the water is at rest (Bernoulli): HGL = level just upstream of the
+    # entrance and downstream of the exit, and the pipe side of the exit (K = 1) is at
+    # the receiving level too; the outlet pressure is rho g (level - axis), IAPWS density.
+    assert g["hgl_upstream_m"].iloc[0] == pytest.approx(200.0, abs=1e-3)
+    assert g["hgl_upstream_m"].iloc[-1] == pytest.approx(190.0, abs=1e-3)
+    assert g["hgl_m"].iloc[-1] == pytest.approx(190.0, abs=1e-3)
+    assert g["pressure_kpa"].iloc[-1] * 1e3 == pytest.approx(rho * G * 90.0, abs=rho * G * 1e-3)
 
 
 def test_two_heads_main_to_main_with_offtakes_reproduces_both_heads(flat_project):
