@@ -456,14 +456,23 @@ def scenarios(project: Project) -> list[FlowCase]:
 
 def stage_findings(project: Project, table: pd.DataFrame, grades: pd.DataFrame,
                    relaxations=()) -> pd.DataFrame:
-    """Pressure, velocity, pressure-rating and cover violations, and design
-    rules that gave way, as station ranges."""
+    """Pressure, velocity, pressure-rating and cover violations, column
+    separation, and design rules that gave way, as station ranges.
+
+    Column separation compares the absolute pressure at the top of the pipe
+    (gauge + the standard atmosphere at that elevation) with the water's
+    vapour pressure at the project temperature.
+    """
+    from .hydraulics.atmosphere import atmospheric_pressure
+    from .hydraulics.water import vapour_pressure
+
     station = table["station_m"].to_numpy()
     top = table["top_m"].to_numpy()
     rows = fd.cover_findings(station, table["cover_m"].to_numpy(), table["min_cover_m"].to_numpy())
     axis = table["axis_m"].to_numpy()
     rating = _column(table, "rating_pa", np.nan if project.pipe.pressure_rating is None
                      else project.pipe.pressure_rating)
+    p_vapour = float(vapour_pressure(project.hydraulics.temperature))
     for name, g in grades.groupby("scenario", sort=False):
         both = g[["hgl_m", "hgl_upstream_m"]].to_numpy()
         rho_g = g["density_kg_m3"].to_numpy() * G
@@ -473,6 +482,8 @@ def stage_findings(project: Project, table: pd.DataFrame, grades: pd.DataFrame,
         rows += fd.pressure_findings(station, pressure, hgl, top, g["velocity_m_s"].to_numpy(),
                                      name, project.checks, pressure_high=high)
         rows += fd.rating_findings(station, high, rating, name)
+        absolute = rho_g * (hgl - top) + atmospheric_pressure(top)
+        rows += fd.column_separation_findings(station, absolute, p_vapour, name)
     rows += fd.relaxation_findings(relaxations)
     return fd.table(rows)
 

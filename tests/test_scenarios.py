@@ -364,6 +364,44 @@ def test_pressure_rating_is_checked_in_the_static_case(flat_project):
     assert not (under & inside).any()
 
 
+def test_column_separation_where_absolute_pressure_falls_below_vapour_pressure(flat_project):
+    # A hump to 210 m (axis) under a 200 m source head at 50 L/s: the HGL runs well
+    # below the top of pipe there. Absolute pressure at the top of pipe = gauge +
+    # the US Standard Atmosphere 1976 at that elevation (fluids ATMOSPHERE_1976);
+    # column separation where it is below the saturation pressure of water at
+    # 15 degC (IAPWS-IF97, iapws). IAPWS-95 density for the gauge pressure.
+    from fluids.atmosphere import ATMOSPHERE_1976
+    from iapws.iapws97 import _PSat_T
+
+    p = project(flat_project)
+    axis = 100.0 + 110.0 * np.exp(-(((STATIONS - 500.0) / 120.0) ** 2))
+    t, grades, _ = run(p, STATIONS, axis)
+    found = stage_findings(p, t, grades)
+    sep = found[found["check"] == "column separation"]
+    assert set(sep["scenario"]) == {"design", "static"}
+    assert (sep["severity"] == "critical").all()
+    p_v = _PSat_T(T15) * 1e6
+    assert sep["limit"].iloc[0] == pytest.approx(p_v / 1e3, rel=1e-4)  # our Wagner-Pruss vs IF97
+    top = t["top_m"].to_numpy()
+    atm = np.array([ATMOSPHERE_1976(float(z)).P for z in top])
+    for name, g in grades.groupby("scenario", sort=False):
+        hgl = np.minimum(g["hgl_m"], g["hgl_upstream_m"]).to_numpy()
+        absolute = rho_iapws() * G * (hgl - top) + atm
+        rows = sep[sep["scenario"] == name]
+        flagged = np.zeros(len(STATIONS), bool)
+        for a, b in zip(rows["from_station_m"], rows["to_station_m"]):
+            flagged |= (STATIONS >= a) & (STATIONS <= b)
+        clear = np.abs(absolute - p_v) > 50.0  # away from the boundary (model differences ~ Pa)
+        assert np.array_equal(flagged[clear], (absolute < p_v)[clear]), name
+        if flagged.any():
+            assert rows["worst_value"].min() == pytest.approx(absolute.min() / 1e3, abs=0.05)
+    # The sub-atmospheric finding stays, and covers more of the hump.
+    sub = found[(found["check"] == "sub-atmospheric") & (found["scenario"] == "design")]
+    assert len(sub) == 1
+    d = sep[sep["scenario"] == "design"]
+    assert sub["from_station_m"].iloc[0] < d["from_station_m"].min()
+
+
 def test_velocity_range_findings(flat_project):
     p = project(flat_project, extra='[checks]\nmin_velocity = "0.8 m/s"\nmax_velocity = "1.5 m/s"\n'
                                     '[[scenarios]]\nname = "low"\nflow = "40 L/s"\n'
@@ -502,6 +540,12 @@ flow = "10 L/s"
     summary = json.loads((out / "summary.json").read_text())
     names = [sc["scenario"] for sc in summary["scenarios"]]
     assert names == expected
+    # An absolute pressure below zero cannot exist (it is below any vapour pressure):
+    # a scenario whose lowest gauge pressure is under -101.325 kPa (at most one standard
+    # atmosphere, ISO 2533) is flagged as column separation, in the text summary too.
+    impossible = [sc["scenario"] for sc in summary["scenarios"] if sc["pressure_min_kpa"] < -101.325]
+    assert impossible and set(impossible) <= set(summary["column_separation"])
+    assert "COLUMN SEPARATION" in (out / "summary.txt").read_text()
     for sc in summary["scenarios"]:  # the summary's extremes cover every station's pressure
         g = result.gradelines[result.gradelines["scenario"] == sc["scenario"]]
         assert sc["pressure_min_kpa"] <= g["pressure_kpa"].min() + 1e-6
