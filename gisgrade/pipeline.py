@@ -71,12 +71,11 @@ def stage_alignment(project: Project):
 
 
 def hydraulic_stations(project: Project, line: al.Alignment):
-    """Stations the hydraulics needs on the table: fittings, offtakes (a
-    scenario's fire station too) and section boundaries as ``(stations,
-    flag)`` pairs measured from the line's
-    first point; offtake point layers snapped to the line, as ``(station,
-    flow)`` arrays (or None); and the line with a note on how far the points
-    lay from it."""
+    """Stations the hydraulics needs on the table: fittings, offtakes (and
+    scenarios' fire stations) and section boundaries as ``(stations, flag)``
+    pairs measured from the line's first point; offtake point layers snapped
+    to the line, as ``(station, flow)`` arrays (or None); and the line with a
+    note on how far the points lay from it."""
     s0 = line.start_station
     extra = [(np.array([f.station for f in project.fittings]) - s0, al.FITTING),
              (np.array([o.station for o in project.offtakes if o.station is not None]
