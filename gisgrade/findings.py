@@ -86,6 +86,26 @@ def pressure_findings(station, pressure, hgl, top, velocity, scenario: str,
     return out
 
 
+def column_separation_findings(station, pressure_abs, vapour_pressure, scenario: str) -> list[dict]:
+    """Stations where the absolute pressure (Pa) falls below the water's
+    vapour pressure (Pa): the water would boil and the column separate, so
+    the flow cannot be carried as computed (critical). ``pressure_abs`` is
+    gauge plus atmospheric pressure at the same point (the top of the pipe,
+    where vapour forms first).
+
+    >>> rows = column_separation_findings(np.array([0.0, 10.0, 20.0]),
+    ...                                   np.array([50e3, 1e3, 3e3]), 1.7e3, "fire")
+    >>> [(r["check"], r["worst_station_m"], r["worst_value"]) for r in rows]
+    [('column separation', 10.0, 1.0)]
+    """
+    p = np.asarray(pressure_abs, dtype=float)
+    return range_findings(
+        station, p / 1e3, p < vapour_pressure, scenario=scenario, check="column separation",
+        severity="critical", unit="kPa", limit=vapour_pressure / 1e3,
+        text="absolute pressure {value:.1f} kPa below the vapour pressure {limit:.1f} kPa: "
+             "column separation: the flow cannot be carried as computed")
+
+
 def rating_findings(station, pressure, rating, scenario: str) -> list[dict]:
     """Stations where the pressure (Pa) exceeds the pipe's pressure rating (Pa,
     one value per station; NaN where none is given), one finding per run."""

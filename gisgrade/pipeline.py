@@ -11,6 +11,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field, replace
 from pathlib import Path
+from typing import NamedTuple
 
 import numpy as np
 import pandas as pd
@@ -75,22 +76,21 @@ def stage_alignment(project: Project):
 
 
 def hydraulic_stations(project: Project, line: al.Alignment):
-    """Stations the hydraulics needs on the table: fittings, offtakes and
-    section boundaries as ``(stations, flag)`` pairs measured from the line's
-    first point; offtake point layers snapped to the line, as ``(station,
-    flow)`` arrays (or None); and the line with a note on how far the points
-    lay from it."""
+    """Stations the hydraulics needs on the table: fittings, offtakes (and
+    scenarios' fire stations) and section boundaries as ``(stations, flag)``
+    pairs measured from the line's first point; offtake point layers snapped
+    to the line, as ``(station, flow)`` arrays (or None); and the line with a
+    note on how far the points lay from it."""
     s0 = line.start_station
     extra = [(np.array([f.station for f in project.fittings]) - s0, al.FITTING),
-             (np.array([o.station for o in project.offtakes if o.station is not None]) - s0,
-              al.OFFTAKE),
+             (np.array([o.station for o in project.offtakes if o.station is not None]
+                       + [sc.fire_station for sc in project.scenarios
+                          if sc.fire_station is not None]) - s0, al.OFFTAKE),
              (np.array([b for sec in project.sections for b in (sec.start, sec.end)]) - s0,
               al.SECTION)]
     layers = [o for o in project.offtakes if o.path is not None]
     if not layers:
         return extra, None, line
-    from .units import parse_quantity
-
     stations, flows, notes = [], [], []
     for o in layers:
         gdf, st, offset = al.locate_points(line, o.path, f"{o.key}.path", layer=o.layer)
@@ -104,7 +104,7 @@ def hydraulic_stations(project: Project, line: al.Alignment):
             raise InputError(f"{o.key}.flow_field: feature {i} of {o.path.name} has "
                              f"{o.flow_field} = {gdf[o.flow_field].iloc[i]!r}, not a flow >= 0")
         stations.append(st)
-        flows.append(q * parse_quantity(f"1 {o.flow_unit}", "flow", f"{o.key}.flow_unit"))
+        flows.append(q * o.flow_factor)
         if len(st):
             k = int(np.argmax(offset))
             notes.append(f"{o.key}: {len(st)} offtake points from {o.path.name} snapped to the "
@@ -306,8 +306,7 @@ def stage_hydraulics(project: Project, table: pd.DataFrame, bends: pd.DataFrame)
     expansion recovers pressure), so the checks see the lowest pressure.
     """
     from .hydraulics import minor, water
-    from .hydraulics.cases import solve_inflow
-    from .hydraulics.gradelines import grade_lines, required_source_head, segment_flows
+    from .hydraulics.gradelines import grade_lines, required_source_head, segment_flows, solve_flow
 
     if "fitting_k" not in table.columns:
         table = stage_pipe(project, table)
@@ -333,6 +332,7 @@ def stage_hydraulics(project: Project, table: pd.DataFrame, bends: pd.DataFrame)
         roughness=None if pipe.friction == "hazen-williams" else eps[:-1],
         hw_c=table["hw_c"].to_numpy(dtype=float)[:-1] if pipe.friction == "hazen-williams" else None,
         density=rho, viscosity=mu, source_at_rest=hyd.start == "tank",
+        end_at_rest=hyd.end == "tank",
     )
 
     def point_k(flows):
@@ -345,12 +345,23 @@ def stage_hydraulics(project: Project, table: pd.DataFrame, bends: pd.DataFrame)
             np.add.at(k, at, np.where(re > 0, k_bend, 0.0))
         return k
 
-    def flows_for(name, inflow, scale):
-        flows = segment_flows(station, inflow, xs, qs * scale)
-        if np.any(flows < -1e-12):
-            raise InputError(f"scenario {name!r}: the offtakes ({np.sum(qs * scale) * 1e3:.1f} L/s) "
-                             f"take more than the inflow ({inflow * 1e3:.1f} L/s)")
-        return np.maximum(flows, 0.0)
+    def demands(c):
+        """Where water leaves in case ``c`` and how much: the offtakes times its
+        scale, and its fire flow at its fire station (default the last)."""
+        if not c.fire_flow:
+            return xs, qs * c.scale
+        at = (station[-1] if c.fire_station is None else
+              station[_station_index(station, c.fire_station, f"{c.key}.fire_station")[0]])
+        return np.append(xs, at), np.append(qs * c.scale, c.fire_flow)
+
+    def flows_for(c, inflow):
+        out_at, out_q = demands(c)
+        taken = float(np.sum(out_q))
+        if taken > inflow * (1 + 1e-12) + 1e-15:  # every offtake counts, the last station's too
+            raise InputError(f"scenario {c.name!r}: the offtakes take {taken * 1e3:.3f} L/s, more "
+                             f"than the {inflow * 1e3:.3f} L/s entering ({c.inflow_key}; the "
+                             "offtakes scale with it)")
+        return np.maximum(segment_flows(station, inflow, out_at, out_q), 0.0)
 
     p_req = hyd.required_pressure if hyd.required_pressure is not None else project.checks.min_pressure
     where = None
@@ -362,20 +373,22 @@ def stage_hydraulics(project: Project, table: pd.DataFrame, bends: pd.DataFrame)
         end_head = float(axis[-1])
     frames, cases = [], []
     flowing_heads = []
-    for name, inflow, scale in scenarios(project):
+    for c in scenarios(project):
+        name, inflow = c.name, c.inflow
         required = pump = None
         head = hyd.source_head
         if inflow is None:  # two heads: solve the inflow (bend K follow the flow)
-            inflow = float(np.sum(qs))
+            out_at, out_q = demands(c)
+            inflow = float(np.sum(out_q))
             for _ in range(3):
-                k = point_k(flows_for(name, inflow, scale))
+                k = point_k(flows_for(c, inflow))
                 try:
-                    inflow = solve_inflow(station, axis, head_start=head, head_end=end_head,
-                                          offtake_station=xs, offtake_flow=qs * scale,
-                                          end_at_rest=hyd.end == "tank", point_k=k, **engine)
+                    inflow = solve_flow(station, axis, head_start=head, head_end=end_head,
+                                        offtake_station=out_at, offtake_flow=out_q,
+                                        point_k=k, **engine)
                 except ValueError as exc:
                     raise InputError(f"hydraulics.end_head: {exc}") from None
-        flows = flows_for(name, inflow, scale)
+        flows = flows_for(c, inflow)
         k = point_k(flows)
         if hyd.boundary == "min-pressure":
             if inflow > 0:
@@ -403,39 +416,72 @@ def stage_hydraulics(project: Project, table: pd.DataFrame, bends: pd.DataFrame)
     return pd.concat(frames, ignore_index=True), pd.DataFrame(cases)
 
 
-def scenarios(project: Project) -> list[tuple[str, float | None, float]]:
-    """Named flow cases as ``(name, inflow m3/s, offtake scale)``, the static case last.
+class FlowCase(NamedTuple):
+    """One flow case of :func:`scenarios` (SI)."""
+
+    name: str
+    inflow: float | None  #: m3/s entering at the start (None: solved from two heads)
+    scale: float  #: factor on every offtake of the base case
+    fire_flow: float = 0.0  #: m3/s, in ``inflow``, leaving at ``fire_station``
+    fire_station: float | None = None  #: m (None: the last station)
+    key: str = "hydraulics"  #: the project table of the case, for messages
+    inflow_key: str = "hydraulics.flow"  #: the key that sets the inflow, for messages
+
+
+def scenarios(project: Project) -> list[FlowCase]:
+    """Named flow cases, the static case last.
 
     Without [[scenarios]]: one case "design" at [hydraulics] flow. A
-    scenario scales the whole base case (inflow and offtakes) by its
-    multiplier; one given by its flow has multiplier flow / [hydraulics]
-    flow. With two heads the inflow is solved (None here).
+    scenario is the base case (inflow and every offtake) times its
+    multiplier, plus its fire flow, which is not scaled: it enters at the
+    start and leaves at its fire station (default the last station). A
+    scenario given by its flow has multiplier flow / [hydraulics] flow (so
+    its offtakes scale too). With two heads the inflow is solved (None here).
+
+    >>> from types import SimpleNamespace as NS
+    >>> p = NS(hydraulics=NS(boundary="source-head", flow=0.04), scenarios=[
+    ...     NS(name="max day + fire", multiplier=1.5, flow=None, fire_flow=0.063,
+    ...        fire_station=None, key="scenarios[0]")])
+    >>> [(c.name, round(c.inflow, 6), c.scale) for c in scenarios(p)]
+    [('max day + fire', 0.123, 1.5), ('static', 0.0, 0.0)]
     """
     hyd = project.hydraulics
     if hyd.boundary == "two-heads":
-        cases = [("design", None, 1.0)]
+        cases = [FlowCase("design", None, 1.0)]
     elif not project.scenarios:
-        cases = [("design", hyd.flow, 1.0)]
+        cases = [FlowCase("design", hyd.flow, 1.0)]
     else:
         cases = []
         for sc in project.scenarios:
             if sc.multiplier is not None:
-                cases.append((sc.name, sc.multiplier * hyd.flow, sc.multiplier))
+                cases.append(FlowCase(sc.name, sc.multiplier * hyd.flow + sc.fire_flow, sc.multiplier,
+                                      sc.fire_flow, sc.fire_station, sc.key,
+                                      f"{sc.key}.multiplier x hydraulics.flow"))
             else:
-                cases.append((sc.name, sc.flow, sc.flow / hyd.flow if hyd.flow else 1.0))
-    return cases + [("static", 0.0, 0.0)]
+                cases.append(FlowCase(sc.name, sc.flow, sc.flow / hyd.flow if hyd.flow else 1.0,
+                                      key=sc.key, inflow_key=f"{sc.key}.flow"))
+    return cases + [FlowCase("static", 0.0, 0.0)]
 
 
 def stage_findings(project: Project, table: pd.DataFrame, grades: pd.DataFrame,
                    relaxations=()) -> pd.DataFrame:
-    """Pressure, velocity, pressure-rating and cover violations, and design
-    rules that gave way, as station ranges."""
+    """Pressure, velocity, pressure-rating and cover violations, column
+    separation, and design rules that gave way, as station ranges.
+
+    Column separation compares the absolute pressure at the top of the pipe
+    (gauge + the standard atmosphere at that elevation) with the water's
+    vapour pressure at the project temperature.
+    """
+    from .hydraulics.atmosphere import atmospheric_pressure
+    from .hydraulics.water import vapour_pressure
+
     station = table["station_m"].to_numpy()
     top = table["top_m"].to_numpy()
     rows = fd.cover_findings(station, table["cover_m"].to_numpy(), table["min_cover_m"].to_numpy())
     axis = table["axis_m"].to_numpy()
     rating = _column(table, "rating_pa", np.nan if project.pipe.pressure_rating is None
                      else project.pipe.pressure_rating)
+    p_vapour = float(vapour_pressure(project.hydraulics.temperature))
     for name, g in grades.groupby("scenario", sort=False):
         both = g[["hgl_m", "hgl_upstream_m"]].to_numpy()
         rho_g = g["density_kg_m3"].to_numpy() * G
@@ -445,6 +491,8 @@ def stage_findings(project: Project, table: pd.DataFrame, grades: pd.DataFrame,
         rows += fd.pressure_findings(station, pressure, hgl, top, g["velocity_m_s"].to_numpy(),
                                      name, project.checks, pressure_high=high)
         rows += fd.rating_findings(station, high, rating, name)
+        absolute = rho_g * (hgl - top) + atmospheric_pressure(top)
+        rows += fd.column_separation_findings(station, absolute, p_vapour, name)
     rows += fd.relaxation_findings(relaxations)
     return fd.table(rows)
 

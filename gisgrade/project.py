@@ -95,19 +95,29 @@ class OfftakeConfig:
     flow: float | None = None  # m3/s (a single offtake)
     path: Path | None = None  # a point layer instead
     flow_field: str | None = None
-    flow_unit: str = "L/s"  # unit of the layer's flow values
+    flow_unit: str = "L/s"  # unit of the layer's flow values (as written)
+    flow_factor: float = 1e-3  # m3/s per one flow_unit (parsed at load)
     layer: str | None = None
     key: str = "offtakes[0]"
 
 
 @dataclass(frozen=True)
 class ScenarioConfig:
-    """One [[scenarios]] table: a named flow case."""
+    """One [[scenarios]] table: a named flow case.
+
+    The base case ([hydraulics] flow and every offtake) times ``multiplier``
+    (a scenario given by ``flow`` has multiplier flow / [hydraulics] flow),
+    plus ``fire_flow``, which is not scaled: it enters at the start and
+    leaves at ``fire_station`` (None: the last station).
+    """
 
     name: str
     flow: float | None = None  # m3/s entering at the start
     multiplier: float | None = None  # times [hydraulics] flow
     show_egl: bool = True
+    fire_flow: float = 0.0  # m3/s, an extra demand that is not scaled
+    fire_station: float | None = None  # m, where it leaves (None: the last station)
+    key: str = "scenarios[0]"
 
 
 @dataclass(frozen=True)
@@ -448,9 +458,10 @@ def _read_fitting(s: Section) -> FittingConfig:
 def _read_offtake(s: Section) -> OfftakeConfig:
     if "path" in s.table:
         unit = s.string("flow_unit", "L/s")
-        parse_quantity(f"1 {unit}", "flow", s.key("flow_unit"))  # validate early
+        factor = parse_quantity(f"1 {unit}", "flow", s.key("flow_unit"))
         return OfftakeConfig(path=s.path("path"), flow_field=s.string("flow_field"),
-                             flow_unit=unit, layer=s.string("layer", None), key=s.name)
+                             flow_unit=unit, flow_factor=factor, layer=s.string("layer", None),
+                             key=s.name)
     return OfftakeConfig(station=s.quantity("station", "length"),
                          flow=s.quantity("flow", "flow", minimum=0.0), key=s.name)
 
@@ -463,7 +474,15 @@ def _read_scenario(s: Section) -> ScenarioConfig:
     flow = s.quantity("flow", "flow", None, minimum=0.0)
     mult = s.number("multiplier", None)
     _exactly_one(s, ("flow", flow, "entering at the start"), ("multiplier", mult, "x hydraulics.flow"))
-    return ScenarioConfig(name, flow, mult, s.boolean("show_egl", True))
+    fire = s.quantity("fire_flow", "flow", None, minimum=0.0)
+    fire_station = s.quantity("fire_station", "length", None)
+    if fire is not None and flow is not None:
+        raise InputError(f"{s.key('fire_flow')}: give it with {s.key('multiplier')}, not with "
+                         f"{s.key('flow')} (flow is already the whole inflow)")
+    if fire_station is not None and fire is None:
+        raise InputError(f"{s.key('fire_station')}: only used with {s.key('fire_flow')}")
+    return ScenarioConfig(name, flow, mult, s.boolean("show_egl", True),
+                          fire_flow=fire or 0.0, fire_station=fire_station, key=s.name)
 
 
 def _read_cover(s: Section) -> CoverConfig:

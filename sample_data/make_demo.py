@@ -241,7 +241,8 @@ multiplier = 2.0
 
 [[scenarios]]
 name = "max day + fire"
-flow = "123 L/s"              # 1.5 x average day plus a 63 L/s fire flow
+multiplier = 1.5              # max day: 1.5 x average day (the offtake too)
+fire_flow = "63 L/s"          # not scaled; drawn at the last station (fire_station)
 show_egl = false
 
 [[fittings]]

@@ -5,6 +5,7 @@ import math
 import numpy as np
 import pytest
 from fluids import fittings as ff
+from fluids.friction import Colebrook
 from fluids.friction import friction_factor as fluids_friction_factor
 from hypothesis import given, settings
 from hypothesis import strategies as st
@@ -36,16 +37,19 @@ def _darcy(**kw):
 
 
 def test_egl_minus_hgl_is_velocity_head_everywhere():
-    # Exact definition: EGL = HGL + V^2/2g with V = Q/A computed here.
+    # Exact definition: EGL = HGL + V^2/2g, V = Q/(pi D^2/4) with the segment
+    # flows and diameters written out here (offtakes of 10 and 20 L/s leave
+    # at stations 500 m and 1500 m; the pipe narrows at 1000 m).
     station, axis = _profile()
     m = station.size - 1
-    D = np.where(np.arange(m) < 20, 0.3, 0.25)
-    Q = segment_flows(station, 0.08, [500.0, 1500.0], [0.01, 0.02])
+    start = station[:-1]
+    D = np.where(start < 1000.0, 0.3, 0.25)
+    Q = 0.08 - 0.01 * (start >= 500.0) - 0.02 * (start >= 1500.0)
     K = np.zeros(station.size)
     K[[0, 10, 30, -1]] = [0.5, 0.2, 0.12, 1.0]
     gl = grade_lines(station, axis, source_head=160.0, flow=Q, **_darcy(diameter=D), point_k=K)
     V = Q / (math.pi * D**2 / 4)
-    V_station = np.append(V, V[-1])
+    V_station = np.append(V, V[-1])  # a station carries the pipe leaving it; the last, the one reaching it
     np.testing.assert_allclose(gl.velocity, V_station, rtol=1e-15)
     np.testing.assert_allclose(gl.egl - gl.hgl, V_station**2 / (2 * G), rtol=1e-9, atol=1e-12)
     np.testing.assert_allclose(gl.pressure, RHO * G * (gl.hgl - axis), rtol=1e-12)
@@ -56,8 +60,14 @@ def test_constant_diameter_and_flow_lines_are_parallel():
     station, axis = _profile()
     gl = grade_lines(station, axis, source_head=150.0, flow=0.06, **_darcy())
     np.testing.assert_allclose(np.diff(gl.egl), np.diff(gl.hgl), atol=1e-12)
-    # and the common slope is the friction loss of each segment
-    np.testing.assert_allclose(-np.diff(gl.hgl), gl.friction_loss, atol=1e-12)
+    # The common slope is Darcy-Weisbach h = f (L/D) V^2/2g over the axis
+    # length, f from Colebrook-White by fluids (Colebrook, exact Lambert-W form).
+    V = 0.06 / (math.pi * 0.3**2 / 4)
+    f = Colebrook(RHO * V * 0.3 / MU, 1e-4 / 0.3)
+    L = np.hypot(np.diff(station), np.diff(axis))
+    np.testing.assert_allclose(-np.diff(gl.hgl), f * L / 0.3 * V**2 / (2 * G), rtol=1e-9)
+    # source_head is the HGL of a main at station 0 (no point loss there).
+    assert gl.hgl[-1] == pytest.approx(150.0 - f * L.sum() / 0.3 * V**2 / (2 * G), abs=1e-9)
 
 
 def test_friction_loss_matches_fluids_per_segment():
@@ -222,11 +232,20 @@ def test_two_tanks_with_fittings_cross_checked_by_fluids():
               source_at_rest=True)
     q = solve_flow(station, axis, head_start=h1, head_end=h2, end_at_rest=True, **kw)
     assert q == pytest.approx(q_ref, rel=1e-4)  # the bend K uses f at q_ref
-    gl = grade_lines(station, axis, source_head=h1, flow=q, **kw)
-    # Both heads to 1 mm: tank 1 level = HGL at 0 + (1 + K_ent) V^2/2g; tank 2 = EGL after exit.
-    hv = gl.velocity[0] ** 2 / (2 * G)
+    gl = grade_lines(station, axis, source_head=h1, flow=q, end_at_rest=True, **kw)
+    # Both levels at both ends to 1 mm (Bernoulli, water at rest in each tank):
+    # in the source tank HGL = EGL = h1; on the pipe side of the entrance
+    # HGL = h1 - (1 + K_ent) V^2/2g; on the pipe side of the exit HGL = h2
+    # (the exit loss K = 1 takes the whole velocity head); in the receiving
+    # tank V = 0 and HGL = EGL = h2, so the pressure at the outlet is
+    # rho g (h2 - axis).
+    hv = (q / (math.pi * D**2 / 4)) ** 2 / (2 * G)
+    assert abs(gl.hgl_upstream[0] - h1) < 1e-3
     assert abs(gl.hgl[0] + 1.5 * hv - h1) < 1e-3
-    assert abs(gl.egl[-1] - h2) < 1e-3
+    assert abs(gl.hgl_upstream[-1] - h2) < 1e-3
+    assert abs(gl.hgl[-1] - h2) < 1e-3 and abs(gl.egl[-1] - h2) < 1e-3
+    assert gl.velocity[-1] == 0.0
+    assert gl.pressure[-1] == pytest.approx(RHO * G * (h2 - axis[-1]), abs=RHO * G * 1e-3)
     # The same flow with both ends as main connections (velocity heads cancel).
     q2 = solve_flow(station, axis, head_start=h1, head_end=h2,
                     **{**kw, "source_at_rest": False})

@@ -77,9 +77,7 @@ def _crane_range(fn):
     return vals.min(), vals.max()
 
 
-@pytest.mark.parametrize(
-    "name, fn",
-    [
+CRANE_VALVES = [
         ("gate_valve_open", lambda D: ff.K_gate_valve_Crane(D, D, 0.0)),
         ("butterfly_valve_open", lambda D: ff.K_butterfly_valve_Crane(D)),
         ("ball_valve_open", lambda D: ff.K_ball_valve_Crane(D, D, 0.0)),
@@ -88,8 +86,10 @@ def _crane_range(fn):
         # (n from memory; fT from fluids.fittings.ft_Crane).
         ("tee_through", lambda D: 20 * ff.ft_Crane(D)),
         ("tee_branch", lambda D: 60 * ff.ft_Crane(D)),
-    ],
-)
+]
+
+
+@pytest.mark.parametrize("name, fn", CRANE_VALVES)
 def test_named_valves_within_crane_range(name, fn):
     lo, hi = _crane_range(fn)
     assert lo <= minor.k_for(name) <= hi
@@ -102,9 +102,30 @@ def test_named_entrances_and_exit_match_fluids():
     assert minor.k_for("exit") == ff.exit_normal()
 
 
-def test_every_named_k_has_a_source():
-    for name, item in minor.NAMED_K.items():
-        assert item.k >= 0 and len(item.source) > 10, name
+BENDS = {"bend_90": 90.0, "bend_45": 45.0, "bend_22_5": 22.5, "bend_11_25": 11.25}
+ENDS = ("entrance_sharp", "entrance_rounded", "entrance_projecting", "exit")
+
+
+@pytest.mark.parametrize("name, angle", BENDS.items())
+def test_named_bends_match_fluids_rennels(name, angle):
+    # fluids.fittings.bend_rounded (Rennels & Hudson 2012), r/D = 1.5, smooth pipe,
+    # f from fluids' friction factor at Re = 3e5 (the documented defaults); the
+    # table keeps three decimals.
+    ref = ff.bend_rounded(Di=0.3, angle=angle, bend_diameters=1.5, Re=3e5, roughness=0.0, method="Rennels")
+    assert minor.NAMED_K[name].k == pytest.approx(ref, abs=5e-4)
+    assert "Rennels" in minor.NAMED_K[name].source
+
+
+def test_every_named_k_is_checked_against_its_source():
+    # Each named K is compared above with the reference its source names:
+    # Crane TP-410 valves and tees (range over 100-600 mm), Crane entrances and
+    # the Borda-Carnot exit (fluids), Rennels bends (fluids). A new name must
+    # join one of those checks.
+    valves = {name for name, _ in CRANE_VALVES}
+    assert set(minor.NAMED_K) == valves | set(ENDS) | set(BENDS)
+    for name in valves | set(ENDS[:3]):
+        assert minor.NAMED_K[name].source.startswith("Crane TP-410"), name
+    assert "Borda-Carnot" in minor.NAMED_K["exit"].source
 
 
 def test_k_for_unknown_name_suggests_nearest():

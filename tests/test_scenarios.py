@@ -109,6 +109,13 @@ def test_two_heads_tank_to_tank_matches_energy_balance_and_both_heads(flat_proje
     v0 = g["velocity_m_s"].iloc[0]
     assert g["egl_m"].iloc[0] + k_in * v0 ** 2 / (2 * G) == pytest.approx(200.0, abs=1e-3)
     assert g["egl_m"].iloc[-1] == pytest.approx(190.0, abs=1e-3)
+    # In each tank the water is at rest (Bernoulli): HGL = level just upstream of the
+    # entrance and downstream of the exit, and the pipe side of the exit (K = 1) is at
+    # the receiving level too; the outlet pressure is rho g (level - axis), IAPWS density.
+    assert g["hgl_upstream_m"].iloc[0] == pytest.approx(200.0, abs=1e-3)
+    assert g["hgl_upstream_m"].iloc[-1] == pytest.approx(190.0, abs=1e-3)
+    assert g["hgl_m"].iloc[-1] == pytest.approx(190.0, abs=1e-3)
+    assert g["pressure_kpa"].iloc[-1] * 1e3 == pytest.approx(rho * G * 90.0, abs=rho * G * 1e-3)
 
 
 def test_two_heads_main_to_main_with_offtakes_reproduces_both_heads(flat_project):
@@ -221,6 +228,55 @@ def test_offtakes_lower_the_friction_slope_downstream(flat_project):
     assert g["hgl_upstream_m"].iloc[i] == pytest.approx(g["hgl_m"].iloc[i], abs=1e-12)
 
 
+def test_fire_flow_is_not_scaled_and_mass_balances(flat_project):
+    # Max day + fire: 1.5 x (40 L/s in, 6 L/s out at 500 m) plus a 63 L/s fire flow
+    # that enters at the start and leaves at the end (default) or at 700 m.
+    flat_project.write_text(flat_project.read_text().replace('flow = "50 L/s"', 'flow = "40 L/s"'))
+    extra = ('[[offtakes]]\nstation = "500 m"\nflow = "6 L/s"\n'
+             '[[scenarios]]\nname = "max day + fire"\nmultiplier = 1.5\nfire_flow = "63 L/s"\n'
+             '[[scenarios]]\nname = "hydrant at 700 m"\nmultiplier = 1.5\nfire_flow = "63 L/s"\n'
+             'fire_station = "700 m"\n')
+    p = project(flat_project, extra=extra)
+    t, grades, cases = run(p, STATIONS, np.full(STATIONS.shape, 100.0))
+    s = STATIONS
+    # Mass balance (exact arithmetic, to rounding): in = 1.5 x 40 + 63 = 123 L/s; the
+    # farm offtake takes 1.5 x 6 = 9 L/s, not 123/40 x 6; the fire flow leaves where it is drawn.
+    for name, fire_at in (("max day + fire", 1000.0), ("hydrant at 700 m", 700.0)):
+        g = case(grades, name)
+        q = g["flow_m3_s"].to_numpy()  # flow leaving each station (the last: reaching it)
+        inflow = float(cases.set_index("scenario").loc[name, "inflow_m3_s"])
+        assert inflow == pytest.approx(0.123, abs=1e-15)
+        expected = 0.123 - np.where(s >= 500, 0.009, 0.0) - np.where(s >= fire_at, 0.063, 0.0)
+        expected[-1] = expected[-2]  # the last station shows the flow reaching it
+        np.testing.assert_allclose(q, expected, rtol=0, atol=1e-15)
+        # What reaches the end leaves there: offtakes + fire + end flow = inflow.
+        end_out = q[-1] - (0.063 if fire_at == 1000.0 else 0.0)
+        assert 0.009 + 0.063 + end_out == pytest.approx(inflow, abs=1e-15)
+    kinds = stage_alignment(p)[2].set_index("station_m")["kind"]
+    assert kinds.loc[700.0] & al.OFFTAKE  # the fire station is a table station
+
+
+def test_offtakes_are_checked_against_the_inflow_at_the_last_station_too(flat_project):
+    # An offtake at the last station takes from no segment, but it still needs the water.
+    p = project(flat_project, extra='[[offtakes]]\nstation = "1000 m"\nflow = "600 L/s"\n')
+    with pytest.raises(InputError, match=r"scenario 'design'.*600\.000 L/s.*50\.000 L/s.*hydraulics\.flow"):
+        run(p, STATIONS, np.full(STATIONS.shape, 100.0))
+    flat_project.write_text(flat_project.read_text().replace('flow = "600 L/s"', 'flow = "40 L/s"')
+                            + '[[scenarios]]\nname = "peak"\nmultiplier = 0.5\n')
+    p = load(flat_project)  # 40 <= 50 L/s: fine, and it still is at 0.5 x both
+    _, grades, _ = run(p, STATIONS, np.full(STATIONS.shape, 100.0))
+    assert case(grades, "peak")["flow_m3_s"].iloc[-1] == pytest.approx(0.025)
+
+
+def test_offtake_layer_unit_is_parsed_at_load(flat_project):
+    path = flat_project.parent / "taps.geojson"
+    path.write_text('{"type": "FeatureCollection", "features": []}')
+    p = project(flat_project, extra='[[offtakes]]\npath = "taps.geojson"\nflow_field = "q"\n'
+                                    'flow_unit = "gpm"\n')
+    # NIST SP 811: 1 US gallon = 3.785411784e-3 m3 (exact), so 1 gpm = 6.30901964e-5 m3/s.
+    assert p.offtakes[0].flow_factor == pytest.approx(3.785411784e-3 / 60, rel=1e-12)
+
+
 # --------------------------------------------------------------------------
 # Sections, materials and fittings
 # --------------------------------------------------------------------------
@@ -308,6 +364,44 @@ def test_pressure_rating_is_checked_in_the_static_case(flat_project):
     assert not (under & inside).any()
 
 
+def test_column_separation_where_absolute_pressure_falls_below_vapour_pressure(flat_project):
+    # A hump to 210 m (axis) under a 200 m source head at 50 L/s: the HGL runs well
+    # below the top of pipe there. Absolute pressure at the top of pipe = gauge +
+    # the US Standard Atmosphere 1976 at that elevation (fluids ATMOSPHERE_1976);
+    # column separation where it is below the saturation pressure of water at
+    # 15 degC (IAPWS-IF97, iapws). IAPWS-95 density for the gauge pressure.
+    from fluids.atmosphere import ATMOSPHERE_1976
+    from iapws.iapws97 import _PSat_T
+
+    p = project(flat_project)
+    axis = 100.0 + 110.0 * np.exp(-(((STATIONS - 500.0) / 120.0) ** 2))
+    t, grades, _ = run(p, STATIONS, axis)
+    found = stage_findings(p, t, grades)
+    sep = found[found["check"] == "column separation"]
+    assert set(sep["scenario"]) == {"design", "static"}
+    assert (sep["severity"] == "critical").all()
+    p_v = _PSat_T(T15) * 1e6
+    assert sep["limit"].iloc[0] == pytest.approx(p_v / 1e3, rel=1e-4)  # our Wagner-Pruss vs IF97
+    top = t["top_m"].to_numpy()
+    atm = np.array([ATMOSPHERE_1976(float(z)).P for z in top])
+    for name, g in grades.groupby("scenario", sort=False):
+        hgl = np.minimum(g["hgl_m"], g["hgl_upstream_m"]).to_numpy()
+        absolute = rho_iapws() * G * (hgl - top) + atm
+        rows = sep[sep["scenario"] == name]
+        flagged = np.zeros(len(STATIONS), bool)
+        for a, b in zip(rows["from_station_m"], rows["to_station_m"]):
+            flagged |= (STATIONS >= a) & (STATIONS <= b)
+        clear = np.abs(absolute - p_v) > 50.0  # away from the boundary (model differences ~ Pa)
+        assert np.array_equal(flagged[clear], (absolute < p_v)[clear]), name
+        if flagged.any():
+            assert rows["worst_value"].min() == pytest.approx(absolute.min() / 1e3, abs=0.05)
+    # The sub-atmospheric finding stays, and covers more of the hump.
+    sub = found[(found["check"] == "sub-atmospheric") & (found["scenario"] == "design")]
+    assert len(sub) == 1
+    d = sep[sep["scenario"] == "design"]
+    assert sub["from_station_m"].iloc[0] < d["from_station_m"].min()
+
+
 def test_velocity_range_findings(flat_project):
     p = project(flat_project, extra='[checks]\nmin_velocity = "0.8 m/s"\nmax_velocity = "1.5 m/s"\n'
                                     '[[scenarios]]\nname = "low"\nflow = "40 L/s"\n'
@@ -368,6 +462,13 @@ def test_fitting_and_offtake_layer_stations_are_on_the_table(flat_project):
     ("", '[[sections]]\nfrom = "0 m"\nto = "400 m"\ninside_diamter = "200 mm"\n',
      ["sections[0].inside_diamter", "inside_diameter"]),
     ("", '[[offtakes]]\nstation = "100 m"\nflow = "5 m"\n', ["offtakes[0].flow"]),
+    ("", '[[scenarios]]\nname = "f"\nflow = "90 L/s"\nfire_flow = "30 L/s"\n',
+     ["scenarios[0].fire_flow", "multiplier"]),
+    ("", '[[scenarios]]\nname = "f"\nmultiplier = 1\nfire_station = "100 m"\n',
+     ["scenarios[0].fire_station", "fire_flow"]),
+    ("", '[[scenarios]]\nname = "f"\nmultiplier = 1\nfire_flow = "-3 L/s"\n', ["scenarios[0].fire_flow"]),
+    ("", '[[offtakes]]\npath = "x.geojson"\nflow_field = "q"\nflow_unit = "m"\n',
+     ["offtakes[0].flow_unit"]),
     ('required_at = "middle"\n', "", ["hydraulics.required_at", "middle"]),
 ])
 def test_bad_keys_name_the_culprit(flat_project, hyd, extra, words):
@@ -439,6 +540,12 @@ flow = "10 L/s"
     summary = json.loads((out / "summary.json").read_text())
     names = [sc["scenario"] for sc in summary["scenarios"]]
     assert names == expected
+    # An absolute pressure below zero cannot exist (it is below any vapour pressure):
+    # a scenario whose lowest gauge pressure is under -101.325 kPa (at most one standard
+    # atmosphere, ISO 2533) is flagged as column separation, in the text summary too.
+    impossible = [sc["scenario"] for sc in summary["scenarios"] if sc["pressure_min_kpa"] < -101.325]
+    assert impossible and set(impossible) <= set(summary["column_separation"])
+    assert "COLUMN SEPARATION" in (out / "summary.txt").read_text()
     for sc in summary["scenarios"]:  # the summary's extremes cover every station's pressure
         g = result.gradelines[result.gradelines["scenario"] == sc["scenario"]]
         assert sc["pressure_min_kpa"] <= g["pressure_kpa"].min() + 1e-6

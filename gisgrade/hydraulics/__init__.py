@@ -4,6 +4,7 @@ Pure, vectorized numpy functions in SI units. See docs/hydraulics.md for the
 equations, sources, defaults and limits.
 """
 
+from gisgrade.hydraulics.atmosphere import atmospheric_pressure
 from gisgrade.hydraulics.friction import (
     G,
     colebrook,
@@ -40,6 +41,7 @@ __all__ = [
     "G",
     "GradeLines",
     "NAMED_K",
+    "atmospheric_pressure",
     "bend_k",
     "colebrook",
     "darcy_head_loss",

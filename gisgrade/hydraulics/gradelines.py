@@ -21,7 +21,11 @@ Model (all heads in metres, elevations in the same datum):
 - The source: ``source_head`` is the HGL just upstream of station 0 in a pipe
   flowing at the first segment's velocity (a connection to an existing main).
   With ``source_at_rest=True`` it is the still-water level of a tank, so the
-  velocity head is drawn from it as well (HGL = level - (1 + K) V^2/2g).
+  velocity head is drawn from it as well (HGL = level - (1 + K) V^2/2g), and
+  just upstream of the entrance, in the tank, HGL = EGL = level.
+- The end: with ``end_at_rest=True`` the last station discharges into a tank:
+  downstream of its point losses (the exit loss, K = 1 in ``point_k[-1]``)
+  the water is at rest, so there V = 0 and HGL = EGL = the tank level.
 - EGL = HGL + V^2/(2 g) at every station, V the station's ``velocity``.
   Pressure at the pipe axis p = rho g (HGL - axis).
 
@@ -55,7 +59,7 @@ STATION_TOLERANCE = 1e-6
 class GradeLines:
     """Grade lines for one flow case (arrays in SI units)."""
 
-    velocity: np.ndarray  #: (n,) m/s, segment downstream of each station (last: its upstream segment)
+    velocity: np.ndarray  #: (n,) m/s, segment downstream of each station (last: its upstream segment, or 0 in a receiving tank)
     hgl: np.ndarray  #: (n,) m, HGL just downstream of any point loss at the station
     egl: np.ndarray  #: (n,) m, = hgl + velocity^2/2g
     pressure: np.ndarray  #: (n,) Pa, rho g (hgl - axis)
@@ -63,7 +67,7 @@ class GradeLines:
     minor_loss: np.ndarray  #: (n,) m, EGL drop at each station (point losses)
     reynolds: np.ndarray  #: (n-1,) per segment
     friction_factor: np.ndarray  #: (n-1,) Darcy f (nan for Hazen-Williams)
-    hgl_upstream: np.ndarray  #: (n,) m, HGL just upstream of the station's point losses (upstream segment's velocity)
+    hgl_upstream: np.ndarray  #: (n,) m, HGL just upstream of the station's point losses (upstream segment's velocity; a source tank's level at 0)
     flow: np.ndarray  #: (n-1,) m3/s per segment
 
 
@@ -103,6 +107,7 @@ def grade_lines(
     viscosity,
     point_k=None,
     source_at_rest=False,
+    end_at_rest=False,
 ) -> GradeLines:
     """March the HGL and EGL downstream from a known head at station 0.
 
@@ -134,7 +139,13 @@ def grade_lines(
         exit at n-1), on the velocity head of the segment downstream of the
         station (the last station: its upstream segment).
     source_at_rest : bool
-        True when station 0 draws from a tank whose level is ``source_head``.
+        True when station 0 draws from a tank whose level is ``source_head``
+        (``hgl_upstream[0]``, in the tank, is then the level).
+    end_at_rest : bool
+        True when the last station discharges into a tank: ``velocity[-1]``,
+        ``hgl[-1]`` and ``egl[-1]`` describe the water in the tank after the
+        exit loss (V = 0, HGL = EGL = the level the flow reaches);
+        ``hgl_upstream[-1]`` is the pipe side of the exit.
 
     Returns
     -------
@@ -202,11 +213,18 @@ def grade_lines(
     e_dn = egl_source - np.cumsum(minor) - friction_before
     e_up = e_dn + minor
 
-    hv = V_dn * V_dn / (2.0 * G)
+    # Velocity on either side of each station's point losses; a tank is at rest.
+    v_after = V_dn.copy()
+    v_before = V_up.copy()
+    if end_at_rest:
+        v_after[-1] = 0.0
+    if source_at_rest:
+        v_before[0] = 0.0
+    hv = v_after * v_after / (2.0 * G)
     hgl = e_dn - hv
     egl = hgl + hv
     return GradeLines(
-        velocity=V_dn,
+        velocity=v_after,
         hgl=hgl,
         egl=egl,
         pressure=density * G * (hgl - z),
@@ -214,7 +232,7 @@ def grade_lines(
         minor_loss=minor,
         reynolds=Re,
         friction_factor=f,
-        hgl_upstream=e_up - V_up * V_up / (2.0 * G),
+        hgl_upstream=e_up - v_before * v_before / (2.0 * G),
         flow=Q,
     )
 
@@ -277,33 +295,44 @@ def solve_flow(
     point_k=None,
     source_at_rest=False,
     end_at_rest=False,
+    offtake_station=(),
+    offtake_flow=(),
 ) -> float:
-    """Flow through the pipe that joins two known heads (no offtakes).
+    """Inflow at station 0 that joins two known heads, with offtakes on the way.
 
     Finds Q such that the head at the end, after any point loss there (an
     exit loss in ``point_k[-1]``), equals ``head_end``: the HGL
-    (``end_at_rest=False``, a connection to a main) or the EGL, i.e. the
-    still-water level of a receiving tank (``end_at_rest=True``; with the
-    exit K = 1 this is the classic tank-to-tank energy equation). Solved by
-    Brent's method on a bracket grown from zero flow; the end head is met to
-    well under 1 mm.
+    (``end_at_rest=False``, a connection to a main) or the still-water level
+    of a receiving tank (``end_at_rest=True``; with the exit K = 1 this is
+    the classic tank-to-tank energy equation). Offtakes leave fixed flows
+    (:func:`segment_flows`), so Q is at least their sum (forward flow in
+    every segment). Brent's method on a bracket grown by doubling from 1 m/s
+    more than that sum in the smallest pipe; the end head is met to well
+    under 1 mm.
 
     Parameters
     ----------
     station, axis, diameter, method, roughness, hw_c, density, viscosity,
-    point_k, source_at_rest
+    point_k, source_at_rest, end_at_rest
         As for :func:`grade_lines` (``head_start`` is its ``source_head``).
     head_start : float
         Head at the start [m].
     head_end : float
-        Head at the end [m], at most ``head_start``.
-    end_at_rest : bool
-        True when the line ends in a tank whose level is ``head_end``.
+        Head at the end [m].
+    offtake_station, offtake_flow : arrays (k,), optional
+        Offtake positions [m] and flows [m3/s].
 
     Returns
     -------
     flow : float
-        Flow [m3/s], >= 0.
+        Inflow [m3/s], >= the offtakes' sum.
+
+    Raises
+    ------
+    ValueError
+        If the end head is out of reach with forward flow: even the
+        smallest inflow (the offtakes' sum, or none) leaves the end below
+        ``head_end``.
 
     Examples
     --------
@@ -315,27 +344,32 @@ def solve_flow(
     """
     kwargs = dict(
         diameter=diameter, method=method, roughness=roughness, hw_c=hw_c,
-        density=density, viscosity=viscosity, point_k=point_k, source_at_rest=source_at_rest,
+        density=density, viscosity=viscosity, point_k=point_k,
+        source_at_rest=source_at_rest, end_at_rest=end_at_rest,
     )
 
     def residual(q):
-        gl = grade_lines(station, axis, source_head=head_start, flow=q, **kwargs)
-        return float((gl.egl if end_at_rest else gl.hgl)[-1]) - float(head_end)
+        flows = segment_flows(station, q, offtake_station, offtake_flow)
+        gl = grade_lines(station, axis, source_head=head_start, flow=flows, **kwargs)
+        return float(gl.hgl[-1]) - float(head_end)
 
-    r0 = float(head_start) - float(head_end)
-    if r0 == 0.0:
-        return 0.0
-    if r0 < 0.0:
-        raise ValueError("head_end is above head_start: the flow would run backwards")
-    area = np.pi * np.min(np.asarray(diameter, dtype=float)) ** 2 / 4.0
-    hi = area * 1.0  # 1 m/s in the smallest pipe
+    lo = float(np.sum(offtake_flow)) if np.size(offtake_flow) else 0.0
+    r_lo = residual(lo)
+    if r_lo == 0.0:
+        return lo
+    if r_lo < 0.0:
+        raise ValueError("head_end is above what head_start gives" +
+                         (" even with only the offtakes flowing" if lo > 0 else "") +
+                         ": the flow would run backwards")
+    d = np.min(np.asarray(diameter, dtype=float))
+    hi = lo + np.pi * d * d / 4.0  # 1 m/s more in the smallest pipe
     for _ in range(200):
         if residual(hi) < 0.0:
             break
-        hi *= 2.0
+        hi = lo + 2.0 * (hi - lo)
     else:  # pragma: no cover - only for absurd inputs
         raise ValueError("could not bracket the flow between the two heads")
-    return float(brentq(residual, 0.0, hi, xtol=1e-14, rtol=1e-15, maxiter=500))
+    return float(brentq(residual, lo, hi, xtol=1e-14, rtol=1e-15, maxiter=500))
 
 
 def required_source_head(
@@ -352,6 +386,7 @@ def required_source_head(
     viscosity,
     point_k=None,
     source_at_rest=False,
+    end_at_rest=False,
     where=None,
 ) -> float:
     """Smallest source head that keeps pressure >= ``min_pressure``.
@@ -364,7 +399,7 @@ def required_source_head(
     Parameters
     ----------
     station, axis, flow, diameter, method, roughness, hw_c, density,
-    viscosity, point_k, source_at_rest
+    viscosity, point_k, source_at_rest, end_at_rest
         As for :func:`grade_lines`.
     min_pressure : float
         Required minimum pressure at the pipe axis [Pa].
@@ -388,7 +423,7 @@ def required_source_head(
     gl = grade_lines(
         station, axis, source_head=0.0, flow=flow, diameter=diameter, method=method,
         roughness=roughness, hw_c=hw_c, density=density, viscosity=viscosity,
-        point_k=point_k, source_at_rest=source_at_rest,
+        point_k=point_k, source_at_rest=source_at_rest, end_at_rest=end_at_rest,
     )
     z = np.asarray(axis, dtype=float)
     head_needed = float(min_pressure) / (density * G) + z

@@ -56,6 +56,8 @@ def summarize(result) -> dict:
         out["bends"] = int(len(result.bends))
     if result.findings is not None:
         out["findings"] = int(len(result.findings))
+        sep = result.findings[result.findings["check"] == "column separation"]["scenario"]
+        out["column_separation"] = list(dict.fromkeys(sep))
     if result.gradelines is None:
         return out
     cases = {}
@@ -155,6 +157,9 @@ def summary_text(summary: dict) -> str:
                      f"rules relaxed: {len(summary['relaxations'])}")
     for r in summary.get("relaxations", []):
         lines.append(f"relaxed: {r.get('message', r) if isinstance(r, dict) else r}")
+    if summary.get("column_separation"):
+        lines.append(f"COLUMN SEPARATION in {', '.join(summary['column_separation'])}: the pressure "
+                     "falls below the vapour pressure; the flow cannot be carried as computed")
     lines.append("CAUTION: " + summary["cautions"])
     return "\n".join(lines)
 
