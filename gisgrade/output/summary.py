@@ -132,10 +132,13 @@ def summary_text(summary: dict) -> str:
                     f"{c['clearance_required_m']:.2f} m)" if "clearance_achieved_m" in c
                     else f"bottom {c['bottom_m']:.2f} m")
         lines.append(f"crossing {c['name']} at {format_station([c['station_m']])[0]}: {achieved}")
+    separated = set(summary.get("column_separation", []))
     for sc in summary["scenarios"]:
+        low = (f"{sc['pressure_min_kpa']:.0f} kPa" if sc["scenario"] not in separated
+               else "below vapour pressure (not achievable)")
         lines.append(
             f"{sc['scenario']}: {sc['flow_m3_s'] * 1e3:.1f} L/s, pressure "
-            f"{sc['pressure_min_kpa']:.0f} kPa at {format_station([sc['pressure_min_station_m']])[0]}"
+            f"{low} at {format_station([sc['pressure_min_station_m']])[0]}"
             f" to {sc['pressure_max_kpa']:.0f} kPa at "
             f"{format_station([sc['pressure_max_station_m']])[0]}, "
             f"max velocity {sc['velocity_max_m_s']:.2f} m/s"
