@@ -95,13 +95,14 @@ def test_every_rule_holds_or_is_reported(case):
 
 @st.composite
 def deep_crossings(draw):
-    # flat ground, crossings from shallow to absurdly deep in a 100 m middle
-    # band, and room either side for the joints-only dip: turning at delta per
+    # flat ground, one crossing from shallow to absurdly deep in a 100 m
+    # middle band (two crossings close together may rightly sag between
+    # them, below both), and room either side for the joints-only dip: turning at delta per
     # joint length L it reaches 45 deg in ramp = (pi/4) L / delta, so a dip of
     # depth D is at most 2 ramp + D wide each side (exact geometry)
     h = draw(st.sampled_from([5.0, 6.0, 10.0]))
     delta = radians(draw(st.floats(2.0, 5.0)))  # 2-5 deg typical (from memory)
-    depths = draw(st.lists(st.floats(1.5, 60.0), min_size=1, max_size=3))
+    depths = [draw(st.floats(1.5, 60.0))]
     room = 2 * (np.pi / 4) * 6.0 / delta + max(depths) + 2 * h
     s = np.arange(0.0, 2 * room + 100.0 + h, h)
     ground = np.full(len(s), 100.0)
@@ -122,11 +123,16 @@ def deep_crossings(draw):
 @given(deep_crossings())
 def test_no_runaway_below_the_deepest_crossing(case):
     # on flat ground nothing but a crossing pushes the pipe down, so its
-    # deepest top is the lowest crossing limit minus clearance (exact
-    # analytic bound), and no station turns past a right angle (a pipe does
-    # not fold back on itself)
+    # deepest top is the crossing limit minus clearance, give or take
+    # what one station's turning can add on stations h apart: the least-area
+    # dip on discrete stations may bottom out one station past the crossing,
+    # lower by at most h x (turning allowed there, delta h / L) (exact
+    # geometry); and no station turns past a right angle (a pipe does not
+    # fold back on itself)
     s, ground, crossings, r = case
     p = design_profile(s, ground, crossings, r)
     floor = min(c.limit - c.clearance for c in crossings)
-    assert p.top.min() >= min(floor, 98.8) - 1e-6, (p.top.min(), floor)
+    h = s[1] - s[0]
+    tol = h * r.max_joint_deflection * h / r.joint_length + 1e-6
+    assert p.top.min() >= min(floor, 98.8) - tol, (p.top.min(), floor)
     assert np.abs(np.diff(np.arctan(np.diff(p.top) / np.diff(s)))).max() <= np.pi / 2 + 1e-7

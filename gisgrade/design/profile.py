@@ -90,6 +90,7 @@ class _Problem:
     rules: DesignRules
     upper_lp: np.ndarray = None  # upper and lower with pointwise contradictions
     lower_lp: np.ndarray = None  # settled by priority (see _settle_pointwise)
+    steep: np.ndarray = None     # segments whose grade is held within MAX_PIPE_GRADE by a row
 
     @property
     def n(self):
@@ -178,6 +179,7 @@ def _prepare(station, ground, crossings, rules) -> tuple[_Problem, np.ndarray, n
     P = _Problem(s, h, g_u, upper, lower, width * trib, allow, np.array(cj, int),
                  np.array(ct, float), np.array(cs, float), np.array(cr, float), names, rules)
     P.upper_lp, P.lower_lp = _settle_pointwise(P)
+    P.steep = np.abs(np.diff(g_u) / h) > MAX_PIPE_GRADE / 2 if n > 1 else np.zeros(0, bool)
     return P, group, first
 
 
@@ -274,7 +276,11 @@ def _build(P: _Problem, ghat, bends, mg_dir, mode, caps, strict=False, stage=2, 
     # grades g_j = (z_{j+1} - z_j) / h_j:  d_j g_j <= b_j
     seg = np.arange(n - 1)
     hrel = h / h.mean() if n > 1 else h
-    grade_rows = [(None, np.ones(n - 1), MAX_PIPE_GRADE), (None, -np.ones(n - 1), MAX_PIPE_GRADE)]
+    cut = np.flatnonzero(P.steep)  # |g| <= MAX_PIPE_GRADE, hard, where a solve needed it
+    for d in (1.0, -1.0):
+        add_rows(np.r_[np.arange(len(cut)), np.arange(len(cut))], np.r_[cut, cut + 1],
+                 np.r_[-d / h[cut], d / h[cut]], np.full(len(cut), MAX_PIPE_GRADE))
+    grade_rows = []
     if r.max_transition_grade is not None:
         grade_rows += [("max grade +", np.ones(n - 1), r.max_transition_grade),
                        ("max grade -", -np.ones(n - 1), r.max_transition_grade)]
@@ -335,7 +341,8 @@ def _solve(P, ghat, bends, mg_dir, mode, caps=None, max_iter=SLP_MAX, strict=Fal
     then False), or None if the first solve is infeasible."""
     best, best_err = None, np.inf
     prev_err = np.inf
-    for _ in range(max_iter):
+    it = 0
+    while it < max_iter:
         c, A, b, Aeq, beq, bounds, lay = _build(P, ghat, bends, mg_dir, mode, caps, strict, stage, totals)
         res = linprog(c, A_ub=A, b_ub=b, A_eq=Aeq, b_eq=beq, bounds=bounds, method="highs")
         if res.status != 0 or res.x is None:
@@ -343,6 +350,12 @@ def _solve(P, ghat, bends, mg_dir, mode, caps=None, max_iter=SLP_MAX, strict=Fal
         x = res.x
         z = x[slice(*lay["z"])]
         g = _grades(z, P.h)
+        over = (np.abs(g) > MAX_PIPE_GRADE * (1 + 1e-9)) & ~P.steep
+        if over.any():  # hold those segments (and their neighbours) too, and solve again
+            near = np.flatnonzero(over)[:, None] + np.arange(-2, 3)
+            P.steep[np.clip(near, 0, len(P.steep) - 1)] = True
+            continue
+        it += 1
         sol = _Solution(z, g, x[slice(*lay["excess"])],
                         {k: x[slice(*v)] for k, v in lay.items() if k not in ("z", "excess")})
         if P.n < 3:
