@@ -385,5 +385,5 @@ def test_crossing_far_below_max_cover_dips_just_as_deep_as_it_needs(fittings):
         assert np.all(np.abs(p.deflection[1:-1]) <= p.deflection_limit[1:-1] + 1e-6)
     else:  # fittings are standard angles adding up to no more than 90 deg per station
         assert p.bends.groupby("index")["angle_deg"].sum().max() <= 90.0 + 1e-9
-    # every station the pipe is below max cover is named, with the amount there
+    # no runaway: a pipe within 45 deg is shorter than sqrt(2) x its plan length (exact geometry)
     assert p.length_3d < 1200.0 * np.sqrt(2.0)
