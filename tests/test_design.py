@@ -343,3 +343,47 @@ def test_degenerate_lines(station):
     np.testing.assert_allclose(p.top[s < s[-1]], 49.0, atol=1e-9)
     np.testing.assert_allclose(p.top[s == s[-1]], 48.5, atol=1e-9)  # the crossing's clearance
     assert p.relaxations == []
+
+
+# ---------------------------------------------------------------------------
+# A crossing far deeper than max cover (no runaway)
+# ---------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize("fittings", [(), STANDARD_BEND_ANGLES])
+def test_crossing_far_below_max_cover_dips_just_as_deep_as_it_needs(fittings):
+    # flat ground, max cover 4 m, 1 deg joints, and a crossing whose clearance
+    # needs the top of pipe 50 m under the minimum-cover line. Priority
+    # (docs/design.md): clearance and min cover held; with no fittings the
+    # joints hold too and only max cover may give way. Exact analytic: the
+    # deepest point is the crossing's limit minus clearance, max cover gives
+    # way by exactly that depth minus 4 m, and far from the dip the pipe lies
+    # at minimum cover (nothing forces it lower)
+    s, ground = flat_line(length=1200.0)
+    need = 98.8 - 50.0
+    deg1 = radians(1.0)  # tight joints (2-5 deg typical, from memory)
+    rules = DesignRules(min_cover=1.2, max_cover=4.0, max_joint_deflection=deg1, bend_angles=fittings)
+    p = design_profile(s, ground, [Crossing(600.0, need + 0.3, 0.3, name="deep")], rules)
+    j = int(np.flatnonzero(s == 600.0)[0])
+    assert p.top.min() == pytest.approx(need, abs=1e-6)
+    assert p.top[j] == pytest.approx(need, abs=1e-6)
+    far = np.abs(s - 600.0) > 300.0
+    np.testing.assert_allclose(p.top[far], 98.8, atol=1e-7)
+    assert np.all(p.top <= 98.8 + 1e-7)  # min cover kept
+    (mc,) = p.relaxations
+    assert mc.rule == "max cover" and mc.unit == "m"
+    assert mc.amount == pytest.approx(100.0 - need - 4.0, abs=1e-6)
+    assert mc.station_from < 600.0 < mc.station_to
+    too_deep = s[(100.0 - p.top) > 4.0 + 1e-6]
+    assert mc.station_from <= too_deep[0] and too_deep[-1] <= mc.station_to
+    # a pipe, not a fold: grades within 45 deg (1 m/m, the 45-deg bend
+    # lowering of common practice) and no station turning past a right angle
+    assert np.abs(np.diff(p.top) / np.diff(s)).max() <= 1.0 + 1e-9
+    assert np.abs(p.deflection[1:-1]).max() <= np.pi / 2 + 1e-7
+    if not fittings:  # the joints alone: each within its allowance (exact geometry)
+        assert len(p.bends) == 0
+        assert np.all(np.abs(p.deflection[1:-1]) <= p.deflection_limit[1:-1] + 1e-6)
+    else:  # fittings are standard angles adding up to no more than 90 deg per station
+        assert p.bends.groupby("index")["angle_deg"].sum().max() <= 90.0 + 1e-9
+    # no runaway: a pipe within 45 deg is shorter than sqrt(2) x its plan length (exact geometry)
+    assert p.length_3d < 1200.0 * np.sqrt(2.0)

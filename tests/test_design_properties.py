@@ -91,3 +91,48 @@ def test_every_rule_holds_or_is_reported(case):
             assert covered(rel, "min grade", s[j], s[j + 1])
     # nothing is reported that did not happen: every relaxation has a positive amount
     assert all(x.amount > 0 and x.station_from <= x.station_to for x in rel)
+
+
+@st.composite
+def deep_crossings(draw):
+    # flat ground, one crossing from shallow to absurdly deep in a 100 m
+    # middle band (two crossings close together may rightly sag between
+    # them, below both), and room either side for the joints-only dip: turning at delta per
+    # joint length L it reaches 45 deg in ramp = (pi/4) L / delta, so a dip of
+    # depth D is at most 2 ramp + D wide each side (exact geometry)
+    h = draw(st.sampled_from([5.0, 6.0, 10.0]))
+    delta = radians(draw(st.floats(2.0, 5.0)))  # 2-5 deg typical (from memory)
+    depths = [draw(st.floats(1.5, 60.0))]
+    room = 2 * (np.pi / 4) * 6.0 / delta + max(depths) + 2 * h
+    s = np.arange(0.0, 2 * room + 100.0 + h, h)
+    ground = np.full(len(s), 100.0)
+    crossings = []
+    for k, depth in enumerate(depths):
+        x = float(s[np.searchsorted(s, room) + draw(st.integers(0, int(100 // h)))])
+        clearance = draw(st.sampled_from([0.3, 0.45, 50.0]))
+        crossings.append(Crossing(x, 100.0 - depth + clearance, clearance, "under", f"c{k}"))
+    rules = DesignRules(
+        min_cover=1.2, max_cover=draw(st.sampled_from([None, 2.5, 4.0])),
+        joint_length=6.0, max_joint_deflection=delta,
+        bend_angles=draw(st.sampled_from([(), STANDARD_BEND_ANGLES])),
+    )
+    return s, ground, crossings, rules
+
+
+@settings(max_examples=15, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(deep_crossings())
+def test_no_runaway_below_the_deepest_crossing(case):
+    # on flat ground nothing but a crossing pushes the pipe down, so its
+    # deepest top is the crossing limit minus clearance, give or take
+    # what one station's turning can add on stations h apart: the least-area
+    # dip on discrete stations may bottom out one station past the crossing,
+    # lower by at most h x (turning allowed there, delta h / L) (exact
+    # geometry); and no station turns past a right angle (a pipe does not
+    # fold back on itself)
+    s, ground, crossings, r = case
+    p = design_profile(s, ground, crossings, r)
+    floor = min(c.limit - c.clearance for c in crossings)
+    h = s[1] - s[0]
+    tol = h * r.max_joint_deflection * h / r.joint_length + 1e-6
+    assert p.top.min() >= min(floor, 98.8) - tol, (p.top.min(), floor)
+    assert np.abs(np.diff(np.arctan(np.diff(p.top) / np.diff(s)))).max() <= np.pi / 2 + 1e-7

@@ -21,13 +21,15 @@ MAX_FITTINGS_PER_BEND = 3
 
 
 def standard_combination(need: float, angles, max_count: int = MAX_FITTINGS_PER_BEND,
-                         at_least: bool = False) -> tuple:
+                         at_least: bool = False, max_total: float | None = None) -> tuple:
     """Standard fittings (rad) whose angles add up closest to ``need`` (rad).
 
     Up to ``max_count`` fittings; of two totals equally close the one with
     fewer fittings wins. The joints on either side take up the small
     difference (or a later round adds a bend). With ``at_least`` only totals
     of at least ``need`` count (the largest combination if none does).
+    ``max_total`` (rad): combinations adding up to more are not used (a
+    vertical bend past a right angle folds the pipe back on itself).
 
     >>> deg = lambda c: [round(degrees(a), 2) for a in c]
     >>> std = np.radians([11.25, 22.5, 45, 90])
@@ -35,21 +37,25 @@ def standard_combination(need: float, angles, max_count: int = MAX_FITTINGS_PER_
     ([11.25, 22.5], [45.0])
     >>> deg(standard_combination(np.radians(100), std)), deg(standard_combination(np.radians(48), std, at_least=True))
     ([11.25, 90.0], [11.25, 45.0])
+    >>> deg(standard_combination(np.radians(100), std, max_total=np.pi / 2))
+    [90.0]
     """
     angles = sorted(float(a) for a in angles)
-    best, key = (angles[-1],) * max_count, None
-    for count in range(1, max_count + 1):
-        for combo in combinations_with_replacement(angles, count):
-            if at_least and sum(combo) < need - 1e-12:
-                continue
-            k = (round(abs(sum(combo) - need), 12), count)
-            if key is None or k < key:
-                best, key = combo, k
+    top = np.inf if max_total is None else max_total + 1e-12
+    combos = [c for count in range(1, max_count + 1) for c in combinations_with_replacement(angles, count)
+              if sum(c) <= top] or [(angles[0],)]
+    best, key = max(combos, key=sum), None  # the largest, if none is at least the need
+    for combo in combos:
+        if at_least and sum(combo) < need - 1e-12:
+            continue
+        k = (round(abs(sum(combo) - need), 12), len(combo))
+        if key is None or k < key:
+            best, key = combo, k
     return best
 
 
 def place_bends(excess: np.ndarray, turn: np.ndarray, allowance: np.ndarray, angles,
-                tol: float = 1e-7, at_least: bool = False) -> dict:
+                tol: float = 1e-7, at_least: bool = False, max_total: float | None = None) -> dict:
     """Bend positions and fittings for the stations whose turning exceeds the joints.
 
     excess: rad per interior station, turning beyond the joints' allowance;
@@ -72,7 +78,7 @@ def place_bends(excess: np.ndarray, turn: np.ndarray, allowance: np.ndarray, ang
         for a, b in runs((excess > tol) & (sign == kind)).tolist():
             i = a + int(np.argmax(excess[a:b + 1]))
             need = float(excess[a:b + 1].sum() + allowance[i])
-            combo = standard_combination(need, angles, at_least=at_least)
+            combo = standard_combination(need, angles, at_least=at_least, max_total=max_total)
             out[i] = (kind * sum(combo), combo)
     return out
 

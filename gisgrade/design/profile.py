@@ -52,6 +52,16 @@ UPPER_RULES = PRIORITY[:3]
 #: Weight of excavation (per m of depth at a mean station) in that solve.
 EXCAVATION_WEIGHT = 1e-3
 
+#: Steepest pipe grade, m/m (45 degrees), held in every solve and never relaxed:
+#: a lowering under an obstruction is built of 45-degree bends (*common
+#: practice*), so no station turns by more than a right angle and the pipe
+#: cannot fold back on itself; it also keeps the linearized angle within a
+#: factor of two of its slope (1/(1+g^2) >= 1/2), so no linear solve can reach
+#: a far, steep vertex the true angles would never allow.
+MAX_PIPE_GRADE = 1.0
+#: Largest total of the fittings at one bend, rad (the 90-degree fitting).
+MAX_BEND = np.pi / 2
+
 #: m^3 of excavation judged equal to breaking the minimum grade by 1 m/m over
 #: 1 m of pipe: the minimum grade is elastic in every solve, so it gives way
 #: where it cannot be kept without relaxing anything else, or only at an
@@ -80,6 +90,7 @@ class _Problem:
     rules: DesignRules
     upper_lp: np.ndarray = None  # upper and lower with pointwise contradictions
     lower_lp: np.ndarray = None  # settled by priority (see _settle_pointwise)
+    steep: np.ndarray = None     # segments whose grade is held within MAX_PIPE_GRADE by a row
 
     @property
     def n(self):
@@ -168,6 +179,7 @@ def _prepare(station, ground, crossings, rules) -> tuple[_Problem, np.ndarray, n
     P = _Problem(s, h, g_u, upper, lower, width * trib, allow, np.array(cj, int),
                  np.array(ct, float), np.array(cs, float), np.array(cr, float), names, rules)
     P.upper_lp, P.lower_lp = _settle_pointwise(P)
+    P.steep = np.abs(np.diff(g_u) / h) > MAX_PIPE_GRADE / 2 if n > 1 else np.zeros(0, bool)
     return P, group, first
 
 
@@ -186,7 +198,7 @@ def _settle_pointwise(P: _Problem):
     return upper, np.minimum(lower, upper)
 
 
-def _build(P: _Problem, ghat, bends, mg_dir, mode, caps, strict=False, stage=2):
+def _build(P: _Problem, ghat, bends, mg_dir, mode, caps, strict=False, stage=2, totals=None):
     """Assemble one linear program about the grades ``ghat``.
 
     mode "capped": every rule as stated, or loosened by the amounts in
@@ -195,8 +207,10 @@ def _build(P: _Problem, ghat, bends, mg_dir, mode, caps, strict=False, stage=2):
     slack variable and the objective is the priority-weighted sum of slacks
     (plus a small share of excavation, which keeps the solve well
     conditioned); ``stage`` 1 weighs the rules below joint deflection a
-    thousandth as much, stage 2 bounds the slacks named in ``caps`` (the
-    upper rules, settled in stage 1). ``strict``: turning beyond the joints
+    thousandth as much; ``totals`` maps a rule (or "excess") to the largest
+    weighted sum of its slacks allowed (stage 2: the upper rules' totals
+    found in stage 1). Every segment's grade is held within
+    :data:`MAX_PIPE_GRADE` in every mode. ``strict``: turning beyond the joints
     where no bend is placed is a joint-deflection violation, weighted by its
     priority, rather than a cheap call for a bend. Returns (c, A_ub, b_ub,
     A_eq, b_eq, bounds, layout).
@@ -262,6 +276,10 @@ def _build(P: _Problem, ghat, bends, mg_dir, mode, caps, strict=False, stage=2):
     # grades g_j = (z_{j+1} - z_j) / h_j:  d_j g_j <= b_j
     seg = np.arange(n - 1)
     hrel = h / h.mean() if n > 1 else h
+    cut = np.flatnonzero(P.steep)  # |g| <= MAX_PIPE_GRADE, hard, where a solve needed it
+    for d in (1.0, -1.0):
+        add_rows(np.r_[np.arange(len(cut)), np.arange(len(cut))], np.r_[cut, cut + 1],
+                 np.r_[-d / h[cut], d / h[cut]], np.full(len(cut), MAX_PIPE_GRADE))
     grade_rows = []
     if r.max_transition_grade is not None:
         grade_rows += [("max grade +", np.ones(n - 1), r.max_transition_grade),
@@ -295,6 +313,10 @@ def _build(P: _Problem, ghat, bends, mg_dir, mode, caps, strict=False, stage=2):
                                  (np.tile(np.arange(q), 3), np.r_[i[fixed] - 1, i[fixed], i[fixed] + 1])),
                                 shape=(q, nv))
             beq = target[fixed] - c0[fixed]
+    for name, budget in (totals or {}).items():
+        a0, a1 = layout[name]
+        w = np.concatenate(cost)[a0:a1]
+        add_rows(np.zeros(a1 - a0, int), np.arange(a0, a1), w, np.array([budget]))
     A = b = None
     if nrow:
         A = sp.csr_matrix((np.concatenate(V), (np.concatenate(R), np.concatenate(C))), shape=(nrow, nv))
@@ -311,7 +333,7 @@ def _bend_arrays(bends, n):
     return is_bend, target
 
 
-def _solve(P, ghat, bends, mg_dir, mode, caps=None, max_iter=SLP_MAX, strict=False, stage=2):
+def _solve(P, ghat, bends, mg_dir, mode, caps=None, max_iter=SLP_MAX, strict=False, stage=2, totals=None):
     """Sequential linearization: solve, relinearize at the answer, repeat until
     the linearization is exact within :data:`SLP_TOL` at the answer (so the
     true joint and bend angles keep the rules). Returns the converged
@@ -319,14 +341,21 @@ def _solve(P, ghat, bends, mg_dir, mode, caps=None, max_iter=SLP_MAX, strict=Fal
     then False), or None if the first solve is infeasible."""
     best, best_err = None, np.inf
     prev_err = np.inf
-    for _ in range(max_iter):
-        c, A, b, Aeq, beq, bounds, lay = _build(P, ghat, bends, mg_dir, mode, caps, strict, stage)
+    it = 0
+    while it < max_iter:
+        c, A, b, Aeq, beq, bounds, lay = _build(P, ghat, bends, mg_dir, mode, caps, strict, stage, totals)
         res = linprog(c, A_ub=A, b_ub=b, A_eq=Aeq, b_eq=beq, bounds=bounds, method="highs")
         if res.status != 0 or res.x is None:
             return best
         x = res.x
         z = x[slice(*lay["z"])]
         g = _grades(z, P.h)
+        over = (np.abs(g) > MAX_PIPE_GRADE * (1 + 1e-9)) & ~P.steep
+        if over.any():  # hold those segments (and their neighbours) too, and solve again
+            near = np.flatnonzero(over)[:, None] + np.arange(-2, 3)
+            P.steep[np.clip(near, 0, len(P.steep) - 1)] = True
+            continue
+        it += 1
         sol = _Solution(z, g, x[slice(*lay["excess"])],
                         {k: x[slice(*v)] for k, v in lay.items() if k not in ("z", "excess")})
         if P.n < 3:
@@ -350,14 +379,22 @@ def _solve(P, ghat, bends, mg_dir, mode, caps=None, max_iter=SLP_MAX, strict=Fal
 
 def _least(P, ghat, bends, mg_dir, strict, max_iter):
     """Least priority-weighted violation in two stages: crossing clearance,
-    min cover and joint deflection first; then, with those held, the rest."""
+    min cover and joint deflection first; then, with the weighted total of
+    each of those held to what stage 1 found, the rest. The totals, not the
+    stage-1 amount at each station, are held: stage 2 is linearized about
+    other grades, and may move a violation of the same weight elsewhere."""
     first = _solve(P, ghat, bends, mg_dir, "least", None, max_iter, strict, stage=1)
     if first is None or all(k.rstrip(" +-") in UPPER_RULES for k in first.slack):
         return first
-    held = {k: v + TOL / 10 for k, v in first.slack.items() if k.rstrip(" +-") in UPPER_RULES}
-    if strict:
-        held["excess"] = first.excess + TOL / 10
-    return _solve(P, first.g, bends, mg_dir, "least", held, max_iter, strict, stage=2) or first
+    c, *_, lay = _build(P, first.g, bends, mg_dir, "least", None, strict, 1)
+    x = np.concatenate([first.z, first.excess] + [first.slack[k] for k in first.slack])
+    held = [k for k in first.slack if k.rstrip(" +-") in UPPER_RULES] + (["excess"] if strict else [])
+    totals = {}
+    for k in held:
+        a0, a1 = lay[k]
+        total = float(c[a0:a1] @ x[a0:a1])
+        totals[k] = total * (1 + 1e-9) + TOL / 10 * float(np.max(c[a0:a1], initial=0.0))
+    return _solve(P, first.g, bends, mg_dir, "least", None, max_iter, strict, stage=2, totals=totals) or first
 
 
 def _attempt(P, ghat, bends, mg_dir, caps, strict=False, relax=True):
@@ -404,7 +441,8 @@ def _place(P, sol, at_least=False):
     """New bends {station index: (signed angle, fittings)} from a solution's excess turning."""
     if not len(P.rules.bend_angles):
         return {}
-    got = place_bends(sol.excess, _turn(sol.g), P.allow, P.rules.bend_angles, at_least=at_least)
+    got = place_bends(sol.excess, _turn(sol.g), P.allow, P.rules.bend_angles, at_least=at_least,
+                      max_total=MAX_BEND)
     return {v + 1: val for v, val in got.items()}
 
 
