@@ -1,6 +1,6 @@
 """The run: each stage's function, called in order, data flowing forward.
 
-project file -> alignment -> terrain -> design -> hydraulics -> findings -> output
+project file -> alignment -> terrain -> pipe -> design -> hydraulics -> findings -> output
 
 Every stage takes the :class:`~gisgrade.project.Project` and what the stages
 before it produced, and returns new data; nothing reaches back. The station
