@@ -351,17 +351,9 @@ def read_alignment(path: Path, *, layer=None, reverse=False, where=None, feature
                   f" with alignment.feature = {feature}" if feature is not None else "")
         raise InputError(f"{key}: {path.name} holds no line feature{chosen}")
     notes = []
-    if len(gdf) == 1:
-        geom = gdf.geometry.iloc[0]
-    else:
-        merged = shapely.line_merge(shapely.union_all(gdf.geometry.values))
-        if not isinstance(merged, LineString):
-            raise InputError(
-                f"{key}: {path.name} holds {len(gdf)} separate lines; choose one with "
-                f"alignment.where (an attribute filter) or alignment.feature (a feature id)"
-            )
-        geom = merged
-        notes.append(f"{len(gdf)} features in {path.name} joined end to end into one centerline")
+    geom = gdf.geometry.iloc[0]
+    if len(gdf) > 1:  # joined in feature order: the first feature's free end is the start
+        geom = MultiLineString(list(shapely.get_parts(gdf.geometry.values)))
     src = pyproj.CRS.from_user_input(gdf.crs)
     geo = src.geodetic_crs or pyproj.CRS.from_epsg(4326)
     to_geo = pyproj.Transformer.from_crs(src, geo, always_xy=True)
@@ -371,7 +363,18 @@ def read_alignment(path: Path, *, layer=None, reverse=False, where=None, feature
         lon, lat = to_geo.transform([a[0], b[0]], [a[1], b[1]])
         return float(geod.line_length(lon, lat))
 
-    line = merge_parts(geom, key, path.name, metres, "m")
+    try:
+        line = merge_parts(geom, key, path.name, metres, "m")
+    except InputError as exc:
+        if len(gdf) == 1:
+            raise
+        raise InputError(f"{key}: {path.name} holds {len(gdf)} separate lines that do not join "
+                         "end to end; choose one with alignment.where (an attribute filter) or "
+                         "alignment.feature (a feature id)") from exc
+    if len(gdf) > 1:
+        a, b = np.asarray(line.coords)[[0, -1], :2]
+        notes.append(f"{len(gdf)} features in {path.name} joined end to end in file order, from "
+                     f"({a[0]:.6g}, {a[1]:.6g}) to ({b[0]:.6g}, {b[1]:.6g})")
     if line.length == 0:
         raise InputError(f"{key}: {path.name}: the centerline has zero length")
     coords = np.asarray(line.coords)[:, :2]

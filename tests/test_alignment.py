@@ -146,3 +146,15 @@ def test_projected_lines_not_in_true_metres_are_stationed_in_utm(tmp_path, epsg,
     assert line.crs.to_epsg() in (26910, 32610)  # UTM zone 10N holds 122.3 W
     assert line.length == pytest.approx(geod, rel=1e-3)
     assert any(why in n for n in line.notes)
+
+
+def test_features_join_in_file_order_whatever_their_digitized_direction(tmp_path):
+    # Three pieces of one route in flow order, the first two digitized backwards:
+    # the route must start at the first feature's free end (exact geometry).
+    pieces = [[(100.0, 0.0), (0.0, 0.0)], [(200.0, 0.0), (100.0, 0.0)], [(200.0, 0.0), (300.0, 50.0)]]
+    path = write_lines(tmp_path / "p.geojson",
+                       [[(500000.0 + x, 4649000.0 + y) for x, y in p] for p in pieces])
+    line = al.read_alignment(path)
+    xy = line.coords - [500000.0, 4649000.0]
+    assert xy.tolist() == [[0.0, 0.0], [100.0, 0.0], [200.0, 0.0], [300.0, 50.0]]
+    assert any("in file order" in n for n in line.notes)

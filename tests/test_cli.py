@@ -54,6 +54,9 @@ def test_demo_writes_every_output(tmp_path, capsys):
     assert grades["pressure_band_kpa"].to_numpy() == pytest.approx(rho * 9.80665 * 0.98 / 1e3,
                                                                    rel=1e-5)
     assert set(grades["scenario"]) == {"average day", "peak hour", "max day + fire", "static"}
+    # every scenario's rows join the profile's stations exactly
+    for _, g in grades.groupby("scenario"):
+        assert g["station_m"].tolist() == profile["station_m"].tolist()
     text = capsys.readouterr().out
     assert "CAUTION" in text
 
