@@ -124,18 +124,43 @@ def cover_findings(station, cover, min_cover) -> list[dict]:
     (``min_cover`` per station: zones may change it)."""
     min_cover = np.broadcast_to(np.asarray(min_cover, dtype=float), np.shape(cover))
     short = cover < min_cover - 1e-6
-    rows = range_findings(station, cover - min_cover, short, scenario="design", check="cover",
-                          severity="critical", unit="m", limit=0.0,
-                          text="cover {value:.2f} m short of the minimum")
+    rows = range_findings(station, cover, short, scenario="design", check="cover",
+                          severity="critical", unit="m", limit=0.0)
+    for row in rows:  # the limit and message at the worst station (zones vary it)
+        k = int(np.searchsorted(station, row["worst_station_m"]))
+        row["limit"] = float(min_cover[k])
+        row["message"] = (f"cover {cover[k]:.2f} m, {min_cover[k] - cover[k]:.2f} m short of "
+                          f"the {min_cover[k]:.2f} m minimum")
     return rows
 
 
-def relaxation_findings(relaxations) -> list[dict]:
-    """One finding per design rule that had to give way (see design.Relaxation)."""
-    return [dict(scenario="design", check=f"rule relaxed: {r.rule}", severity="critical",
-                 from_station_m=float(r.station_from), to_station_m=float(r.station_to),
-                 worst_station_m=float(r.station_from), worst_value=float(r.amount), unit=r.unit,
-                 limit=0.0, message=r.message) for r in relaxations]
+#: How far each design rule is broken at a station, from station-table
+#: columns, so a relaxation's worst station can be found (rules not listed
+#: report the start of their range).
+RULE_EXCESS = {
+    "min cover": lambda t: t["min_cover_m"] - t["cover_m"],
+    "max cover": lambda t: t["cover_m"] - t["max_cover_m"],
+    "joint deflection": lambda t: t["deflection_deg"].abs() - t["deflection_limit_deg"],
+}
+
+
+def relaxation_findings(relaxations, table: pd.DataFrame | None = None) -> list[dict]:
+    """One finding per design rule that had to give way (see design.Relaxation),
+    its worst station found from the station ``table`` where the rule allows."""
+    rows = []
+    for r in relaxations:
+        worst = float(r.station_from)
+        if table is not None and r.rule in RULE_EXCESS:
+            s = table["station_m"].to_numpy()
+            excess = np.nan_to_num(RULE_EXCESS[r.rule](table).to_numpy(dtype=float), nan=-np.inf)
+            inside = (s >= r.station_from - 1e-6) & (s <= r.station_to + 1e-6)
+            if inside.any():
+                worst = float(s[inside][np.argmax(excess[inside])])
+        rows.append(dict(scenario="design", check=f"rule relaxed: {r.rule}", severity="critical",
+                         from_station_m=float(r.station_from), to_station_m=float(r.station_to),
+                         worst_station_m=worst, worst_value=float(r.amount), unit=r.unit,
+                         limit=0.0, message=r.message))
+    return rows
 
 
 def table(findings: list[dict]) -> pd.DataFrame:

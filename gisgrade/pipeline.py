@@ -178,6 +178,14 @@ def stage_design(project: Project, table: pd.DataFrame, crossings: al.Crossings)
     crossings = crossings.resolve(lambda s: np.interp(s, station, ground))
     ground_at = np.interp(crossings.station, station, ground)
     top = np.where(np.isfinite(crossings.size), crossings.top, ground_at - crossings.depth)
+    od = _column(table, "outside_diameter_m", pipe.outside_diameter)  # per station (sections)
+    # "over" only where cover permits: passing above must leave the pipe's top
+    # under the minimum-cover line; otherwise the pipe passes under (noted in run)
+    cover_line = ground_at - np.interp(crossings.station, station, table["min_cover_m"])
+    blocked = (crossings.side == "over") & (
+        top + crossings.clearance + np.interp(crossings.station, station, od) > cover_line + 1e-9)
+    if blocked.any():
+        crossings = replace(crossings, side=np.where(blocked, "under", crossings.side).astype(object))
     # a wide feature holds its limit over its whole footprint: at its centre
     # and where the pipe enters and leaves it (edges inside the line only)
     edge_s, edge_i = crossings.edges()
@@ -190,7 +198,6 @@ def stage_design(project: Project, table: pd.DataFrame, crossings: al.Crossings)
         for s, b, t, c, side, n in zip(at, crossings.bottom[i], top[i], crossings.clearance[i],
                                        crossings.side[i], crossings.name[i])
     ]
-    od = _column(table, "outside_diameter_m", pipe.outside_diameter)  # per station (sections)
     rules = DesignRules(
         min_cover=table["min_cover_m"].to_numpy(),
         max_cover=table["max_cover_m"].to_numpy(),  # inf where there is no limit
@@ -493,7 +500,7 @@ def stage_findings(project: Project, table: pd.DataFrame, grades: pd.DataFrame,
         rows += fd.rating_findings(station, high, rating, name)
         absolute = rho_g * (hgl - top) + atmospheric_pressure(top)
         rows += fd.column_separation_findings(station, absolute, p_vapour, name)
-    rows += fd.relaxation_findings(relaxations)
+    rows += fd.relaxation_findings(relaxations, table)
     return fd.table(rows)
 
 
@@ -513,7 +520,10 @@ def run(project, outdir=None, *, write: bool = True) -> Result:
     line, crossings, table = stage_alignment(project)
     table, notes = stage_terrain(project, line, table)
     table = stage_pipe(project, table)
+    asked = crossings.side
     table, crossings, profile = stage_design(project, table, crossings)
+    notes += [f"crossing {n}: passing over it would leave less than the minimum cover; the pipe "
+              "passes under it" for n, a, b in zip(crossings.name, asked, crossings.side) if a != b]
     bends = fittings_frame(profile, table)
     grades, cases = stage_hydraulics(project, table, bends)
     found = stage_findings(project, table, grades, profile.relaxations)

@@ -72,6 +72,9 @@ def test_demo_layers_are_readable(tmp_path):
     assert len(crossings) == 3
     # The designed pipe meets the required clearance at every crossing.
     assert (crossings["clearance_achieved_m"] >= crossings["clearance_required_m"] - 1e-6).all()
+    # the layer's columns agree: under a feature, clearance = its bottom - top of pipe
+    assert np.allclose(crossings["bottom_m"] - crossings["top_of_pipe_m"],
+                       crossings["clearance_achieved_m"], atol=1e-9)
 
 
 def test_module_entry_point_runs_without_traceback(tmp_path):

@@ -1,5 +1,5 @@
 """The pipe profile through the whole run: cover zones, crossings given by
-depth and size, passing over a feature, and the fittings table.
+depth and size, passing over a feature where cover permits, and the fittings table.
 
 Geometry here is checked analytically on flat ground (exact by construction);
 the values of cover and clearance are the project file's (common practice
@@ -78,20 +78,31 @@ clearance = "0.3 m"
     # passes under with 0.45 m (18 in; "Ten States Standards", from memory).
     project = flat_site(tmp_path, extra,
                         crossings=[([(X0 + 300, Y - 20), (X0 + 300, Y + 20)], {"depth": 2.0, "height": 0.6})])
-    # A shallow duct bank whose bottom is at 99.4 m, 0.2 m tall, at x = X0 + 700.
-    write_lines(tmp_path / "x2.geojson", [[(X0 + 700, Y - 20), (X0 + 700, Y + 20)]],
-                props=[{"bottom": 99.4}])
+    # A shallow duct bank whose bottom is at 99.4 m, 0.2 m tall, at x = X0 + 700,
+    # and a deep tunnel (bottom 94.8 m, 0.2 m tall) at x = X0 + 850, both to pass over.
+    write_lines(tmp_path / "x2.geojson", [[(X0 + 700, Y - 20), (X0 + 700, Y + 20)],
+                                          [(X0 + 850, Y - 20), (X0 + 850, Y + 20)]],
+                props=[{"bottom": 99.4, "name": "duct"}, {"bottom": 94.8, "name": "tunnel"}])
     r = run(project, write=False)
     t = r.table
     top_at = dict(zip(t["station_m"], t["top_m"]))
     # Under: top of pipe <= feature bottom - clearance = 100 - 2.0 - 0.6 - 0.45.
     assert top_at[300.0] <= 100 - 2.0 - 0.6 - 0.45 + 1e-6
-    # Over: pipe bottom (top - OD) >= feature top + clearance = 99.6 + 0.3;
-    # with cover 1.2 m the top can be at most 98.8: the rules contradict, and
-    # the run must say which rule gave way rather than fail or hide it.
-    relaxed = {x.rule for x in r.relaxations}
-    assert relaxed, "an impossible over-crossing must be reported"
-    assert any("relaxed" in c for c in r.findings["check"])
+    # Over the duct: pipe bottom (top - OD) >= 99.6 + 0.3 would put the top at
+    # 100.22, above the 1.2 m cover line (98.8): cover does not permit passing
+    # over, so the pipe passes under it (bottom - clearance = 99.1 >= 98.8 holds
+    # at minimum cover) and the run says so.
+    assert top_at[700.0] <= 99.4 - 0.3 + 1e-6
+    assert any("duct: passing over it would leave less than the minimum cover" in n
+               for n in r.summary["notes"])
+    assert not r.relaxations
+    # Over the tunnel: allowed; at minimum cover the pipe's bottom clears its top
+    # by 98.8 - 0.32 - 95.0 = 3.48 m.
+    from gisgrade.output.layers import clearance_achieved
+    sides = dict(zip(r.crossings.name, r.crossings.side))
+    assert sides["tunnel"] == "over" and sides["duct"] == "under"
+    achieved = dict(zip(r.crossings.name, clearance_achieved(r)))
+    assert achieved["tunnel"] == pytest.approx(98.8 - 0.32 - 95.0, abs=1e-6)
 
 
 def test_fittings_table_lists_standard_bends(tmp_path):
@@ -138,3 +149,24 @@ clearance = "0.3 m"
         assert top[at][0] <= 97.0 - 0.3 + 1e-6
     from gisgrade.output.layers import clearance_achieved
     assert clearance_achieved(r)[0] >= 0.3 - 1e-6
+
+
+def test_a_relaxed_rule_is_found_at_its_worst_station(tmp_path):
+    extra = """
+[[crossings]]
+path = "x.geojson"
+bottom_field = "bottom"
+clearance = "0.3 m"
+"""
+    project = flat_site(tmp_path, extra,
+                        crossings=[([(X0 + 500, Y - 20), (X0 + 500, Y + 20)], {"bottom": 90.0})])
+    project.write_text(project.read_text().replace('minimum = "1.2 m"',
+                                                   'minimum = "1.2 m"\nmaximum = "4 m"'))
+    r = run(project, write=False)
+    # The crossing needs the top of pipe at 90 - 0.3 = 89.7 m, 10.3 m below flat
+    # ground at 100 m: max cover (4 m) gives way, worst exactly at the crossing,
+    # by 10.3 - 4 = 6.3 m (exact arithmetic).
+    rows = r.findings[r.findings["check"] == "rule relaxed: max cover"]
+    assert len(rows) == 1
+    assert rows["worst_station_m"].iloc[0] == pytest.approx(500.0)
+    assert rows["worst_value"].iloc[0] == pytest.approx(6.3, abs=1e-6)

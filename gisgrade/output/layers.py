@@ -77,9 +77,11 @@ def crossing_points(result) -> "pd.DataFrame":
         "size_m": c.size, "clearance_required_m": c.clearance,
         "ground_m": np.interp(station, t["station_m"], t["ground_m"]),
     })
-    if "top_m" in t.columns:
-        frame["top_of_pipe_m"] = np.interp(station, t["station_m"], t["top_m"])
-        frame["clearance_achieved_m"] = clearance_achieved(result)
+    if "top_m" in t.columns:  # at the point of the footprint where clearance is least
+        clearance, governing, top = governing_point(result)
+        frame["governing_station_m"] = governing
+        frame["top_of_pipe_m"] = top
+        frame["clearance_achieved_m"] = clearance
     frame["geometry"] = shapely.points(c.x, c.y)
     return frame
 
@@ -92,11 +94,17 @@ def fittings_points(result) -> "pd.DataFrame":
 
 
 def clearance_achieved(result) -> np.ndarray:
+    """Least vertical separation at each crossing (m); see :func:`governing_point`."""
+    return governing_point(result)[0]
+
+
+def governing_point(result):
     """Vertical separation between the outsides at each crossing (m), the
     least over the feature's footprint (its centre and the two edges where
-    the pipe enters and leaves it): under a feature, its bottom minus the top
-    of pipe; over it, the pipe's bottom (top minus outside diameter) minus the
-    feature's top."""
+    the pipe enters and leaves it), with the station and top of pipe where it
+    is least: under a feature, its bottom minus the top of pipe; over it, the
+    pipe's bottom (top minus outside diameter) minus the feature's top.
+    Returns ``(clearance, station, top)`` arrays."""
     c, t = result.crossings, result.table
     s = t["station_m"].to_numpy()
     r = c.reach()
@@ -107,8 +115,12 @@ def clearance_achieved(result) -> np.ndarray:
           else result.project.pipe.outside_diameter)
     ground = np.interp(c.station, s, t["ground_m"].to_numpy())
     feature_top = np.where(np.isfinite(c.size), c.top, ground - c.depth)
-    return np.where(c.side == "over", top.min(axis=0) - od - feature_top,
-                    c.bottom - top.max(axis=0))
+    over = c.side == "over"
+    k = np.where(over, top.argmin(axis=0), top.argmax(axis=0))  # the governing point
+    cols = np.arange(len(c))
+    top_k = top[k, cols]
+    clearance = np.where(over, top_k - od - feature_top, c.bottom - top_k)
+    return clearance, at[k, cols], top_k
 
 
 def station_points(result) -> "pd.DataFrame":
