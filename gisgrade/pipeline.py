@@ -146,8 +146,9 @@ def stage_terrain(project: Project, line: al.Alignment, table: pd.DataFrame):
         kind, rmse = default_vertical_accuracy(ground.cell_size)
         notes.append(f"terrain.vertical_accuracy not given: {rmse:g} m RMSE assumed for a {kind} "
                      f"DEM ({ground.cell_size:.2f} m cells)")
+    names = np.array([Path(str(p)).name for p in cfg.dem] + ["bridged"], dtype=object)
     table = table.assign(ground_m=ground.z, ground_bridged=ground.bridged,
-                         ground_band_m=accuracy_95(rmse))
+                         ground_band_m=accuracy_95(rmse), ground_source=names[ground.source])
     return table, notes
 
 

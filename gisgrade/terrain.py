@@ -692,11 +692,14 @@ def sample_ground(
                     "no ground data at stations " + _fmt_ranges(station, starts[sel], ends[sel])
                     + " (nodata at an end of the line cannot be bridged)"
                 )
-            sel = too_long
-            if sel.any():
+            sel = np.flatnonzero(too_long)
+            if sel.size:
+                k = sel[np.argmax(length[sel])]
                 msgs.append(
                     "no ground data at stations " + _fmt_ranges(station, starts[sel], ends[sel])
-                    + f" (gap longer than max_gap {max_gap:.1f} m)"
+                    + f" (gap longer than max_gap {max_gap:.1f} m: bridging from the valid "
+                    f"stations {station[before[k]]:.1f} to {station[after[k]]:.1f} m would span "
+                    f"{length[k]:.1f} m; raise terrain.max_gap or fill the DEM)"
                 )
             raise InputError(f"{key}: " + "; ".join(msgs))
         valid = ~invalid

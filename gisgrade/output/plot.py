@@ -24,6 +24,7 @@ from ..cautions import SHORT  # noqa: E402
 
 FT = 0.3048  # international foot, m (NIST SP 811)
 PSI = 6894.757293168361  # pound-force per square inch, Pa (NIST SP 811)
+ATMOSPHERE = 101325.0  # standard atmosphere, Pa (ISO 2533)
 
 #: Line styles of our own choosing; scenario lines cycle through SCENARIO_COLOURS.
 GROUND = dict(color="#7a5c3a", lw=1.2)
@@ -63,9 +64,16 @@ def plot_profile(result, path: Path) -> None:
     t = result.table
     s = t["station_m"].to_numpy()
     hydraulic = result.gradelines is not None
+    details = "top_m" in t.columns and len(result.crossings) > 0
     if hydraulic:
-        fig, (ax, axp) = plt.subplots(2, 1, figsize=(13, 7.5), sharex=True,
-                                      gridspec_kw=dict(height_ratios=[3, 1], hspace=0.08))
+        fig = plt.figure(figsize=(13, 10.5 if details else 7.5))
+        grid = fig.add_gridspec(3 if details else 2, 1, hspace=0.08 if not details else 0.3,
+                                height_ratios=[3, 1.1, 1.6] if details else [3, 1])
+        ax = fig.add_subplot(grid[0])
+        axp = fig.add_subplot(grid[1], sharex=ax)
+        ax.tick_params(labelbottom=False)
+        if details:
+            _crossing_details(fig, grid[2], result, k, zunit)
     else:
         fig, ax = plt.subplots(figsize=(13, 5))
         axp = ax
@@ -138,6 +146,15 @@ def _grade_lines(ax, axp, result, s, k) -> None:
         else:  # far above every pressure: say so rather than squash the strip
             axp.text(s[-1], top * 1.12, f"pipe rating {np.nanmin(rating):.0f} {punit} (off scale) ",
                      fontsize=7, ha="right", va="top", color="#5b2a86")
+    vacuum = -ATMOSPHERE / pa  # gauge pressure of a perfect vacuum at sea level
+    if np.nanmin(p_all) < vacuum:  # not reachable: say so, and keep the scale readable
+        axp.axhline(vacuum, color="#444444", lw=0.8)
+        axp.text(s[-1], vacuum, "vacuum: lower values are not achievable (column separation) ",
+                 fontsize=7, ha="right", va="bottom", color="#444444")
+        for line in axp.get_lines():
+            y = np.asarray(line.get_ydata(), dtype=float)
+            line.set_ydata(np.maximum(y, vacuum))
+        p_all = np.maximum(p_all, vacuum)
     bottom = min(float(np.nanmin(p_all)), 0.0)
     axp.set_ylim(bottom - 0.08 * (top - bottom), top + 0.15 * (top - bottom))
 
@@ -151,6 +168,50 @@ def _grade_lines(ax, axp, result, s, k) -> None:
     axp.set_ylabel(f"Pressure at axis ({punit})")
     axp.grid(True, lw=0.3, color="#cccccc")
     axp.legend(loc="upper left", bbox_to_anchor=(1.005, 1.0), fontsize=7, framealpha=0.9)
+
+
+#: Most crossings drawn in detail (those with the least spare clearance first).
+MAX_DETAILS = 5
+
+
+def _crossing_details(fig, cell, result, k: float, zunit: str) -> None:
+    """A close-up of each crossing, at a modest exaggeration, where the
+    clearance the profile sheet cannot show is drawn and dimensioned."""
+    from .layers import governing_point
+
+    c, t = result.crossings, result.table
+    s = t["station_m"].to_numpy()
+    clearance, governing, _ = governing_point(result)
+    order = np.argsort(clearance - c.clearance)[:MAX_DETAILS]
+    sub = cell.subgridspec(1, len(order), wspace=0.35)
+    reach = c.reach()
+    for n, i in enumerate(order):
+        ax = fig.add_subplot(sub[0, n])
+        spacing = float(np.median(np.diff(s))) if len(s) > 1 else 10.0
+        half = max(30.0, 4 * reach[i], 3 * spacing)
+        view = (s >= c.station[i] - half - spacing) & (s <= c.station[i] + half + spacing)
+        x = s[view] - c.station[i]
+        ax.plot(x, t["ground_m"].to_numpy()[view] * k, **GROUND)
+        ax.fill_between(x, t["invert_m"].to_numpy()[view] * k, t["top_m"].to_numpy()[view] * k,
+                        **PIPE_FILL)
+        w = max(2 * reach[i], 0.5)  # the feature's footprint along the line (0.5 m if a line)
+        height = c.size[i] if np.isfinite(c.size[i]) else 0.3
+        ax.add_patch(Rectangle((-w / 2, c.bottom[i] * k), w, height * k, facecolor="#d8d2c4",
+                               edgecolor="#222222", lw=0.8, hatch=None if np.isfinite(c.size[i])
+                               else "////"))
+        limit = (c.bottom[i] - c.clearance[i] if c.side[i] == "under"
+                 else c.top[i] + c.clearance[i])
+        ax.axhline(limit * k, color="#b8412c", lw=0.8, ls="--")
+        ax.set_xlim(-half, half)
+        ax.set_title(f"{c.name[i]} ({c.side[i]})", fontsize=7, loc="left")
+        ax.text(0.02, 0.03, f"clearance {clearance[i]:.2f} m\n(required {c.clearance[i]:.2f} m)",
+                transform=ax.transAxes, fontsize=7, color="#b8412c" if clearance[i] <
+                c.clearance[i] - 1e-6 else "#222222")
+        ax.tick_params(labelsize=6)
+        ax.set_xlabel("m from crossing", fontsize=7)
+        if n == 0:
+            ax.set_ylabel(f"Elevation ({zunit})", fontsize=7)
+        ax.grid(True, lw=0.3, color="#cccccc")
 
 
 def _crossings_and_bends(ax, result, s, k) -> None:
@@ -173,9 +234,11 @@ def _crossings_and_bends(ax, result, s, k) -> None:
         over = ~under & np.isfinite(c.top)
         ax.vlines(cs[over], c.top[over] * k, (c.top + c.clearance)[over] * k, color="#222222",
                   lw=2.5)
+        right = s[0] + 0.8 * (s[-1] - s[0])  # labels near the right edge read leftwards
         for x, z, name in zip(cs, c.bottom * k, c.name):
-            ax.annotate(str(name), (x, z), xytext=(3, -12), textcoords="offset points",
-                        fontsize=7, color="#222222")
+            ax.annotate(str(name), (x, z), xytext=(-3 if x > right else 3, -12),
+                        textcoords="offset points", fontsize=7, color="#222222",
+                        ha="right" if x > right else "left")
     if "min_cover_m" in t.columns and "cover_m" in t.columns:
         short = t["cover_m"].to_numpy() < t["min_cover_m"].to_numpy() - 1e-6
         if short.any():

@@ -80,6 +80,9 @@ def summarize(result) -> dict:
             "pressure_max_kpa": float(p_hi[j]), "pressure_max_station_m": float(s[j]),
             "hgl_start_m": float(g["hgl_m"].iloc[0]),
             "hgl_end_m": float(g["hgl_m"].iloc[-1]),
+            # False where the pressure falls below vapour pressure somewhere:
+            # the grade lines are then not physically reachable at this flow
+            "achievable": name not in out.get("column_separation", []),
         }
         case = cases.get(name, {})
         for key in ("source_head_m", "required_head_m", "pump_head_m", "end_head_m"):

@@ -9,7 +9,7 @@ PROFILE_COLUMNS = ["station_m", "x", "y", "ground_m", "top_m", "axis_m", "invert
 #: table so rows join on ``station_m``.
 STATION_DECIMALS = 4
 #: Columns appended to profile.csv when the stages produced them.
-EXTRA_PROFILE_COLUMNS = ["ground_band_m", "ground_bridged", "min_cover_m", "max_cover_m",
+EXTRA_PROFILE_COLUMNS = ["ground_band_m", "ground_bridged", "ground_source", "min_cover_m", "max_cover_m",
                          "upper_limit_m", "lower_limit_m", "deflection_deg",
                          "deflection_limit_deg", "reason"]
 #: gradelines.csv columns (stable; later issues append).
