@@ -646,6 +646,8 @@ def format_station(station_m, units: str = "SI", decimals: int = 2) -> np.ndarra
     ['12+50.00']
     >>> format_station([1500.0], decimals=0).tolist()
     ['1+500']
+    >>> format_station([-12.5, -0.004]).tolist()
+    ['-0+012.50', '0+000.00']
     """
     s = np.asarray(station_m, dtype=float)
     if str(units).upper() == "US":
@@ -655,7 +657,7 @@ def format_station(station_m, units: str = "SI", decimals: int = 2) -> np.ndarra
     scale = 10 ** decimals
     ticks = np.round(np.abs(value) * scale).astype(np.int64)
     major, minor = np.divmod(ticks, unit * scale)
-    sign = np.where(value < 0, "-", "")
+    sign = np.where((value < 0) & (ticks > 0), "-", "")
     width += decimals + (1 if decimals else 0)
     out = [f"{sg}{M}+{m / scale:0{width}.{decimals}f}" for sg, M, m in zip(sign, major, minor)]
     return np.asarray(out, dtype=object)
