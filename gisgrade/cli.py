@@ -18,9 +18,10 @@ from .errors import InputError
 DESCRIPTION = f"""\
 gisgrade sets out a new water main along a GIS centerline: the ground profile
 from a DEM, a pipe profile that keeps cover and passes crossings with
-clearance, the hydraulic and energy grade lines (HGL, EGL) for the design
-flow, and where pressure is too low, too high or below atmospheric. It writes
-tables (CSV), map layers (GeoPackage), a profile plot (PNG) and a summary.
+clearance at least excavation, the hydraulic and energy grade lines (HGL,
+EGL) for each demand scenario and the static case, and where pressure is too
+low, too high or below atmospheric. It writes tables (CSV), map layers
+(GeoPackage), a profile sheet (PNG) and a summary.
 
 {textwrap.fill("CAUTION: " + CAUTIONS, 78)}
 """
