@@ -11,11 +11,10 @@ import math
 
 import numpy as np
 import pytest
-from fluids.friction import Colebrook
-from scipy.optimize import brentq
+from fluids.friction import Colebrook, Swamee_Jain_1976
+from iapws import IAPWS95
 
 from gisgrade.hydraulics import friction as fr
-from gisgrade.hydraulics.water import density
 
 # Unit definitions (exact by definition: NIST SP 811).
 FT = 0.3048
@@ -47,19 +46,23 @@ def _colebrook_grid(Re, eD):
     return R, E, np.array([Colebrook(float(r), float(e)) for r, e in zip(R.ravel(), E.ravel())]).reshape(R.shape)
 
 
-def test_swamee_jain_accuracy():
+def test_swamee_jain_is_the_published_formula():
+    # fluids.friction.Swamee_Jain_1976 (reference implementation of Swamee &
+    # Jain 1976). fluids writes the 5.74/Re^0.9 term as (6.97/Re)^0.9, and
+    # 6.97^0.9 = 5.73997, so the two differ by up to 2e-6 relative; 5e-6.
+    R, E = np.meshgrid(np.geomspace(5e3, 1e8, 40), np.concatenate([[0.0], np.geomspace(1e-6, 1e-2, 21)]))
+    ref = np.array([Swamee_Jain_1976(float(r), float(e)) for r, e in zip(R.ravel(), E.ravel())])
+    np.testing.assert_allclose(fr.swamee_jain(R, E).ravel(), ref, rtol=5e-6)
+
+
+def test_swamee_jain_within_one_percent_of_colebrook():
     # Swamee & Jain 1976 state +-1 % of Colebrook for 5e3 <= Re <= 1e8,
     # 1e-6 <= eps/D <= 1e-2. Against the exact Colebrook solution (fluids
-    # Colebrook, Lambert W) that holds at 1 % for 1e4 <= Re <= 1e7 with
-    # eps/D <= 1e-3 ...
+    # Colebrook, Lambert W) the 1 % holds for 1e4 <= Re <= 1e7 with
+    # eps/D <= 1e-3 (outside that it reaches a few percent: the published
+    # claim is checked only where it holds).
     R, E, ref = _colebrook_grid(np.geomspace(1e4, 1e7, 40), np.concatenate([[0.0], np.geomspace(1e-6, 1e-3, 16)]))
     np.testing.assert_allclose(fr.swamee_jain(R, E), ref, rtol=0.01)
-    # ... and over the whole stated range the largest deviation is 2.8 %, at
-    # Re = 5e3, eps/D = 1e-2 (the figure docs/hydraulics.md gives).
-    R, E, ref = _colebrook_grid(np.geomspace(5e3, 1e8, 40), np.concatenate([[0.0], np.geomspace(1e-6, 1e-2, 21)]))
-    err = np.abs(fr.swamee_jain(R, E) / ref - 1)
-    assert 0.027 < err.max() < 0.029
-    assert R.ravel()[err.argmax()] == 5e3 and E.ravel()[err.argmax()] == pytest.approx(1e-2)
 
 
 def test_laminar_is_hagen_poiseuille():
@@ -120,52 +123,57 @@ def test_velocity_head_uses_standard_gravity():
     assert fr.velocity_head(2.0) == 4.0 / 19.6133
 
 
-def test_white_type_2_problem():
-    # White, F. M., Fluid Mechanics, McGraw-Hill, chapter 6, the "type 2"
-    # (find the flow) example: oil rho = 950 kg/m3, nu = 2e-5 m2/s, d = 30 cm,
-    # L = 100 m, head loss 8 m, eps/d = 0.0002; answer V = 4.84 m/s,
-    # Q = 0.342 m3/s (from memory; example number differs between editions).
-    nu, d, L = 2e-5, 0.30, 100.0
-
-    def resid(V):
-        Re = fr.reynolds(V, d, 1.0, nu)  # rho/mu = 1/nu
-        return fr.darcy_head_loss(L, d, V, fr.friction_factor(Re, 2e-4)) - 8.0
-
-    V = brentq(resid, 0.1, 20.0, xtol=1e-12)
-    assert V == pytest.approx(4.84, abs=0.005)
-    assert V * math.pi * d**2 / 4 == pytest.approx(0.342, abs=0.0005)
-
-
 def test_hazen_williams_si_vs_nfpa13_psi_per_ft():
-    # NFPA 13 form: p = 4.52 Q^1.85/(C^1.85 d^4.87) psi/ft (gpm, in). Convert our
-    # SI head loss per metre to psi/ft with water at 60 degF (the US form's
-    # basis, common practice) density from Tanaka et al. Agreement within
-    # ~1 %, the spread of the rounded constants and exponents.
-    rho = density((60.0 - 32.0) / 1.8 + 273.15)
-    q = np.array([50.0, 200.0, 500.0, 1000.0, 2500.0, 5000.0])
-    d = np.array([2.0, 4.0, 6.065, 8.0, 12.0, 16.0])
+    # NFPA 13 (Standard for the Installation of Sprinkler Systems), hydraulic
+    # calculation chapter: p = 4.52 Q^1.85 / (C^1.85 d^4.87) psi per foot, Q in
+    # US gpm, d in inches (formula from memory; the section number changes
+    # between editions). Our SI head loss per metre is turned into psi/ft with
+    # water at 60 degF (the US form's basis, common practice) from IAPWS-95
+    # (iapws) and the exact unit definitions above. The rounded constants and
+    # exponents of the two forms differ by at most 0.85 % over 10-5000 gpm and
+    # 1-24 in, so 1 %.
+    rho = IAPWS95(T=(60.0 - 32.0) / 1.8 + 273.15, P=0.101325).rho
+    q = np.geomspace(10.0, 5000.0, 40)[:, None]
+    d = np.geomspace(1.0, 24.0, 40)[None, :]
     for c in (100.0, 120.0, 140.0, 150.0):
         h_per_m = fr.hazen_williams_head_loss(1.0, q * GPM, d * INCH, c)
         psi_per_ft = h_per_m * rho * fr.G / PSI * FT
-        np.testing.assert_allclose(psi_per_ft, fr.hazen_williams_psi_per_ft(q, c, d), rtol=0.01)
+        nfpa = 4.52 * q**1.85 / (c**1.85 * d**4.87)
+        np.testing.assert_allclose(psi_per_ft, nfpa, rtol=0.01)
+    # Our US helper is the same formula (exact transcription check).
+    np.testing.assert_allclose(fr.hazen_williams_psi_per_ft(q, 120.0, d), 4.52 * q**1.85 / (120.0**1.85 * d**4.87),
+                               rtol=1e-14)
 
 
 def test_hazen_williams_si_vs_original_velocity_form():
     # Williams & Hazen (1920): V = k C R^0.63 S^0.54 with k = 0.849 in SI
     # (R = D/4 hydraulic radius, S = friction slope). Inverting gives
-    # S = (V/(0.849 C R^0.63))^(1/0.54); agreement within ~1 % (the SI
-    # constant and exponents are rounded from this form).
-    Q = np.array([0.01, 0.05, 0.1, 0.5])
-    D = np.array([0.1, 0.2, 0.3, 0.6])
-    C = 130.0
-    V = Q / (math.pi * D**2 / 4)
-    S_ref = (V / (0.849 * C * (D / 4) ** 0.63)) ** (1 / 0.54)
-    np.testing.assert_allclose(fr.hazen_williams_head_loss(1.0, Q, D, C), S_ref, rtol=0.01)
+    # S = (V/(0.849 C R^0.63))^(1/0.54). The SI head-loss form rounds its
+    # constant and exponents from this one; over 1 L/s-2 m3/s and 50 mm-1.5 m
+    # the two differ by 0.08-0.22 %, so 0.25 % (a 0.66 % change of the SI
+    # constant, 10.67 -> 10.60, fails).
+    Q = np.geomspace(1e-3, 2.0, 40)[:, None]
+    D = np.geomspace(0.05, 1.5, 40)[None, :]
+    for C in (80.0, 100.0, 130.0, 150.0):
+        V = Q / (math.pi * D**2 / 4)
+        S_ref = (V / (0.849 * C * (D / 4) ** 0.63)) ** (1 / 0.54)
+        np.testing.assert_allclose(fr.hazen_williams_head_loss(1.0, Q, D, C), S_ref, rtol=2.5e-3)
 
 
-def test_hazen_williams_handbook_example():
-    # engineeringtoolbox.com, "Hazen-Williams friction loss equation" example:
-    # 200 gpm in 3.048 in ID PE pipe, C = 140 -> about 9 ft per 100 ft
-    # (their US constant 0.2083 and exponent 4.8655; answer rounded to 1 ft).
-    h = fr.hazen_williams_head_loss(100.0, 200 * GPM, 3.048 * INCH, 140.0)  # m per 100 m = ft per 100 ft
-    assert h == pytest.approx(9.0, abs=0.5)
+def test_hazen_williams_vs_us_form_in_ft_per_100_ft():
+    # The US form given by engineeringtoolbox.com ("Hazen-Williams Equation -
+    # calculating Friction Head Loss in Water Pipes", from memory):
+    # f = 0.2083 (100/C)^1.852 q^1.852 / d^4.8655 ft per 100 ft, q in US gpm,
+    # d in inches; their example, 200 gpm in 3.048 in pipe at C = 140, is
+    # "about 9 ft per 100 ft". Our SI form in m per 100 m (= ft per 100 ft)
+    # differs by 0.9-1.9 % over 10-2000 gpm and 1-8 in (the diameter exponent
+    # 4.8655 vs 4.8704), so 2 %.
+    def us_form(q, c, d):
+        return 0.2083 * (100.0 / c) ** 1.852 * q**1.852 / d**4.8655
+
+    assert us_form(200.0, 140.0, 3.048) == pytest.approx(9.0, abs=0.05)  # their example answer
+    q = np.geomspace(10.0, 2000.0, 30)[:, None]
+    d = np.geomspace(1.0, 8.0, 30)[None, :]
+    for c in (100.0, 140.0):
+        h = fr.hazen_williams_head_loss(100.0, q * GPM, d * INCH, c)
+        np.testing.assert_allclose(h, us_form(q, c, d), rtol=0.02)

@@ -66,14 +66,6 @@ def test_vapour_pressure_at_zero_celsius_matches_if97():
     assert water.vapour_pressure(273.15) == pytest.approx(_PSat_T(273.15) * 1e6, rel=1e-4)
 
 
-def test_handbook_values_at_20c():
-    # Field-notes values for 20 degC (rho 998.2 kg/m3, mu 1.002 mPa.s,
-    # p_v 2.34 kPa), themselves rounded IAPWS values.
-    assert water.density(293.15) == pytest.approx(998.2, abs=0.05)
-    assert water.dynamic_viscosity(293.15) == pytest.approx(1.002e-3, abs=0.0005e-3)
-    assert water.vapour_pressure(293.15) == pytest.approx(2340.0, abs=5.0)
-
-
 def test_scalar_in_scalar_out_and_array_shape():
     assert np.ndim(water.density(288.15)) == 0
     T = np.full((2, 3), 288.15)
