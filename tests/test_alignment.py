@@ -27,10 +27,11 @@ def test_stations_hold_spacing_vertices_and_end():
 
 
 def test_geographic_line_is_stationed_in_utm_and_matches_the_geodesic(tmp_path):
-    # Reference: pyproj.Geod (Karney 2013 geodesics on WGS 84). Over a few km
-    # the UTM grid length differs from the ground length only by the point
-    # scale factor, k0 = 0.9996 at the central meridian, rising to about
-    # 1.0010 at the zone edge (DMA TM 8358.2, 1989).
+    # Reference: pyproj.Geod (Karney 2013 geodesics on WGS 84). The UTM grid
+    # length is the geodesic length times the point scale factor, integrated
+    # along the line: each of many short geodesic pieces times PROJ's own scale
+    # factor at its midpoint (pyproj.Proj.get_factors; UTM is conformal, so
+    # the meridional scale is the scale in every direction).
     lonlat = [(8.30, 47.00), (8.33, 47.01), (8.36, 47.00), (8.40, 47.02)]
     path = write_lines(tmp_path / "geo.geojson", [lonlat], crs="EPSG:4326")
     line = al.read_alignment(path)
@@ -38,7 +39,13 @@ def test_geographic_line_is_stationed_in_utm_and_matches_the_geodesic(tmp_path):
     lon, lat = zip(*lonlat)
     geod = pyproj.Geod(ellps="WGS84").line_length(lon, lat)
     assert line.geodesic_length == pytest.approx(geod, rel=1e-9)
-    assert 0.9996 - 1e-5 < line.length / geod < 1.0010
+    g = pyproj.Geod(ellps="WGS84")
+    pts = np.vstack([np.array([(a[0], a[1])] + g.npts(*a, *b, 400) + [(b[0], b[1])])[:-1]
+                     for a, b in zip(lonlat[:-1], lonlat[1:])] + [np.array([lonlat[-1]])])
+    az, _, piece = g.inv(pts[:-1, 0], pts[:-1, 1], pts[1:, 0], pts[1:, 1])
+    mlon, mlat, _ = g.fwd(pts[:-1, 0], pts[:-1, 1], az, piece / 2)
+    k = pyproj.Proj("EPSG:32632").get_factors(mlon, mlat).meridional_scale
+    assert line.length == pytest.approx(np.sum(piece * k), rel=1e-9)
 
 
 def test_reverse_turns_the_line(tmp_path):
@@ -158,3 +165,22 @@ def test_features_join_in_file_order_whatever_their_digitized_direction(tmp_path
     xy = line.coords - [500000.0, 4649000.0]
     assert xy.tolist() == [[0.0, 0.0], [100.0, 0.0], [200.0, 0.0], [300.0, 50.0]]
     assert any("in file order" in n for n in line.notes)
+
+
+@pytest.mark.parametrize("lon, lat", [(8.3, 85.0), (-122.3, -85.0), (179.9, 86.0), (-3.0, 84.5)])
+def test_utm_fallback_beyond_the_database_zones(lon, lat):
+    # North of 84 N and south of 80 S the CRS database holds no UTM zone
+    # (checked here, so the fallback really runs); the fallback is the WGS 84
+    # zone by the UTM numbering, zone = floor((lon + 180) / 6) + 1, EPSG 32600
+    # + zone north, 32700 + zone south (EPSG registry; DMA TM 8358.2, from memory).
+    from pyproj.aoi import AreaOfInterest
+    from pyproj.database import query_utm_crs_info
+
+    assert query_utm_crs_info(datum_name="WGS 84",
+                              area_of_interest=AreaOfInterest(lon, lat, lon, lat)) == []
+    crs = al.working_crs(pyproj.CRS("EPSG:4326"), lon, lat)
+    zone = math.floor((lon + 180.0) / 6.0) + 1
+    assert crs.to_epsg() == (32600 if lat >= 0 else 32700) + zone
+    # and the zone's central meridian (PROJ's own parameters) is within 3 deg of the line
+    cm = {p.name: p.value for p in crs.coordinate_operation.params}["Longitude of natural origin"]
+    assert abs(lon - cm) <= 3.0

@@ -291,6 +291,7 @@ def test_two_crossings_at_one_station_that_cannot_both_hold():
     (dict(min_cover=1.0), Crossing(100.0, 95.0, 0.3, side="beside", name="odd"), "odd"),
 ])
 def test_bad_rules_name_the_culprit(kw, crossing, word):
+    # Requirement (issue 2): bad input is an InputError naming the key or value
     s, ground = flat_line()
     with pytest.raises(InputError, match=word):
         design_profile(s, ground, [crossing] if crossing else [], DesignRules(**kw))

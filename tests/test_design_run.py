@@ -56,7 +56,9 @@ minimum_field = "cover"
     far = (np.abs(s - 402.5) > 60) & (np.abs(s - 611.25) > 60)
     assert np.allclose(t["cover_m"][inside & far], 1.8, atol=1e-6)
     assert np.allclose(t["cover_m"][~inside & far], 1.2, atol=1e-6)
-    assert (t["cover_m"] >= t["min_cover_m"] - 1e-6).all()
+    # every station keeps the zone's own minimum, cover recomputed from the
+    # exact DEM value (flat 100 m) and the top of pipe (exact by construction)
+    assert (100.0 - t["top_m"] >= np.where(inside, 1.8, 1.2) - 1e-6).all()
 
 
 def test_crossing_by_depth_and_size_and_passing_over(tmp_path):
@@ -147,8 +149,55 @@ clearance = "0.3 m"
         at = np.isclose(st, s, atol=1e-9)
         assert at.sum() == 1
         assert top[at][0] <= 97.0 - 0.3 + 1e-6
+    # achieved clearance: the least of bottom - top of pipe at the centre and at
+    # both edges (plane geometry), from the top of pipe alone
     from gisgrade.output.layers import clearance_achieved
-    assert clearance_achieved(r)[0] >= 0.3 - 1e-6
+    least = min(97.0 - np.interp(s, st, top) for s in (497.0, 500.0, 503.0))
+    assert clearance_achieved(r)[0] == pytest.approx(least, abs=1e-9)
+    assert least >= 0.3 - 1e-6
+
+
+def plane_site(folder, extra, crossings, grade):
+    """Ground rising east at ``grade`` from 100 m at the line's start: a plane
+    sampled at cell centres comes back exactly (bilinear, exact for a plane)."""
+    xc = 500_000.0 + 10.0 * np.arange(200) + 5.0
+    write_dem(folder / "dem.tif", np.tile(100.0 + grade * (xc - X0), (200, 1)), dtype="float64")
+    write_lines(folder / "line.geojson", [[(X0, Y), (X0 + 1000.0, Y)]])
+    write_lines(folder / "x.geojson", [c[0] for c in crossings], props=[c[1] for c in crossings])
+    (folder / "project.toml").write_text(BASE + extra)
+    return folder / "project.toml"
+
+
+def test_over_a_wide_feature_on_a_slope_the_downhill_edge_governs(tmp_path):
+    import pyogrio
+
+    extra = """
+[[crossings]]
+path = "x.geojson"
+bottom_field = "bottom"
+size_field = "height"
+width_field = "width"
+side = "over"
+clearance = "0.3 m"
+"""
+    # Ground rises 5 % east; a 3 m wide duct bank (bottom 121.0 m, 0.2 m tall)
+    # crossed at 30 deg spans stations 497-503 ((3/2)/sin 30 = 3 m, plane
+    # geometry). Nothing else binds: the pipe lies at minimum cover, top =
+    # 98.8 + 0.05 s (exact), so its bottom is lowest over the feature at the
+    # downhill edge, 497 m: clearance 98.8 + 0.05 x 497 - 0.32 - 121.2 = 2.13 m.
+    t30 = np.tan(np.radians(30))
+    xing = [([(X0 + 500 - 40, Y - 40 * t30), (X0 + 500 + 40, Y + 40 * t30)],
+             {"bottom": 121.0, "height": 0.2, "width": 3.0, "name": "duct bank"})]
+    r = run(plane_site(tmp_path, extra, xing, 0.05), tmp_path / "o")
+    st, top = r.table["station_m"].to_numpy(), r.table["top_m"].to_numpy()
+    np.testing.assert_allclose(top, 98.8 + 0.05 * st, atol=1e-6)
+    layer = pyogrio.read_dataframe(tmp_path / "o" / "layers.gpkg", layer="crossings")
+    assert layer["side"].tolist() == ["over"]
+    assert layer["clearance_achieved_m"].iloc[0] == pytest.approx(98.8 + 0.05 * 497 - 0.32 - 121.2,
+                                                                  abs=1e-6)
+    assert layer["governing_station_m"].iloc[0] == pytest.approx(497.0, abs=1e-9)
+    # the layer reports the angle the feature was drawn at (30 deg, plane geometry)
+    assert layer["angle_deg"].iloc[0] == pytest.approx(30.0, abs=1e-9)
 
 
 def test_a_relaxed_rule_is_found_at_its_worst_station(tmp_path):
@@ -170,3 +219,119 @@ clearance = "0.3 m"
     assert len(rows) == 1
     assert rows["worst_station_m"].iloc[0] == pytest.approx(500.0)
     assert rows["worst_value"].iloc[0] == pytest.approx(6.3, abs=1e-6)
+
+
+def test_written_tables_limits_reasons_summary_earthwork(tmp_path):
+    import pandas as pd
+
+    extra = """
+[[crossings]]
+path = "x.geojson"
+bottom_field = "bottom"
+clearance = "0.3 m"
+
+[[crossings]]
+path = "x2.geojson"
+bottom_field = "bottom"
+size = "0.2 m"
+side = "over"
+clearance = "0.3 m"
+"""
+    project = flat_site(tmp_path, extra, crossings=[([(X0 + 500, Y - 20), (X0 + 500, Y + 20)],
+                                                     {"bottom": 95.0, "name": "culvert"})])
+    write_lines(tmp_path / "x2.geojson", [[(X0 + 850, Y - 20), (X0 + 850, Y + 20)]],
+                props=[{"bottom": 94.8, "name": "tunnel"}])
+    r = run(project, tmp_path / "o")
+    prof = pd.read_csv(tmp_path / "o" / "profile.csv").set_index("station_m")
+    # Limits on the top of pipe (exact arithmetic): the minimum-cover line
+    # 100 - 1.2 everywhere; under the culvert its bottom - clearance; over the
+    # tunnel its top + clearance + outside diameter, 94.8 + 0.2 + 0.3 + 0.32;
+    # no max cover, so no lower limit elsewhere.
+    assert prof.loc[500.0, "upper_limit_m"] == pytest.approx(95.0 - 0.3, abs=1e-4)
+    assert prof.loc[500.0, "reason"] == "crossing culvert"
+    # (a feature of unknown width is taken as wide as it is tall: 0.2 m, so
+    # its footprint spans 849.9-850.1; documented rule)
+    footprint = [849.9, 850.0, 850.1]
+    np.testing.assert_allclose(prof.loc[footprint, "lower_limit_m"], 94.8 + 0.2 + 0.3 + 0.32,
+                               atol=1e-4)
+    others = ~prof.index.isin([500.0] + footprint)
+    np.testing.assert_allclose(prof.loc[others, "upper_limit_m"], 98.8, atol=1e-4)
+    assert prof.loc[others, "lower_limit_m"].isna().all()
+    # Earthwork in the summary, by definition: trench below the minimum-cover
+    # line = sum of trench width x depth below that line x tributary length
+    # (half of each neighbouring interval), trench width = outside diameter +
+    # 0.6 m (common practice default, docs/design.md); pipe length in 3D =
+    # sum of the straight pieces' lengths (Pythagoras).
+    summary = json.loads((tmp_path / "o" / "summary.json").read_text())
+    s, top = r.table["station_m"].to_numpy(), r.table["top_m"].to_numpy()
+    h = np.diff(s)
+    tributary = np.r_[h, 0.0] / 2 + np.r_[0.0, h] / 2
+    assert (98.8 - top).max() > 1.0  # the culvert's dip digs: the check has teeth
+    assert summary["excavation_m3"] == pytest.approx(
+        np.sum(0.92 * tributary * np.maximum(98.8 - top, 0.0)), rel=1e-9)
+    assert summary["pipe_length_3d_m"] == pytest.approx(np.sum(np.hypot(h, np.diff(top))), rel=1e-12)
+
+
+def nodata_site(folder, cols, extra=""):
+    """Flat 100 m ground with nodata in row 99, columns ``cols``. The line
+    y = Y runs on the boundary between rows 99 and 100 (their centres are 5 m
+    either side), so bilinear sampling there touches both rows; it touches
+    column j for cell-centre x of column j-1 < x < centre of column j+1."""
+    z = np.full((200, 200), 100.0)
+    z[99, cols] = -9999.0
+    write_dem(folder / "dem.tif", z, nodata=-9999.0)
+    write_lines(folder / "line.geojson", [[(X0, Y), (X0 + 1000.0, Y)]])
+    (folder / "project.toml").write_text(BASE.replace('dem = "dem.tif"', 'dem = "dem.tif"' + extra))
+    return folder / "project.toml"
+
+
+def test_ground_bridged_exactly_where_the_stencil_meets_nodata(tmp_path):
+    import pandas as pd
+
+    # One nodata cell, column 60 (centre x = 500605): stations with
+    # 500595 < X0 + s < 500615, i.e. 495 < s < 515: 500, 505, 510 (5 m spacing).
+    # The gap between valid stations 495 and 515 is 20 m, within the default
+    # max_gap of 3 cells (30 m), so it is bridged: flat ground, bridged exactly.
+    r = run(nodata_site(tmp_path, [60]), tmp_path / "o")
+    prof = pd.read_csv(tmp_path / "o" / "profile.csv")
+    assert prof.loc[prof["ground_bridged"], "station_m"].tolist() == [500.0, 505.0, 510.0]
+    np.testing.assert_allclose(prof["ground_m"], 100.0, atol=1e-9)
+    assert r.summary["ground_bridged_stations"] == 3
+
+
+def test_max_gap_from_the_project_file(tmp_path):
+    from gisgrade.errors import InputError
+
+    # Three nodata cells, columns 60-62: stations 500-530 (495 < s < 535); the
+    # gap from 495 to 535 is 40 m, longer than the default 30 m: an error ...
+    with pytest.raises(InputError, match="max_gap 30.0 m"):
+        run(nodata_site(tmp_path, [60, 61, 62]), write=False)
+    # ... which terrain.max_gap = 45 m turns into bridging, exactly there
+    r = run(nodata_site(tmp_path, [60, 61, 62], '\nmax_gap = "45 m"'), write=False)
+    t = r.table
+    assert t.loc[t["ground_bridged"], "station_m"].tolist() == [500.0, 505.0, 510.0, 515.0, 520.0,
+                                                                  525.0, 530.0]
+    # and a max_gap below the one-cell gap (20 m) refuses even that
+    with pytest.raises(InputError, match="max_gap 15.0 m"):
+        run(nodata_site(tmp_path, [60], '\nmax_gap = "15 m"'), write=False)
+
+
+def test_cover_findings_where_the_pipe_has_too_little_cover(tmp_path):
+    from gisgrade.pipeline import stage_findings
+
+    # The findings stage on a designed table whose pipe is lifted 0.5 m from
+    # station 300 to 320: cover there is 100 - (98.8 + 0.5) = 0.7 m, short of
+    # the 1.2 m minimum (exact arithmetic); elsewhere it is kept.
+    r = run(flat_site(tmp_path), write=False)
+    t = r.table.copy()
+    lift = (t["station_m"] >= 300.0) & (t["station_m"] <= 320.0)
+    t.loc[lift, "top_m"] += 0.5
+    t["cover_m"] = 100.0 - t["top_m"]
+    found = stage_findings(r.project, t, r.gradelines, [])
+    cover = found[found["check"] == "cover"]
+    assert len(cover) == 1
+    row = cover.iloc[0]
+    assert (row["from_station_m"], row["to_station_m"]) == (300.0, 320.0)
+    assert row["worst_value"] == pytest.approx(0.7, abs=1e-9)
+    assert row["limit"] == 1.2
+    assert not (r.findings["check"] == "cover").any()  # the designed pipe keeps its cover

@@ -93,3 +93,22 @@ def test_profile_command_writes_ground_outputs(routes):
     # (NSSDA, FGDC-STD-007.3-1998).
     assert summary["ground_band_95_m"] == pytest.approx(1.96 * 3.0)
     assert any("vertical_accuracy not given" in n for n in summary["notes"])
+
+
+def test_summary_geodesic_length_of_a_lon_lat_line(tmp_path):
+    import pyproj
+
+    # Reference: pyproj.Geod line length on WGS 84 (Karney 2013); the summary
+    # gives it to the millimetre. The grid length in UTM differs by the scale
+    # factor (about 0.9996 here), far more than that.
+    lonlat = [(8.30, 47.00), (8.33, 47.01), (8.36, 47.00), (8.40, 47.02)]
+    write_dem(tmp_path / "dem.tif", np.full((40, 120), 400.0), x0=8.29, y0=47.03, cell=0.001,
+              crs="EPSG:4326")
+    write_lines(tmp_path / "line.geojson", [lonlat], crs="EPSG:4326")
+    (tmp_path / "project.toml").write_text(
+        '[alignment]\npath = "line.geojson"\nspacing = "50 m"\n\n[terrain]\ndem = "dem.tif"\n')
+    s = run_ground(tmp_path / "project.toml", write=False).summary
+    lon, lat = zip(*lonlat)
+    geod = pyproj.Geod(ellps="WGS84").line_length(lon, lat)
+    assert s["geodesic_length_m"] == pytest.approx(geod, abs=5e-4)
+    assert abs(s["length_m"] - geod) > 1.0  # grid and ground lengths differ: the check has teeth

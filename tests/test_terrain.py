@@ -82,8 +82,9 @@ def test_vertical_units_definitions():
     assert VERTICAL_UNITS["m"] == 1.0
     assert VERTICAL_UNITS["ft"] == 0.3048
     assert VERTICAL_UNITS["us-ft"] == 1200 / 3937
-    for alias in ("metre", "Meter", "foot", "feet"):
-        assert vertical_unit_factor(alias) in (1.0, 0.3048)
+    # each alias its own factor (NIST SP 811, App. B: metre; foot = 0.3048 m exactly)
+    for alias, factor in (("metre", 1.0), ("Meter", 1.0), ("foot", 0.3048), ("feet", 0.3048)):
+        assert vertical_unit_factor(alias) == factor, alias
     for alias in ("us_survey_foot", "ftUS", "US survey foot", "us-ft"):
         assert vertical_unit_factor(alias) == 1200 / 3937
 
@@ -94,6 +95,8 @@ def test_vertical_unit_unknown_names_key_and_value():
 
 
 def test_resolve_dem_paths(tmp_path):
+    # Requirement (issue 3): a DEM is one file or several tiles (a list, or a
+    # folder/glob); a folder lists its rasters in name order (our documented rule).
     t = from_origin(0, 10, 1, 1)
     d = tmp_path / "tiles"
     d.mkdir()
@@ -211,7 +214,12 @@ def test_plane_exact_rotated_geotransform(tmp_path, method):
 
 
 @pytest.mark.parametrize("method", ["bilinear", "bicubic"])
-def test_plane_geographic_dem_utm_stations(tmp_path, method):
+@pytest.mark.parametrize(
+    "unit,factor",
+    # NIST Handbook 44 App. C: 1 ft = 0.3048 m, 1 US survey ft = 1200/3937 m.
+    [("m", 1.0), ("ft", 0.3048), ("us-ft", 1200 / 3937)],
+)
+def test_plane_geographic_dem_utm_stations(tmp_path, method, unit, factor):
     # A DEM in EPSG:4326 with values linear in lon/lat is a plane in the DEM's own
     # coordinates: exact. Stations are given in UTM 33N; pyproj gives their lon/lat.
     t = from_origin(15.0, 36.01, 0.0005, 0.0005)  # ~50 m cells near 36 N
@@ -221,11 +229,11 @@ def test_plane_geographic_dem_utm_stations(tmp_path, method):
     def f(lo, la):
         return 120.0 + 800.0 * (lo - 15.0) - 1500.0 * (la - 36.0)
 
-    write_dem(tmp_path / "geo.tif", f(lon, lat), t, crs="EPSG:4326")
+    write_dem(tmp_path / "geo.tif", f(lon, lat) / factor, t, crs="EPSG:4326")
     rng = np.random.default_rng(7)
     plon, plat = random_points_in(t, shape, 200, rng, margin=0.01)
     ux, uy = Transformer.from_crs("EPSG:4326", UTM33, always_xy=True).transform(plon, plat)
-    prof = sample_ground([tmp_path / "geo.tif"], ux, uy, UTM33, method=method)
+    prof = sample_ground([tmp_path / "geo.tif"], ux, uy, UTM33, vertical_unit=unit, method=method)
     # Round trip UTM -> lon/lat is exact to ~1e-11 deg; 1500 m/deg * 1e-11 deg << 1e-6 m.
     np.testing.assert_allclose(prof.z, f(plon, plat), rtol=0, atol=1e-6)
     # Cell size in metres: the east-west cell width at the stations' latitude, from
@@ -240,7 +248,8 @@ def test_plane_geographic_dem_utm_stations(tmp_path, method):
     "kind,unit,factor",
     # NIST Handbook 44 App. C: 1 ft = 0.3048 m, 1 US survey ft = 1200/3937 m.
     [("projected", "m", 1.0), ("projected", "ft", 0.3048), ("projected", "us-ft", 1200 / 3937),
-     ("geographic", "m", 1.0)],
+     ("geographic", "m", 1.0), ("geographic", "ft", 0.3048),
+     ("geographic", "us-ft", 1200 / 3937)],
 )
 def test_paraboloid_within_bilinear_error_bound(tmp_path, kind, unit, factor):
     # Linear interpolation error <= h^2/8 * max|f''| (Burden & Faires, Thm 3.3, n = 1);
@@ -462,6 +471,8 @@ def test_reads_only_windows_along_the_line(tmp_path, monkeypatch):
 
 
 def test_default_station_and_profile_type(tmp_path):
+    # Requirement (issue 3): nodata gaps up to terrain.max_gap, default a few
+    # cells (3 cells: our documented default, common practice), are bridged.
     path, t, shape = _plane_dem(tmp_path)
     x = np.array([500010.0, 500013.0, 500013.0 + 4.0])
     y = np.array([4000010.0, 4000014.0, 4000014.0])
