@@ -182,9 +182,13 @@ def stage_design(project: Project, table: pd.DataFrame, crossings: al.Crossings)
     od = _column(table, "outside_diameter_m", pipe.outside_diameter)  # per station (sections)
     # "over" only where cover permits: passing above must leave the pipe's top
     # under the minimum-cover line; otherwise the pipe passes under (noted in run)
-    cover_line = ground_at - np.interp(crossings.station, station, table["min_cover_m"])
-    blocked = (crossings.side == "over") & (
-        top + crossings.clearance + np.interp(crossings.station, station, od) > cover_line + 1e-9)
+    # (checked at the centre and at both edges of a wide feature's footprint)
+    reach = crossings.reach()
+    points = np.stack([crossings.station - reach, crossings.station, crossings.station + reach])
+    cover_line = (np.interp(points, station, ground)
+                  - np.interp(points, station, table["min_cover_m"])).min(axis=0)
+    od_at = np.interp(points, station, od).max(axis=0)
+    blocked = (crossings.side == "over") & (top + crossings.clearance + od_at > cover_line + 1e-9)
     if blocked.any():
         crossings = replace(crossings, side=np.where(blocked, "under", crossings.side).astype(object))
     # a wide feature holds its limit over its whole footprint: at its centre

@@ -335,3 +335,34 @@ def test_cover_findings_where_the_pipe_has_too_little_cover(tmp_path):
     assert row["worst_value"] == pytest.approx(0.7, abs=1e-9)
     assert row["limit"] == 1.2
     assert not (r.findings["check"] == "cover").any()  # the designed pipe keeps its cover
+
+
+def test_over_a_wide_feature_only_where_cover_permits_across_its_footprint(tmp_path):
+    # A 10 m wide duct bank crossed square at station 500 on ground falling 5 %
+    # (plane geometry, exact): ground 75.0 m at its centre, 74.75 m at its
+    # downhill edge (505), so the 1.2 m cover line is 73.8 m there and 73.55 m
+    # at the edge. Passing over needs the top of pipe at feature top 73.08 +
+    # clearance 0.3 + OD 0.32 = 73.70 m: it fits at the centre, not at the
+    # edge, so the pipe must pass under (top <= 72.78 - 0.3 over the whole
+    # footprint), with a note and no rule giving way.
+    extra = """
+[[crossings]]
+path = "x.geojson"
+bottom_field = "bottom"
+size = "0.3 m"
+width = "10 m"
+side = "over"
+clearance = "0.3 m"
+"""
+    project = flat_site(tmp_path, extra,
+                        crossings=[([(X0 + 500, Y - 20), (X0 + 500, Y + 20)], {"bottom": 72.78})])
+    cols = np.arange(200) * 10.0 + 5.0 + 500_000.0  # cell-centre x of the conftest grid
+    write_dem(tmp_path / "dem.tif", np.tile(100.0 - 0.05 * (cols - X0), (200, 1)), dtype="float64")
+    r = run(project, write=False)
+    assert r.crossings.side.tolist() == ["under"]
+    assert any("passing over it would leave less than the minimum cover" in n
+               for n in r.summary["notes"])
+    assert not r.relaxations
+    st, top = r.table["station_m"].to_numpy(), r.table["top_m"].to_numpy()
+    foot = (st >= 495 - 1e-9) & (st <= 505 + 1e-9)
+    assert (top[foot] <= 72.78 - 0.3 + 1e-6).all()
