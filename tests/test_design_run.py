@@ -130,6 +130,12 @@ max_joint_deflection = "0 deg"
     assert top_at[500.0] <= 95.0 - 0.3 + 1e-6
 
 
+def skewed_at_500(props):
+    """One crossed feature drawn at 30 degrees to the line through station 500."""
+    t30 = np.tan(np.radians(30))
+    return [([(X0 + 500 - 40, Y - 40 * t30), (X0 + 500 + 40, Y + 40 * t30)], props)]
+
+
 def test_a_wide_feature_is_cleared_over_its_whole_footprint(tmp_path):
     extra = """
 [[crossings]]
@@ -140,9 +146,7 @@ clearance = "0.3 m"
 """
     # A 3 m wide box culvert crossed at 30 degrees: the pipe runs (3/2)/sin 30 = 3 m
     # either side of the crossing point beneath it (plane geometry, exact).
-    t30 = np.tan(np.radians(30))
-    xing = [([(X0 + 500 - 40, Y - 40 * t30), (X0 + 500 + 40, Y + 40 * t30)],
-             {"bottom": 97.0, "width": 3.0})]
+    xing = skewed_at_500({"bottom": 97.0, "width": 3.0})
     r = run(flat_site(tmp_path, extra, crossings=xing), write=False)
     st, top = r.table["station_m"].to_numpy(), r.table["top_m"].to_numpy()
     for s in (497.0, 500.0, 503.0):
@@ -185,9 +189,7 @@ clearance = "0.3 m"
     # geometry). Nothing else binds: the pipe lies at minimum cover, top =
     # 98.8 + 0.05 s (exact), so its bottom is lowest over the feature at the
     # downhill edge, 497 m: clearance 98.8 + 0.05 x 497 - 0.32 - 121.2 = 2.13 m.
-    t30 = np.tan(np.radians(30))
-    xing = [([(X0 + 500 - 40, Y - 40 * t30), (X0 + 500 + 40, Y + 40 * t30)],
-             {"bottom": 121.0, "height": 0.2, "width": 3.0, "name": "duct bank"})]
+    xing = skewed_at_500({"bottom": 121.0, "height": 0.2, "width": 3.0, "name": "duct bank"})
     r = run(plane_site(tmp_path, extra, xing, 0.05), tmp_path / "o")
     st, top = r.table["station_m"].to_numpy(), r.table["top_m"].to_numpy()
     np.testing.assert_allclose(top, 98.8 + 0.05 * st, atol=1e-6)
