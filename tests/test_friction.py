@@ -140,7 +140,7 @@ def test_hazen_williams_si_vs_nfpa13_psi_per_ft():
         psi_per_ft = h_per_m * rho * fr.G / PSI * FT
         nfpa = 4.52 * q**1.85 / (c**1.85 * d**4.87)
         np.testing.assert_allclose(psi_per_ft, nfpa, rtol=0.01)
-    # Our US helper is the same formula (exact transcription check).
+    # Our US helper is the same formula (the same constants and exponents, checked exactly).
     np.testing.assert_allclose(fr.hazen_williams_psi_per_ft(q, 120.0, d), 4.52 * q**1.85 / (120.0**1.85 * d**4.87),
                                rtol=1e-14)
 
