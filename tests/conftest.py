@@ -87,3 +87,38 @@ def demo_copy(tmp_path):
     dst = tmp_path / "demo"
     shutil.copytree(DEMO, dst)
     return dst / "project.toml"
+
+
+#: The flat test site: a 1 km line east along y = Y from X0 over flat ground at 100 m.
+BASE = PROJECT.replace('spacing = "10 m"', 'spacing = "5 m"')
+
+X0, Y = 500_100.0, 4_649_000.0  # the line runs east along y = Y from X0 for 1 km
+
+
+def flat_site(folder, extra="", crossings=None, zones=None):
+    write_dem(folder / "dem.tif", np.full((200, 200), 100.0))
+    write_lines(folder / "line.geojson", [[(X0, Y), (X0 + 1000.0, Y)]])
+    if crossings is not None:
+        write_lines(folder / "x.geojson", [c[0] for c in crossings],
+                    props=[c[1] for c in crossings])
+    if zones is not None:
+        feats = [{"type": "Feature", "properties": p,
+                  "geometry": {"type": "Polygon", "coordinates": [ring]}} for ring, p in zones]
+        (folder / "zones.geojson").write_text(json.dumps({
+            "type": "FeatureCollection", "features": feats,
+            "crs": {"type": "name", "properties": {"name": "urn:ogc:def:crs:EPSG::32633"}}}))
+    (folder / "project.toml").write_text(BASE + extra)
+    return folder / "project.toml"
+
+
+def box(x0, x1):
+    return [[x0, Y - 50], [x1, Y - 50], [x1, Y + 50], [x0, Y + 50], [x0, Y - 50]]
+
+
+#: A crossing layer x.geojson whose features give their bottom elevation.
+CROSSING_X = """
+[[crossings]]
+path = "x.geojson"
+bottom_field = "bottom"
+clearance = "0.3 m"
+"""

@@ -12,32 +12,7 @@ import pytest
 
 from gisgrade.pipeline import run
 
-from conftest import PROJECT, write_dem, write_lines
-
-BASE = PROJECT.replace('spacing = "10 m"', 'spacing = "5 m"')
-
-X0, Y = 500_100.0, 4_649_000.0  # the line runs east along y = Y from X0 for 1 km
-
-
-def flat_site(folder, extra="", crossings=None, zones=None):
-    write_dem(folder / "dem.tif", np.full((200, 200), 100.0))
-    write_lines(folder / "line.geojson", [[(X0, Y), (X0 + 1000.0, Y)]])
-    if crossings is not None:
-        write_lines(folder / "x.geojson", [c[0] for c in crossings],
-                    props=[c[1] for c in crossings])
-    if zones is not None:
-        feats = [{"type": "Feature", "properties": p,
-                  "geometry": {"type": "Polygon", "coordinates": [ring]}} for ring, p in zones]
-        (folder / "zones.geojson").write_text(json.dumps({
-            "type": "FeatureCollection", "features": feats,
-            "crs": {"type": "name", "properties": {"name": "urn:ogc:def:crs:EPSG::32633"}}}))
-    (folder / "project.toml").write_text(BASE + extra)
-    return folder / "project.toml"
-
-
-def box(x0, x1):
-    return [[x0, Y - 50], [x1, Y - 50], [x1, Y + 50], [x0, Y + 50], [x0, Y - 50]]
-
+from conftest import BASE, CROSSING_X, X0, Y, box, flat_site, write_dem, write_lines
 
 def test_cover_zone_overrides_inside_and_boundaries_are_stations(tmp_path):
     extra = """
@@ -108,12 +83,7 @@ clearance = "0.3 m"
 
 
 def test_fittings_table_lists_standard_bends(tmp_path):
-    extra = """
-[[crossings]]
-path = "x.geojson"
-bottom_field = "bottom"
-clearance = "0.3 m"
-
+    extra = CROSSING_X + """
 [design]
 joint_length = "6 m"
 max_joint_deflection = "0 deg"
@@ -203,12 +173,7 @@ clearance = "0.3 m"
 
 
 def test_a_relaxed_rule_is_found_at_its_worst_station(tmp_path):
-    extra = """
-[[crossings]]
-path = "x.geojson"
-bottom_field = "bottom"
-clearance = "0.3 m"
-"""
+    extra = CROSSING_X
     project = flat_site(tmp_path, extra,
                         crossings=[([(X0 + 500, Y - 20), (X0 + 500, Y + 20)], {"bottom": 90.0})])
     project.write_text(project.read_text().replace('minimum = "1.2 m"',
@@ -226,12 +191,7 @@ clearance = "0.3 m"
 def test_written_tables_limits_reasons_summary_earthwork(tmp_path):
     import pandas as pd
 
-    extra = """
-[[crossings]]
-path = "x.geojson"
-bottom_field = "bottom"
-clearance = "0.3 m"
-
+    extra = CROSSING_X + """
 [[crossings]]
 path = "x2.geojson"
 bottom_field = "bottom"

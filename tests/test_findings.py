@@ -23,7 +23,7 @@ from gisgrade.project import load
 
 import pandas as pd
 
-from conftest import PROJECT, write_dem, write_lines
+from conftest import CROSSING_X, X0, Y, flat_site
 
 G = 9.80665  # standard gravity, CGPM 1901 (exact)
 RHO15 = IAPWS95(T=288.15, P=0.101325).rho  # water at 15 degC, 1 atm (IAPWS-95)
@@ -132,27 +132,15 @@ def test_flowing_pressure_findings_follow_their_definitions(flat_project):
 # Designed bends feed the hydraulics
 # --------------------------------------------------------------------------
 
-BASE = PROJECT.replace('spacing = "10 m"', 'spacing = "5 m"')
-X0, Y = 500_100.0, 4_649_000.0
-
-
 def test_designed_bends_drop_the_egl_by_their_rennels_k(tmp_path):
     # Flat ground at 100 m, a culvert (bottom 95 m) across the line at 500 m and
     # rigid joints: the design dips under it with standard vertical bends.
-    write_dem(tmp_path / "dem.tif", np.full((200, 200), 100.0))
-    write_lines(tmp_path / "line.geojson", [[(X0, Y), (X0 + 1000.0, Y)]])
-    write_lines(tmp_path / "x.geojson", [[(X0 + 500, Y - 20), (X0 + 500, Y + 20)]], props=[{"bottom": 95.0}])
-    (tmp_path / "project.toml").write_text(BASE + """
-[[crossings]]
-path = "x.geojson"
-bottom_field = "bottom"
-clearance = "0.3 m"
-
+    project = flat_site(tmp_path, CROSSING_X + """
 [design]
 joint_length = "6 m"
 max_joint_deflection = "0 deg"
-""")
-    r = run_all(tmp_path / "project.toml", write=False)
+""", crossings=[([(X0 + 500, Y - 20), (X0 + 500, Y + 20)], {"bottom": 95.0})])
+    r = run_all(project, write=False)
     assert len(r.bends) >= 2
     s = r.table["station_m"].to_numpy()
     g = r.gradelines[r.gradelines["scenario"] == "design"].reset_index(drop=True)
