@@ -48,6 +48,21 @@ def range_findings(station, value, mask, *, scenario, check, severity, unit, lim
     return out
 
 
+def pressure_sides(grades: pd.DataFrame, axis) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Lowest and highest pressure (Pa) at each station of one scenario's grade
+    lines, over both sides of any point loss there, and the lower HGL (m).
+
+    ``grades`` has ``hgl_m``, ``hgl_upstream_m`` and ``density_kg_m3``; the
+    pressure is rho g (HGL - axis) at the pipe axis.
+    """
+    from .hydraulics.friction import G
+
+    both = grades[["hgl_m", "hgl_upstream_m"]].to_numpy()
+    rho_g = grades["density_kg_m3"].to_numpy() * G
+    low_hgl = both.min(axis=1)
+    return rho_g * (low_hgl - axis), rho_g * (both.max(axis=1) - axis), low_hgl
+
+
 def pressure_findings(station, pressure, hgl, top, velocity, scenario: str,
                       limits: Thresholds = Thresholds(), pressure_high=None) -> list[dict]:
     """Low, high and sub-atmospheric pressure, and velocity, for one scenario.

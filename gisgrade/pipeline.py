@@ -317,7 +317,7 @@ def stage_hydraulics(project: Project, table: pd.DataFrame, bends: pd.DataFrame)
     the HGL just upstream of any point loss (lower than ``hgl_m`` where an
     expansion recovers pressure), so the checks see the lowest pressure.
     """
-    from .hydraulics import minor, water
+    from .hydraulics import friction, minor, water
     from .hydraulics.gradelines import grade_lines, required_source_head, segment_flows, solve_flow
 
     if "fitting_k" not in table.columns:
@@ -351,7 +351,7 @@ def stage_hydraulics(project: Project, table: pd.DataFrame, bends: pd.DataFrame)
         k = base_k.copy()
         if len(at):
             q = np.append(flows, flows[-1])[at]
-            re = np.abs(q) / (np.pi * d[at] ** 2 / 4) * d[at] * rho / mu
+            re = friction.reynolds(q / (np.pi * d[at] ** 2 / 4), d[at], rho, mu)
             k_bend = minor.bend_k(angles, Re=np.where(re > 0, re, 3e5),
                                   rel_roughness=np.nan_to_num(eps[at] / d[at]))
             np.add.at(k, at, np.where(re > 0, k_bend, 0.0))
@@ -383,6 +383,10 @@ def stage_hydraulics(project: Project, table: pd.DataFrame, bends: pd.DataFrame)
     end_head = hyd.end_head
     if hyd.boundary == "two-heads" and end_head is None:  # free outlet: atmospheric at the axis
         end_head = float(axis[-1])
+    # a pipe laid at its cover below a ground line that is off by the DEM's
+    # 95 % band sits that much higher or lower: pressure +/- rho g band
+    band = table["ground_band_m"].to_numpy() if "ground_band_m" in table else 0.0
+    pressure_band_kpa = rho * G * band / 1e3
     frames, cases = [], []
     flowing_heads = []
     for c in scenarios(project):
@@ -412,14 +416,11 @@ def stage_hydraulics(project: Project, table: pd.DataFrame, bends: pd.DataFrame)
             elif head is None:  # static case without an available head: the highest used
                 head = max(flowing_heads) if flowing_heads else float(np.max(axis)) + p_req / (rho * G)
         g = grade_lines(station, axis, source_head=head, flow=flows, point_k=k, **engine)
-        band = table["ground_band_m"].to_numpy() if "ground_band_m" in table else 0.0
         frames.append(pd.DataFrame({
             "scenario": name, "station_m": station, "flow_m3_s": np.append(flows, flows[-1]),
             "velocity_m_s": g.velocity, "hgl_m": g.hgl, "egl_m": g.egl,
             "pressure_kpa": g.pressure / 1e3,
-            # a pipe laid at its cover below a ground line that is off by the DEM's
-            # 95 % band sits that much higher or lower: pressure +/- rho g band
-            "pressure_band_kpa": rho * G * band / 1e3,
+            "pressure_band_kpa": pressure_band_kpa,
             "hgl_upstream_m": g.hgl_upstream, "density_kg_m3": rho,
         }))
         cases.append(dict(scenario=name, boundary=hyd.boundary, inflow_m3_s=float(inflow),
@@ -495,11 +496,8 @@ def stage_findings(project: Project, table: pd.DataFrame, grades: pd.DataFrame,
                      else project.pipe.pressure_rating)
     p_vapour = float(vapour_pressure(project.hydraulics.temperature))
     for name, g in grades.groupby("scenario", sort=False):
-        both = g[["hgl_m", "hgl_upstream_m"]].to_numpy()
+        pressure, high, hgl = fd.pressure_sides(g, axis)
         rho_g = g["density_kg_m3"].to_numpy() * G
-        hgl = both.min(axis=1)
-        pressure = rho_g * (hgl - axis)
-        high = rho_g * (both.max(axis=1) - axis)
         rows += fd.pressure_findings(station, pressure, hgl, top, g["velocity_m_s"].to_numpy(),
                                      name, project.checks, pressure_high=high)
         rows += fd.rating_findings(station, high, rating, name)

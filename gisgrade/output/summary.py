@@ -8,7 +8,7 @@ import numpy as np
 
 from .. import __version__
 from ..cautions import CAUTIONS
-from ..hydraulics.friction import G
+from ..findings import pressure_sides
 
 
 def summarize(result) -> dict:
@@ -66,12 +66,7 @@ def summarize(result) -> dict:
         out["boundary"] = str(result.cases["boundary"].iloc[0])
     for name, g in result.gradelines.groupby("scenario", sort=False):
         # Lowest and highest pressure on either side of any point loss.
-        rho_g = g["density_kg_m3"].to_numpy() * G / 1e3 if "density_kg_m3" in g else None
-        p = g["pressure_kpa"].to_numpy()
-        p_lo, p_hi = p, p
-        if rho_g is not None and "hgl_upstream_m" in g:
-            p_up = p + rho_g * (g["hgl_upstream_m"].to_numpy() - g["hgl_m"].to_numpy())
-            p_lo, p_hi = np.minimum(p, p_up), np.maximum(p, p_up)
+        p_lo, p_hi, _ = (x / 1e3 for x in pressure_sides(g, t["axis_m"].to_numpy()))
         i, j = int(np.argmin(p_lo)), int(np.argmax(p_hi))
         row = {
             "scenario": name, "flow_m3_s": float(g["flow_m3_s"].iloc[0]),
