@@ -429,11 +429,9 @@ def _default_station(x, y, crs) -> np.ndarray:
         _, _, d = geod.inv(x[:-1], y[:-1], x[1:], y[1:])
         d = np.asarray(d, dtype=float)
     else:
-        d = np.hypot(np.diff(x), np.diff(y))
-        try:
-            d = d * float(crs.axis_info[0].unit_conversion_factor)
-        except Exception:
-            pass
+        from .alignment import metres_per_unit
+
+        d = np.hypot(np.diff(x), np.diff(y)) * metres_per_unit(crs)
     return np.concatenate([[0.0], np.cumsum(d)])
 
 
