@@ -15,3 +15,30 @@ def runs(mask) -> np.ndarray:
     m = np.concatenate([[False], np.asarray(mask, dtype=bool), [False]])
     edges = np.flatnonzero(np.diff(m.astype(np.int8)))
     return edges.reshape(-1, 2) - np.array([0, 1])
+
+
+#: Two stations closer than this (m) are one station; a position within it of
+#: a station is at that station (offtakes, fittings, section ends). Stations
+#: are never rounded to the spacing, so 1 mm separates every pair of real ones.
+STATION_TOLERANCE = 1e-3
+
+
+def station_index(station, x, key: str) -> np.ndarray:
+    """Index of the station at each position ``x`` (m, within
+    :data:`STATION_TOLERANCE`); an InputError naming ``key`` if one is not a station.
+
+    >>> station_index(np.array([0.0, 10.0, 20.0]), [10.0004, 20.0], "fittings[0].station").tolist()
+    [1, 2]
+    """
+    from .errors import InputError
+
+    station = np.asarray(station, dtype=float)
+    x = np.atleast_1d(np.asarray(x, dtype=float))
+    i = np.clip(np.searchsorted(station, x), 1, len(station) - 1)
+    i = np.where(np.abs(station[i - 1] - x) <= np.abs(station[i] - x), i - 1, i)
+    off = np.abs(station[i] - x) > STATION_TOLERANCE
+    if off.any():
+        bad = float(x[np.flatnonzero(off)[0]])
+        raise InputError(f"{key}: station {bad:g} m is not on the line (stations "
+                         f"{station[0]:g} to {station[-1]:g} m)")
+    return i

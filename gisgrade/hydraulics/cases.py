@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from gisgrade.hydraulics.gradelines import STATION_TOLERANCE
+from gisgrade.arrays import STATION_TOLERANCE
 
 
 def range_values(x, starts, ends, values, default):
@@ -16,8 +16,10 @@ def range_values(x, starts, ends, values, default):
 
     A position takes the value of the last range that holds it (later
     ranges win where ranges overlap), else ``default``. A position within
-    1 micrometre of a range's start counts as inside it, of its end as
-    outside; so at a boundary station the downstream range's value applies.
+    half the station tolerance (0.5 mm) of a range's start counts as inside
+    it, of its end as outside; so at a boundary station the downstream
+    range's value applies, while a segment midpoint, always more than half
+    the tolerance from its stations, falls on its own side.
     ``None`` in ``values`` means "keep the default" for that range.
 
     Parameters
@@ -45,7 +47,8 @@ def range_values(x, starts, ends, values, default):
     for a, b, v in zip(starts, ends, values):
         if v is None:
             continue
-        inside = (x >= a - STATION_TOLERANCE) & (x < b - STATION_TOLERANCE)
+        tol = STATION_TOLERANCE / 2
+        inside = (x >= a - tol) & (x < b - tol)
         out[inside] = float(v)
     return out
 

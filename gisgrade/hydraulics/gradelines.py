@@ -47,12 +47,10 @@ from gisgrade.hydraulics.friction import (
     hazen_williams_head_loss,
     reynolds,
 )
+from gisgrade.arrays import STATION_TOLERANCE
 from gisgrade.hydraulics.minor import sudden_contraction_k, sudden_expansion_k
 
 METHODS = ("darcy-weisbach", "hazen-williams")
-
-#: Offtakes within this distance [m] of a station count as at that station.
-STATION_TOLERANCE = 1e-6
 
 
 @dataclass(frozen=True)
@@ -241,7 +239,8 @@ def segment_flows(station, inflow, offtake_station=(), offtake_flow=()):
     """Flow in each segment given the inflow at station 0 and offtakes.
 
     An offtake at position x takes its flow out of every segment that starts
-    at or after x (within 1 micrometre of a station counts as at it); an
+    at or after x (within :data:`~gisgrade.arrays.STATION_TOLERANCE`, 1 mm, of a
+    station counts as at it); an
     offtake between stations therefore acts at the next station downstream
     (the segment it lies in carries the full upstream flow: conservative).
     Station the pipe at every offtake to place it exactly.
