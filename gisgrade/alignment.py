@@ -25,6 +25,7 @@ import pyproj
 import shapely
 from shapely.geometry import LineString, MultiLineString
 
+from .arrays import STATION_TOLERANCE, station_index  # stations closer than this (m) are one
 from .errors import InputError, first_line
 
 #: Station kind flags.
@@ -34,9 +35,6 @@ FITTING, OFFTAKE, SECTION = 32, 64, 128
 
 #: Most regular stations a line may get (a guard against a mistyped spacing).
 MAX_STATIONS = 5e6
-
-#: Stations closer than this (m) to a special station are dropped as duplicates.
-STATION_TOLERANCE = 1e-3
 
 
 @dataclass(frozen=True)
@@ -661,3 +659,38 @@ def format_station(station_m, units: str = "SI", decimals: int = 2) -> np.ndarra
     width += decimals + (1 if decimals else 0)
     out = [f"{sg}{M}+{m / scale:0{width}.{decimals}f}" for sg, M, m in zip(sign, major, minor)]
     return np.asarray(out, dtype=object)
+
+
+def stage_alignment(project):
+    """The alignment stage: the centerline in its working CRS, the crossings
+    and cover zones located on it, and the station table (``station_m, x, y,
+    kind``, the cover limits per station, and point-layer offtakes as
+    ``offtake_m3_s``). Returns ``(line, crossings, table)``."""
+    import pandas as pd
+
+    from .pipe import special_stations
+    from .terrain import vertical_unit_factor
+
+    cfg = project.alignment
+    line = read_alignment(cfg.path, layer=cfg.layer, reverse=cfg.reverse, where=cfg.where,
+                          feature=cfg.feature, start_station=cfg.start_station)
+    crossings = locate_crossings(line, project.crossings,
+                                 vertical_unit_factor(project.terrain.vertical_unit))
+    zones = locate_zones(line, project.cover_zones)
+    extra, located, line = special_stations(project, line)
+    s, x, y, kind = stations(line, cfg.spacing, crossings, zones, extra)
+    offset = line.start_station
+    table = pd.DataFrame({"station_m": s + offset, "x": x, "y": y, "kind": kind})
+    if project.cover is not None:
+        lo, hi = zone_cover(s, zones, project.cover.minimum, project.cover.maximum)
+        table["min_cover_m"], table["max_cover_m"] = lo, hi
+    if located is not None:  # offtakes from point layers (flows in m3/s)
+        at = station_index(table["station_m"].to_numpy(), located[0], "offtakes")
+        table["offtake_m3_s"] = np.bincount(at, weights=located[1], minlength=len(table))
+    crossings = replace(crossings, station=crossings.station + offset)
+    hit = set(crossings.layer) | set(zones.layer)
+    missed = tuple(f"{c.key}: no feature of {c.path.name} meets the centerline"
+                   for c in (*project.crossings, *project.cover_zones) if c.key not in hit)
+    if missed:
+        line = replace(line, notes=line.notes + missed)
+    return line, crossings, table

@@ -704,3 +704,38 @@ def sample_ground(
         z[invalid] = np.interp(station[invalid], station[valid], z[valid])
         bridged = invalid
     return GroundProfile(z=z, bridged=bridged, source=source, max_gap=max_gap, cell_size=finest)
+
+
+def accuracy_95(rmse: float) -> float:
+    """Half-width (m) of the 95 % band of a DEM with vertical ``rmse`` (m).
+
+    Accuracy_z = 1.96 RMSE_z for normally distributed errors (FGDC-STD-007.3
+    NSSDA, 1998; ASPRS Positional Accuracy Standards, 2014).
+
+    >>> accuracy_95(0.15)
+    0.294
+    """
+    return round(1.96 * rmse, 12)
+
+
+def stage_terrain(project, line, table):
+    """The terrain stage: ground elevation (m) at every station, sampled from
+    the DEM(s), with the 95 % band of the DEM's vertical accuracy
+    (``ground_m, ground_bridged, ground_band_m, ground_source``); returns
+    ``(table, notes)``."""
+    cfg = project.terrain
+    ground = sample_ground(
+        list(cfg.dem), table["x"].to_numpy(), table["y"].to_numpy(), line.crs,
+        station=table["station_m"].to_numpy(), vertical_unit=cfg.vertical_unit,
+        method=cfg.method, max_gap=cfg.max_gap,
+    )
+    rmse = cfg.vertical_accuracy
+    notes = []
+    if rmse is None:
+        kind, rmse = default_vertical_accuracy(ground.cell_size)
+        notes.append(f"terrain.vertical_accuracy not given: {rmse:g} m RMSE assumed for a {kind} "
+                     f"DEM ({ground.cell_size:.2f} m cells)")
+    names = np.array([Path(str(p)).name for p in cfg.dem] + ["bridged"], dtype=object)
+    table = table.assign(ground_m=ground.z, ground_bridged=ground.bridged,
+                         ground_band_m=accuracy_95(rmse), ground_source=names[ground.source])
+    return table, notes

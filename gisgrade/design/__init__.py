@@ -1,14 +1,20 @@
 """Pipe profile design: cover, crossings, joints, bends, least excavation.
 
 ``design_profile(station, ground, crossings, rules) -> PipeProfile`` is the
-engine; ``fittings_table(profile)`` lists the bends for a CSV, a map layer and
-the minor losses. See docs/design.md.
+engine; :mod:`~gisgrade.design.crossings` settles the side the pipe passes
+each crossing and measures the clearance a profile achieves;
+``stage_design`` runs it on the station table. See docs/design.md.
 """
+from .crossings import Clearances, choose_sides, clearances, design_crossings
 from .fittings import fittings_table, standard_combination
-from .profile import REASONS, crossing_clearances, design_profile
-from .rules import PRIORITY, STANDARD_BEND_ANGLES, Crossing, DesignRules, PipeProfile, Relaxation
+from .profile import REASONS, design_profile
+from .rules import (PRIORITY, STANDARD_BEND_ANGLES, TRENCH_SIDE_ROOM, Crossing, DesignRules,
+                    PipeProfile, Relaxation, trench_width)
+from .stage import bends_frame, rules_for, stage_design
 
 __all__ = [
-    "Crossing", "DesignRules", "PipeProfile", "Relaxation", "PRIORITY", "REASONS",
-    "STANDARD_BEND_ANGLES", "crossing_clearances", "design_profile", "fittings_table", "standard_combination",
+    "Clearances", "Crossing", "DesignRules", "PipeProfile", "Relaxation", "PRIORITY", "REASONS",
+    "STANDARD_BEND_ANGLES", "TRENCH_SIDE_ROOM", "bends_frame", "choose_sides", "clearances",
+    "design_crossings", "design_profile", "fittings_table", "rules_for", "stage_design",
+    "standard_combination", "trench_width",
 ]

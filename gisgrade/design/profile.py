@@ -24,9 +24,9 @@ import scipy.sparse as sp
 from scipy.optimize import linprog
 
 from ..errors import InputError
-from ..arrays import runs
+from ..arrays import STATION_TOLERANCE, runs
 from .fittings import bends_frame, place_bends
-from .rules import PRIORITY, Crossing, DesignRules, PipeProfile, Relaxation
+from .rules import PRIORITY, Crossing, DesignRules, PipeProfile, Relaxation, trench_width
 
 #: A rule broken by more than this (m, rad or m/m) is reported as relaxed.
 TOL = 1e-6
@@ -133,7 +133,7 @@ def _prepare(station, ground, crossings, rules) -> tuple[_Problem, np.ndarray, n
         return np.broadcast_to(np.asarray(v, float), (n0,))
 
     # stations closer than 1 mm are one station: the pipe has one elevation there
-    new = np.r_[True, np.diff(station) > 1e-3]
+    new = np.r_[True, np.diff(station) > STATION_TOLERANCE]
     group = np.cumsum(new) - 1
     first = np.flatnonzero(new)
     s = station[first]
@@ -146,7 +146,7 @@ def _prepare(station, ground, crossings, rules) -> tuple[_Problem, np.ndarray, n
         np.maximum.at(lower, group, np.where(np.isfinite(mc), ground - mc, -np.inf))
     g_u = ground[first]
     width = np.zeros(n)
-    np.maximum.at(width, group, per(rules.trench_width))
+    np.maximum.at(width, group, per(trench_width(rules.outside_diameter, rules.trench_width)))
     h = np.diff(s)
     trib = np.r_[h, 0] / 2 + np.r_[0, h] / 2 if n > 1 else np.ones(1)
     allow = rules.max_joint_deflection * (h[:-1] + h[1:]) / (2 * rules.joint_length)
@@ -158,7 +158,7 @@ def _prepare(station, ground, crossings, rules) -> tuple[_Problem, np.ndarray, n
             raise InputError(f"crossing {name}: side {c.side!r} is not 'under' or 'over'")
         if not (np.isfinite(c.limit) and np.isfinite(c.clearance) and c.clearance >= 0):
             raise InputError(f"crossing {name}: limit and clearance must be finite, clearance >= 0")
-        if not (s[0] - 1e-3 <= c.station <= s[-1] + 1e-3):
+        if not (s[0] - STATION_TOLERANCE <= c.station <= s[-1] + STATION_TOLERANCE):
             raise InputError(f"crossing {name}: station {c.station} m is off the line "
                              f"({s[0]} to {s[-1]} m)")
         j = int(np.clip(np.searchsorted(s, c.station, "right") - 1, 0, max(n - 2, 0)))
@@ -609,31 +609,4 @@ def _finish(P, sol, bends, crossings, group, first, station) -> PipeProfile:
     )
 
 
-def crossing_clearances(profile: PipeProfile, crossings, outside_diameter: float = 0.0):
-    """Required and achieved clearance at each crossing (m), for reports and layers.
-
-    The pipe's top is interpolated linearly at the crossing station; for an
-    over-crossing the clearance is measured from the pipe's bottom (top -
-    outside diameter) down to the feature's top. Columns: name,
-    station, side, limit, clearance_required, clearance_achieved, kept.
-
-    >>> p = design_profile([0, 10, 20], [100.0] * 3, [Crossing(10, 98.0, 0.3, name="duct")],
-    ...                    DesignRules(min_cover=1.2))
-    >>> crossing_clearances(p, [Crossing(10, 98.0, 0.3, name="duct")]).round(3).to_dict("records")
-    [{'name': 'duct', 'station': 10.0, 'side': 'under', 'limit': 98.0, 'clearance_required': 0.3, 'clearance_achieved': 0.3, 'kept': True}]
-    """
-    import pandas as pd
-
-    rows = []
-    for c in crossings:
-        top = float(np.interp(c.station, profile.station, profile.top))
-        got = c.limit - top if c.side == "under" else (top - outside_diameter) - c.limit
-        rows.append({"name": c.name, "station": float(c.station), "side": c.side, "limit": float(c.limit),
-                     "clearance_required": float(c.clearance), "clearance_achieved": got,
-                     "kept": bool(got >= c.clearance - TOL)})
-    return pd.DataFrame(rows, columns=["name", "station", "side", "limit", "clearance_required",
-                                       "clearance_achieved", "kept"])
-
-
-__all__ = ["Crossing", "DesignRules", "PipeProfile", "Relaxation", "design_profile", "crossing_clearances",
-           "REASONS"]
+__all__ = ["Crossing", "DesignRules", "PipeProfile", "Relaxation", "design_profile", "REASONS"]

@@ -9,16 +9,30 @@ be checked against the maker's table or the utility's standard before use.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from math import radians
 
 import numpy as np
 import pandas as pd
 
 from ..errors import InputError
+from ..project import DesignConfig as _DEFAULTS  # the project file's defaults, defined once
 
 #: Standard vertical bend fitting angles, rad (11.25, 22.5, 45 and 90 degrees;
-#: the usual fitting series, *common practice*).
-STANDARD_BEND_ANGLES = tuple(radians(a) for a in (11.25, 22.5, 45.0, 90.0))
+#: the usual fitting series, *common practice*): the project's default.
+STANDARD_BEND_ANGLES = _DEFAULTS.bend_angles
+
+#: Trench width beyond the pipe's outside diameter, 0.3 m each side (common
+#: practice for preliminary quantities; the utility's standard governs).
+TRENCH_SIDE_ROOM = 0.6
+
+
+def trench_width(outside_diameter, given=None):
+    """Trench width (m): ``given`` if set, else the outside diameter (m, a
+    scalar or per station) plus :data:`TRENCH_SIDE_ROOM`.
+
+    >>> float(trench_width(0.4)), trench_width(0.4, 1.2)
+    (1.0, 1.2)
+    """
+    return given if given is not None else np.asarray(outside_diameter) + TRENCH_SIDE_ROOM
 
 #: The rules in the order they give way, most important first (see
 #: docs/design.md for the reasons). A rule lower in the list is relaxed
@@ -65,7 +79,8 @@ class DesignRules:
     and mechanical joints, falling with size, *from memory*: the maker's
     table governs). bend_angles: rad, the standard vertical bend fittings
     available (empty: no fittings, joints only). min_grade: m/m kept on every segment (e.g. 0.001), or None.
-    trench_width: m, scalar or per station, weights excavation.
+    trench_width: m, scalar or per station, weights excavation (None:
+    :func:`trench_width` of the outside diameter).
     max_transition_grade: m/m cap on the absolute grade, or None.
     bend_cost: m^3 of excavation judged equal to one radian of bend angle
     beyond what the joints allow; the large default means bends are placed
@@ -76,11 +91,11 @@ class DesignRules:
     min_cover: float | np.ndarray
     max_cover: float | np.ndarray | None = None
     outside_diameter: float = 0.0
-    joint_length: float = 6.0
-    max_joint_deflection: float = radians(3.0)
+    joint_length: float = _DEFAULTS.joint_length
+    max_joint_deflection: float = _DEFAULTS.max_joint_deflection
     bend_angles: tuple = STANDARD_BEND_ANGLES
     min_grade: float | None = None
-    trench_width: float | np.ndarray = 1.0
+    trench_width: float | np.ndarray | None = None
     max_transition_grade: float | None = None
     bend_cost: float = 1.0e5
 
@@ -100,7 +115,8 @@ class DesignRules:
         arr("min_cover", 0.0)
         if self.max_cover is not None:
             arr("max_cover", 0.0, open_ended=True)
-        arr("trench_width", 0.0, strict=True)
+        if self.trench_width is not None:
+            arr("trench_width", 0.0, strict=True)
         for name, strict in (("outside_diameter", False), ("joint_length", True),
                              ("max_joint_deflection", False), ("bend_cost", True)):
             v = getattr(self, name)
