@@ -19,6 +19,8 @@ import numpy as np
 import pandas as pd
 import shapely
 
+from . import writer
+
 #: Colormap for pressure colours on the pipe pieces.
 PRESSURE_CMAP = "cividis"
 
@@ -40,7 +42,7 @@ def pressure_colours(values: np.ndarray, vmin: float, vmax: float) -> np.ndarray
 
 def pipe_pieces(result) -> "pd.DataFrame":
     """Attributes and geometry of the pipe pieces between stations."""
-    t = result.table
+    t, g = result.table, result.grades
     s = t["station_m"].to_numpy()
     xy = t[["x", "y"]].to_numpy()
     geom = shapely.linestrings(np.stack([xy[:-1], xy[1:]], axis=1))
@@ -51,14 +53,11 @@ def pipe_pieces(result) -> "pd.DataFrame":
         "grade_pct": np.diff(t["top_m"].to_numpy()) / np.diff(s) * 100.0,
         "cover_min_m": np.minimum(cover[:-1], cover[1:]),
     }
-    first_flow = None
-    for name, g in result.gradelines.groupby("scenario", sort=False):
-        p = g["pressure_kpa"].to_numpy()
+    for i, name in enumerate(g.names):
+        p = g.pressure[i] / 1e3
         data[f"{name}_pmin_kpa"] = np.minimum(p[:-1], p[1:])
         data[f"{name}_pmax_kpa"] = np.maximum(p[:-1], p[1:])
-        if first_flow is None and (g["flow_m3_s"].to_numpy() > 0).any():
-            first_flow = name
-    first_flow = first_flow or result.gradelines["scenario"].iloc[0]
+    first_flow = g.names[(g.flowing or [0])[0]]
     pmin = data[f"{first_flow}_pmin_kpa"]
     data["colour_scenario"] = first_flow
     data["colour"] = pressure_colours(pmin, float(pmin.min()), float(pmin.max()))
@@ -77,11 +76,10 @@ def crossing_points(result) -> "pd.DataFrame":
         "size_m": c.size, "clearance_required_m": c.clearance,
         "ground_m": np.interp(station, t["station_m"], t["ground_m"]),
     })
-    if "top_m" in t.columns:  # at the point of the footprint where clearance is least
-        clearance, governing, top = governing_point(result)
-        frame["governing_station_m"] = governing
-        frame["top_of_pipe_m"] = top
-        frame["clearance_achieved_m"] = clearance
+    if result.clearances is not None:  # at the point of the footprint where clearance is least
+        frame["governing_station_m"] = result.clearances.station
+        frame["top_of_pipe_m"] = result.clearances.top
+        frame["clearance_achieved_m"] = result.clearances.achieved
     frame["geometry"] = shapely.points(c.x, c.y)
     return frame
 
@@ -93,36 +91,6 @@ def fittings_points(result) -> "pd.DataFrame":
     return frame
 
 
-def clearance_achieved(result) -> np.ndarray:
-    """Least vertical separation at each crossing (m); see :func:`governing_point`."""
-    return governing_point(result)[0]
-
-
-def governing_point(result):
-    """Vertical separation between the outsides at each crossing (m), the
-    least over the feature's footprint (its centre and the two edges where
-    the pipe enters and leaves it), with the station and top of pipe where it
-    is least: under a feature, its bottom minus the top of pipe; over it, the
-    pipe's bottom (top minus outside diameter) minus the feature's top.
-    Returns ``(clearance, station, top)`` arrays."""
-    c, t = result.crossings, result.table
-    s = t["station_m"].to_numpy()
-    r = c.reach()
-    at = np.stack([c.station - r, c.station, c.station + r])
-    top = np.interp(at, s, t["top_m"].to_numpy())
-    od_col = "outside_diameter_m" if "outside_diameter_m" in t else None
-    od = (np.interp(c.station, s, t[od_col].to_numpy()) if od_col
-          else result.project.pipe.outside_diameter)
-    ground = np.interp(c.station, s, t["ground_m"].to_numpy())
-    feature_top = np.where(np.isfinite(c.size), c.top, ground - c.depth)
-    over = c.side == "over"
-    k = np.where(over, top.argmin(axis=0), top.argmax(axis=0))  # the governing point
-    cols = np.arange(len(c))
-    top_k = top[k, cols]
-    clearance = np.where(over, top_k - od - feature_top, c.bottom - top_k)
-    return clearance, at[k, cols], top_k
-
-
 def station_points(result) -> "pd.DataFrame":
     t = result.table
     cols = [c for c in ("station_m", "ground_m", "ground_band_m", "ground_bridged", "top_m",
@@ -132,13 +100,14 @@ def station_points(result) -> "pd.DataFrame":
     return frame
 
 
-def write_layers(result, folder: Path) -> None:
+@writer("layers.gpkg")
+def write_layers(result, folder: Path, display=None) -> None:
     import geopandas as gpd
 
     path = folder / "layers.gpkg"
     crs = result.alignment.crs
     layers = {}
-    if result.gradelines is not None:
+    if result.grades is not None:
         layers["pipe_pieces"] = pipe_pieces(result)
     if result.bends is not None:
         layers["fittings"] = fittings_points(result)

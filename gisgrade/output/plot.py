@@ -7,24 +7,23 @@ feature's bottom and the required clearance) and bends. Lower strip:
 pressure at the pipe axis per scenario against the planning limits and the
 pipe's pressure rating where given.
 The vertical exaggeration is measured from the drawn axes and printed.
+
+Figures are built with matplotlib's object API (:class:`~matplotlib.figure.Figure`,
+no pyplot state), so they can be drawn in threads and on workers.
 """
 from __future__ import annotations
 
 from pathlib import Path
 
-import matplotlib
+import matplotlib.ticker
+import numpy as np
+from matplotlib.figure import Figure
+from matplotlib.patches import Rectangle
+from matplotlib.ticker import FuncFormatter
 
-matplotlib.use("Agg")
-import matplotlib.pyplot as plt  # noqa: E402
-import numpy as np  # noqa: E402
-from matplotlib.patches import Rectangle  # noqa: E402
-from matplotlib.ticker import FuncFormatter  # noqa: E402
-
-from ..cautions import SHORT  # noqa: E402
-
-FT = 0.3048  # international foot, m (NIST SP 811)
-PSI = 6894.757293168361  # pound-force per square inch, Pa (NIST SP 811)
-ATMOSPHERE = 101325.0  # standard atmosphere, Pa (ISO 2533)
+from ..cautions import SHORT
+from ..display import ATMOSPHERE, FT, Display
+from . import writer
 
 #: Line styles of our own choosing; scenario lines cycle through SCENARIO_COLOURS.
 GROUND = dict(color="#7a5c3a", lw=1.2)
@@ -55,18 +54,18 @@ def vertical_exaggeration(ax) -> float:
     return (abs(x1 - x0) / bbox.width) / (abs(y1 - y0) / bbox.height)
 
 
-def plot_profile(result, path: Path) -> None:
-    from ..alignment import format_station
-
-    units = result.project.output.units
-    k = 1.0 / FT if units == "US" else 1.0
-    zunit = "ft" if units == "US" else "m"
+def profile_figure(result, display: Display | None = None) -> Figure:
+    """The profile sheet of ``result`` as a matplotlib :class:`Figure`."""
+    d = display or Display(result.project.output.units)
+    units = d.system
+    k = d.factor("elevation")
+    zunit = d.unit("elevation")
     t = result.table
     s = t["station_m"].to_numpy()
-    hydraulic = result.gradelines is not None
+    hydraulic = result.grades is not None
     details = "top_m" in t.columns and len(result.crossings) > 0
     if hydraulic:
-        fig = plt.figure(figsize=(13, 10.5 if details else 7.5))
+        fig = Figure(figsize=(13, 10.5 if details else 7.5))
         grid = fig.add_gridspec(3 if details else 2, 1, hspace=0.08 if not details else 0.3,
                                 height_ratios=[3, 1.1, 1.6] if details else [3, 1])
         ax = fig.add_subplot(grid[0])
@@ -75,7 +74,8 @@ def plot_profile(result, path: Path) -> None:
         if details:
             _crossing_details(fig, grid[2], result, k, zunit)
     else:
-        fig, ax = plt.subplots(figsize=(13, 5))
+        fig = Figure(figsize=(13, 5))
+        ax = fig.add_subplot()
         axp = ax
     ground = t["ground_m"].to_numpy() * k
     ax.plot(s, ground, label="ground", **GROUND)
@@ -91,13 +91,12 @@ def plot_profile(result, path: Path) -> None:
                         **PIPE_FILL)
     _crossings_and_bends(ax, result, s, k)
     if hydraulic:
-        _grade_lines(ax, axp, result, s, k)
+        _grade_lines(ax, axp, result, s, k, d)
     ax.set_ylabel(f"Elevation ({zunit})")
-    station_unit = "hundreds ft + ft" if units == "US" else "km + m"
-    axp.set_xlabel(f"Station ({station_unit})")
-    if units == "US":  # ticks at round hundreds of feet, labelled 12+00
+    axp.set_xlabel(f"Station ({d.station_name()})")
+    if d.us:  # ticks at round hundreds of feet, labelled 12+00
         axp.xaxis.set_major_locator(FeetLocator(s[0], s[-1]))
-    axp.xaxis.set_major_formatter(FuncFormatter(lambda v, _: format_station([v], units, 0)[0]))
+    axp.xaxis.set_major_formatter(FuncFormatter(lambda v, _: d.station([v], 0)[0]))
     ax.grid(True, lw=0.3, color="#cccccc")
     ax.legend(loc="upper left", bbox_to_anchor=(1.005, 1.0), fontsize=7, framealpha=0.9)
     ax.set_xlim(s[0], s[-1])
@@ -109,21 +108,31 @@ def plot_profile(result, path: Path) -> None:
     ax.set_title(f"{name}: {what} along the centerline "
                  f"(vertical exaggeration {ve:.0f}x)", fontsize=10, loc="left")
     fig.text(0.01, 0.005, SHORT, fontsize=7, color="#555555")
-    fig.savefig(path, dpi=130, bbox_inches="tight")
-    plt.close(fig)
+    return fig
 
 
-def _grade_lines(ax, axp, result, s, k) -> None:
+def plot_profile(result, path: Path, display: Display | None = None) -> None:
+    """Draw the profile sheet of ``result`` into ``path`` (PNG)."""
+    profile_figure(result, display).savefig(path, dpi=130, bbox_inches="tight")
+
+
+@writer("profile.png")
+def write_plot(result, folder: Path, display: Display) -> None:
+    plot_profile(result, folder / "profile.png", display)
+
+
+def _grade_lines(ax, axp, result, s, k, d: Display) -> None:
     """Each scenario's HGL and EGL on ``ax``, its pressure on the strip ``axp``
-    (kPa, or psi in US display)."""
-    us = result.project.output.units == "US"
-    pa, punit = (PSI, "psi") if us else (1e3, "kPa")
+    (in the display's pressure unit)."""
+    pa = lambda v: d.value(v, "pressure")  # noqa: E731  (Pa to the display unit)
+    punit = d.unit("pressure")
     plimit = result.project.checks
     hide_egl = {sc.name for sc in result.project.scenarios if not sc.show_egl}
+    g = result.grades
     flow_i = 0
-    for name, g in result.gradelines.groupby("scenario", sort=False):
-        hgl, egl = g["hgl_m"].to_numpy() * k, g["egl_m"].to_numpy() * k
-        p = g["pressure_kpa"].to_numpy() * 1e3 / pa
+    for i, name in enumerate(g.names):
+        hgl, egl = g.hgl[i] * k, g.egl[i] * k
+        p = pa(g.pressure[i])
         if name == "static":
             ax.plot(s, hgl, label="static HGL", **STATIC)
             axp.plot(s, p, label="static", **STATIC)
@@ -135,10 +144,10 @@ def _grade_lines(ax, axp, result, s, k) -> None:
             ax.plot(s, egl, color=colour, lw=1.0, ls="--", label=f"EGL {name}")
         axp.plot(s, p, color=colour, lw=1.4, label=name)
     t = result.table
-    p_all = result.gradelines["pressure_kpa"].to_numpy() * 1e3 / pa
-    top = max(float(np.nanmax(p_all)), plimit.max_pressure / pa)
+    p_all = pa(g.pressure.ravel())
+    top = max(float(np.nanmax(p_all)), pa(plimit.max_pressure))
     if "rating_pa" in t.columns and np.isfinite(t["rating_pa"]).any():
-        rating = t["rating_pa"].to_numpy() / pa
+        rating = pa(t["rating_pa"].to_numpy())
         if np.nanmin(rating) <= 1.5 * top:  # near enough to matter: draw it
             axp.step(s, rating, where="post", color="#5b2a86", lw=0.9, ls=(0, (4, 1, 1, 1)),
                      label="pipe rating")
@@ -146,7 +155,7 @@ def _grade_lines(ax, axp, result, s, k) -> None:
         else:  # far above every pressure: say so rather than squash the strip
             axp.text(s[-1], top * 1.12, f"pipe rating {np.nanmin(rating):.0f} {punit} (off scale) ",
                      fontsize=7, ha="right", va="top", color="#5b2a86")
-    vacuum = -ATMOSPHERE / pa  # gauge pressure of a perfect vacuum at sea level
+    vacuum = -pa(ATMOSPHERE)  # gauge pressure of a perfect vacuum at sea level
     if np.nanmin(p_all) < vacuum:  # not reachable: say so, and keep the scale readable
         axp.axhline(vacuum, color="#444444", lw=0.8)
         axp.text(s[-1], vacuum, "vacuum: lower values are not achievable (column separation) ",
@@ -159,11 +168,11 @@ def _grade_lines(ax, axp, result, s, k) -> None:
     axp.set_ylim(bottom - 0.08 * (top - bottom), top + 0.15 * (top - bottom))
 
     axp.axhspan(min(axp.get_ylim()[0], 0), 0, color="#d9534f", alpha=0.12, lw=0)
-    axp.axhline(plimit.min_pressure / pa, color="#d9534f", lw=0.8, ls="-.")
-    axp.axhline(plimit.max_pressure / pa, color="#8a6d3b", lw=0.8, ls="-.")
-    axp.text(s[0], plimit.min_pressure / pa, f" min {plimit.min_pressure / pa:.0f} {punit}",
+    axp.axhline(pa(plimit.min_pressure), color="#d9534f", lw=0.8, ls="-.")
+    axp.axhline(pa(plimit.max_pressure), color="#8a6d3b", lw=0.8, ls="-.")
+    axp.text(s[0], pa(plimit.min_pressure), f" min {pa(plimit.min_pressure):.0f} {punit}",
              fontsize=7, va="bottom", color="#d9534f")
-    axp.text(s[0], plimit.max_pressure / pa, f" max {plimit.max_pressure / pa:.0f} {punit}",
+    axp.text(s[0], pa(plimit.max_pressure), f" max {pa(plimit.max_pressure):.0f} {punit}",
              fontsize=7, va="bottom", color="#8a6d3b")
     axp.set_ylabel(f"Pressure at axis ({punit})")
     axp.grid(True, lw=0.3, color="#cccccc")
@@ -177,11 +186,9 @@ MAX_DETAILS = 5
 def _crossing_details(fig, cell, result, k: float, zunit: str) -> None:
     """A close-up of each crossing, at a modest exaggeration, where the
     clearance the profile sheet cannot show is drawn and dimensioned."""
-    from .layers import governing_point
-
     c, t = result.crossings, result.table
     s = t["station_m"].to_numpy()
-    clearance, governing, _ = governing_point(result)
+    clearance = result.clearances.achieved
     order = np.argsort(clearance - c.clearance)[:MAX_DETAILS]
     sub = cell.subgridspec(1, len(order), wspace=0.35)
     reach = c.reach()

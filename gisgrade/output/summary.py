@@ -8,7 +8,8 @@ import numpy as np
 
 from .. import __version__
 from ..cautions import CAUTIONS
-from ..findings import pressure_sides
+from ..display import Display
+from . import writer
 
 
 def summarize(result) -> dict:
@@ -44,9 +45,7 @@ def summarize(result) -> dict:
     if "top_m" in t.columns:
         out["cover_min_m"] = float(t["cover_m"].min())
         out["cover_max_m"] = float(t["cover_m"].max())
-        from .layers import clearance_achieved
-
-        for c, achieved in zip(out["crossings"], clearance_achieved(result)):
+        for c, achieved in zip(out["crossings"], result.clearances.achieved):
             c["clearance_achieved_m"] = float(achieved)
     if result.profile is not None:
         out["excavation_m3"] = float(result.profile.excavation_volume)
@@ -58,23 +57,24 @@ def summarize(result) -> dict:
         out["findings"] = int(len(result.findings))
         sep = result.findings[result.findings["check"] == "column separation"]["scenario"]
         out["column_separation"] = list(dict.fromkeys(sep))
-    if result.gradelines is None:
+    g = result.grades
+    if g is None:
         return out
     cases = {}
-    if result.cases is not None and len(result.cases):
-        cases = {r["scenario"]: r for r in result.cases.to_dict("records")}
-        out["boundary"] = str(result.cases["boundary"].iloc[0])
-    for name, g in result.gradelines.groupby("scenario", sort=False):
+    if len(g.cases):
+        cases = {r["scenario"]: r for r in g.cases.to_dict("records")}
+        out["boundary"] = str(g.cases["boundary"].iloc[0])
+    for k, name in enumerate(g.names):
         # Lowest and highest pressure on either side of any point loss.
-        p_lo, p_hi, _ = (x / 1e3 for x in pressure_sides(g, t["axis_m"].to_numpy()))
+        p_lo, p_hi = g.pressure_low[k] / 1e3, g.pressure_high[k] / 1e3
         i, j = int(np.argmin(p_lo)), int(np.argmax(p_hi))
         row = {
-            "scenario": name, "flow_m3_s": float(g["flow_m3_s"].iloc[0]),
-            "velocity_max_m_s": float(g["velocity_m_s"].max()),
+            "scenario": name, "flow_m3_s": float(g.flow[k, 0]),
+            "velocity_max_m_s": float(g.velocity[k].max()),
             "pressure_min_kpa": float(p_lo[i]), "pressure_min_station_m": float(s[i]),
             "pressure_max_kpa": float(p_hi[j]), "pressure_max_station_m": float(s[j]),
-            "hgl_start_m": float(g["hgl_m"].iloc[0]),
-            "hgl_end_m": float(g["hgl_m"].iloc[-1]),
+            "hgl_start_m": float(g.hgl[k, 0]),
+            "hgl_end_m": float(g.hgl[k, -1]),
             # False where the pressure falls below vapour pressure somewhere:
             # the grade lines are then not physically reachable at this flow
             "achievable": name not in out.get("column_separation", []),
@@ -105,54 +105,58 @@ def _plain(obj):
 
 
 def summary_text(summary: dict) -> str:
-    """A short human-readable account of the run."""
-    from ..alignment import format_station as label
+    """A short human-readable account of the run, in its display units."""
+    d = Display(summary.get("display_units", "SI"))
 
-    units = summary.get("display_units", "SI")
+    def at(station_m):
+        return d.station([station_m])[0]
 
-    def format_station(values):
-        return label(values, units)
+    def m(value, decimals=2):
+        return d.text(value, "length", decimals)
 
+    band = summary.get("ground_band_95_m")
     lines = [
-        f"route: {summary['length_m']:.1f} m in {summary['working_crs']} "
+        f"route: {m(summary['length_m'], 1)} in {summary['working_crs']} "
         f"({summary['stations']} stations)",
-        f"ground: {summary['ground_min_m']:.2f} to {summary['ground_max_m']:.2f} m"
-        + (f" (95 % band +/- {summary['ground_band_95_m']:.2f} m)"
-           if summary.get("ground_band_95_m") is not None else ""),
+        f"ground: {d.number(summary['ground_min_m'], 'elevation')} to "
+        f"{d.text(summary['ground_max_m'], 'elevation')}"
+        + (f" (95 % band +/- {m(band)})" if band is not None else ""),
     ]
     if "cover_min_m" in summary:
-        lines.append(f"cover: {summary['cover_min_m']:.2f} to {summary['cover_max_m']:.2f} m")
+        lines.append(f"cover: {d.number(summary['cover_min_m'], 'length', 2)} to "
+                     f"{m(summary['cover_max_m'])}")
     if summary.get("ground_bridged_stations"):
         lines.append(f"ground bridged over nodata at {summary['ground_bridged_stations']} stations")
     lines += [f"note: {n}" for n in summary["notes"]]
     for c in summary["crossings"]:
-        achieved = (f"clearance {c['clearance_achieved_m']:.2f} m (required "
-                    f"{c['clearance_required_m']:.2f} m)" if "clearance_achieved_m" in c
-                    else f"bottom {c['bottom_m']:.2f} m")
-        lines.append(f"crossing {c['name']} at {format_station([c['station_m']])[0]}: {achieved}")
+        achieved = (f"clearance {m(c['clearance_achieved_m'])} (required "
+                    f"{m(c['clearance_required_m'])})" if "clearance_achieved_m" in c
+                    else f"bottom {d.text(c['bottom_m'], 'elevation')}")
+        lines.append(f"crossing {c['name']} at {at(c['station_m'])}: {achieved}")
     separated = set(summary.get("column_separation", []))
     for sc in summary["scenarios"]:
-        low = (f"{sc['pressure_min_kpa']:.0f} kPa" if sc["scenario"] not in separated
+        low = (d.text(sc["pressure_min_kpa"] * 1e3, "pressure") if sc["scenario"] not in separated
                else "below vapour pressure (not achievable)")
         lines.append(
-            f"{sc['scenario']}: {sc['flow_m3_s'] * 1e3:.1f} L/s, pressure "
-            f"{low} at {format_station([sc['pressure_min_station_m']])[0]}"
-            f" to {sc['pressure_max_kpa']:.0f} kPa at "
-            f"{format_station([sc['pressure_max_station_m']])[0]}, "
-            f"max velocity {sc['velocity_max_m_s']:.2f} m/s"
+            f"{sc['scenario']}: {d.text(sc['flow_m3_s'], 'flow')}, pressure "
+            f"{low} at {at(sc['pressure_min_station_m'])}"
+            f" to {d.text(sc['pressure_max_kpa'] * 1e3, 'pressure')} at "
+            f"{at(sc['pressure_max_station_m'])}, "
+            f"max velocity {d.text(sc['velocity_max_m_s'], 'velocity')}"
         )
         if "required_head_m" in sc:
-            pump = (f"; pump head needed {sc['pump_head_m']:.2f} m beyond the available source head"
-                    if "pump_head_m" in sc else "")
-            lines.append(f"  {sc['scenario']}: source head needed {sc['required_head_m']:.2f} m "
+            pump = (f"; pump head needed {d.text(sc['pump_head_m'], 'head')} beyond the available "
+                    "source head" if "pump_head_m" in sc else "")
+            lines.append(f"  {sc['scenario']}: source head needed {d.text(sc['required_head_m'], 'head')} "
                          f"for the required pressure{pump}")
         elif summary.get("boundary") == "two-heads" and "end_head_m" in sc:
             lines.append(f"  {sc['scenario']}: flow solved between source head "
-                         f"{sc['source_head_m']:.2f} m and end head {sc['end_head_m']:.2f} m")
+                         f"{d.text(sc['source_head_m'], 'head')} and end head "
+                         f"{d.text(sc['end_head_m'], 'head')}")
     if "excavation_m3" in summary:
-        lines.append(f"earthwork: trench {summary['trench_volume_m3']:.0f} m3, of which "
-                     f"{summary['excavation_m3']:.1f} m3 below the minimum-cover line; "
-                     f"pipe length (3D) {summary['pipe_length_3d_m']:.1f} m")
+        lines.append(f"earthwork: trench {d.text(summary['trench_volume_m3'], 'volume')}, of which "
+                     f"{d.text(summary['excavation_m3'], 'volume', 1)} below the minimum-cover line; "
+                     f"pipe length (3D) {m(summary['pipe_length_3d_m'], 1)}")
     if "findings" in summary:
         lines.append(f"findings: {summary['findings']}; bends: {summary['bends']}; "
                      f"rules relaxed: {len(summary['relaxations'])}")
@@ -165,6 +169,7 @@ def summary_text(summary: dict) -> str:
     return "\n".join(lines)
 
 
-def write_summary(result, folder: Path) -> None:
+@writer("summary.json", "summary.txt")
+def write_summary(result, folder: Path, display=None) -> None:
     (folder / "summary.json").write_text(json.dumps(result.summary, indent=2) + "\n")
     (folder / "summary.txt").write_text(summary_text(result.summary) + "\n")
