@@ -1,0 +1,23 @@
+"""``gisgrade run``: every stage on a project file, and every output."""
+from __future__ import annotations
+
+from pathlib import Path
+
+import click
+
+from . import caution_help, setup_logging, verbosity
+from .common import compute_and_write
+
+
+@click.command("run", short_help="run every stage on a project file and write the outputs",
+               help=caution_help(
+                   "Run every stage on PROJECT (TOML) and write profile.csv, gradelines.csv, "
+                   "findings.csv, fittings.csv, layers.gpkg, profile.png and summary files.",
+                   "gisgrade run project.toml -o out"))
+@click.argument("project", type=click.Path(path_type=Path))
+@click.option("-o", "--outdir", type=click.Path(path_type=Path), default=None,
+              help="output folder (default: [output] dir, else gisgrade-out beside PROJECT)")
+@verbosity
+def command(project, outdir, verbose, quiet):
+    verbose, quiet = setup_logging(verbose, quiet)
+    return compute_and_write(project, outdir, quiet)
