@@ -18,7 +18,6 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from .errors import InputError
-from .findings import Thresholds
 from .units import parse_quantity
 
 if sys.version_info >= (3, 11):
@@ -30,6 +29,19 @@ else:  # pragma: no cover
 # --------------------------------------------------------------------------
 # Section configs (SI floats, resolved paths)
 # --------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class ChecksConfig:
+    """Planning checks (defaults: common practice, see docs/hydraulics.md)."""
+
+    min_pressure: float = 140e3  # Pa: 20 psi floor under all demands (common practice)
+    max_pressure: float = 550e3  # Pa: upper end of normal working pressure, 80 psi (common practice)
+    min_velocity: float = 0.0  # m/s: 0 disables the check
+    max_velocity: float = 3.0  # m/s: upper end even in fire flow (common practice)
+
+
+Thresholds = ChecksConfig
 
 
 @dataclass(frozen=True)

@@ -81,7 +81,8 @@ def test_single_crossing_symmetric_dip_at_full_joint_deflection(p_, h):
     clearance = 0.45  # water main over/under sewer: 18 in (Ten States Standards, from memory)
     limit = cover_line - depth + clearance
     x = 300.0
-    rules = DesignRules(min_cover=1.2, joint_length=JOINT, max_joint_deflection=DELTA)
+    rules = DesignRules(min_cover=1.2, joint_length=JOINT, max_joint_deflection=DELTA,
+                        trench_width=1.0)
     prof = design_profile(s, ground, [Crossing(x, limit, clearance, name="sewer")], rules)
 
     expected = np.full(len(s), cover_line)

@@ -75,10 +75,9 @@ clearance = "0.3 m"
     assert not r.relaxations
     # Over the tunnel: allowed; at minimum cover the pipe's bottom clears its top
     # by 98.8 - 0.32 - 95.0 = 3.48 m.
-    from gisgrade.output.layers import clearance_achieved
     sides = dict(zip(r.crossings.name, r.crossings.side))
     assert sides["tunnel"] == "over" and sides["duct"] == "under"
-    achieved = dict(zip(r.crossings.name, clearance_achieved(r)))
+    achieved = dict(zip(r.crossings.name, r.clearances.achieved))
     assert achieved["tunnel"] == pytest.approx(98.8 - 0.32 - 95.0, abs=1e-6)
 
 
@@ -125,9 +124,8 @@ clearance = "0.3 m"
         assert top[at][0] <= 97.0 - 0.3 + 1e-6
     # achieved clearance: the least of bottom - top of pipe at the centre and at
     # both edges (plane geometry), from the top of pipe alone
-    from gisgrade.output.layers import clearance_achieved
     least = min(97.0 - np.interp(s, st, top) for s in (497.0, 500.0, 503.0))
-    assert clearance_achieved(r)[0] == pytest.approx(least, abs=1e-9)
+    assert r.clearances.achieved[0] == pytest.approx(least, abs=1e-9)
     assert least >= 0.3 - 1e-6
 
 
@@ -289,7 +287,7 @@ def test_cover_findings_where_the_pipe_has_too_little_cover(tmp_path):
     lift = (t["station_m"] >= 300.0) & (t["station_m"] <= 320.0)
     t.loc[lift, "top_m"] += 0.5
     t["cover_m"] = 100.0 - t["top_m"]
-    found = stage_findings(r.project, t, r.gradelines, [])
+    found = stage_findings(r.project, t, r.grades, [])
     cover = found[found["check"] == "cover"]
     assert len(cover) == 1
     row = cover.iloc[0]

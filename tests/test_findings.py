@@ -51,7 +51,7 @@ def _findings(flat_project, axis):
     p = load(flat_project)
     t = stage_pipe(p, pd.DataFrame({"station_m": S, "axis_m": axis}))
     t = t.assign(top_m=t["axis_m"] + t["outside_diameter_m"] / 2, cover_m=1.5, min_cover_m=1.2)
-    grades, _ = stage_hydraulics(p, t, NO_BENDS)
+    grades = stage_hydraulics(p, t, NO_BENDS)
     return t, grades, stage_findings(p, t, grades)
 
 
@@ -106,7 +106,7 @@ def test_flowing_pressure_findings_follow_their_definitions(flat_project):
     # differences); there are none in this profile.
     axis = _axis()
     t, grades, found = _findings(flat_project, axis)
-    g = grades[grades["scenario"] == "design"]
+    g = grades.frame()[lambda f: f["scenario"] == "design"]
     top = t["top_m"].to_numpy()
     hgl = np.minimum(g["hgl_m"], g["hgl_upstream_m"]).to_numpy()
     hgl_hi = np.maximum(g["hgl_m"], g["hgl_upstream_m"]).to_numpy()

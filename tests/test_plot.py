@@ -31,16 +31,12 @@ def test_vertical_exaggeration_from_page_size_and_limits(size, rect, xlim, ylim,
         plt.close(fig)
 
 
-def test_profile_sheet_prints_the_exaggeration_of_its_own_axes(flat_project, tmp_path, monkeypatch):
+def test_profile_sheet_prints_the_exaggeration_of_its_own_axes(flat_project):
     # The title's "vertical exaggeration Nx" is recomputed here from the drawn
     # upper axes: page size (inches) x axes fraction, and its data limits.
-    from gisgrade.pipeline import run
+    import gisgrade
 
-    figures = []
-    monkeypatch.setattr(plot.plt, "close", lambda fig=None: figures.append(fig))
-    r = run(flat_project, write=False)
-    plot.plot_profile(r, tmp_path / "p.png")
-    fig = figures[-1]
+    fig = plot.profile_figure(gisgrade.compute(flat_project))
     ax = fig.axes[0]
     w_in, h_in = fig.get_size_inches()
     pos = ax.get_position()
@@ -48,6 +44,4 @@ def test_profile_sheet_prints_the_exaggeration_of_its_own_axes(flat_project, tmp
     y0, y1 = ax.get_ylim()
     ve = (abs(x1 - x0) / (pos.width * w_in)) / (abs(y1 - y0) / (pos.height * h_in))
     title = ax.get_title(loc="left")
-    monkeypatch.undo()
-    plt.close(fig)
     assert f"(vertical exaggeration {ve:.0f}x)" in title

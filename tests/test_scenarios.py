@@ -63,12 +63,13 @@ def table(p, station, axis):
 
 def run(p, station, axis):
     t = table(p, station, axis)
-    grades, cases = stage_hydraulics(p, t, NO_BENDS)
-    return t, grades, cases
+    grades = stage_hydraulics(p, t, NO_BENDS)
+    return t, grades, grades.cases
 
 
 def case(grades, name):
-    return grades[grades["scenario"] == name].reset_index(drop=True)
+    frame = grades.frame()
+    return frame[frame["scenario"] == name].reset_index(drop=True)
 
 
 STATIONS = np.arange(0.0, 1000.0 + 1e-9, 10.0)
@@ -190,7 +191,7 @@ def test_scenarios_scale_inflow_and_offtakes_and_static_is_always_last(flat_proj
     p = project(flat_project, extra=extra)
     axis = np.full(STATIONS.shape, 100.0)
     t, grades, _ = run(p, STATIONS, axis)
-    assert list(dict.fromkeys(grades["scenario"])) == ["average day", "fire", "static"]
+    assert list(grades.names) == ["average day", "fire", "static"]
     avg, fire = case(grades, "average day"), case(grades, "fire")
     # 0.5 x (50 L/s in, 10 L/s out); fire = 100 L/s, i.e. 2 x the base case (exact).
     assert avg["flow_m3_s"].iloc[0] == pytest.approx(0.025)
@@ -385,7 +386,7 @@ def test_column_separation_where_absolute_pressure_falls_below_vapour_pressure(f
     assert sep["limit"].iloc[0] == pytest.approx(p_v / 1e3, rel=1e-4)  # our Wagner-Pruss vs IF97
     top = t["top_m"].to_numpy()
     atm = np.array([ATMOSPHERE_1976(float(z)).P for z in top])
-    for name, g in grades.groupby("scenario", sort=False):
+    for name, g in grades.frame().groupby("scenario", sort=False):
         hgl = np.minimum(g["hgl_m"], g["hgl_upstream_m"]).to_numpy()
         absolute = rho_iapws() * G * (hgl - top) + atm
         rows = sep[sep["scenario"] == name]
@@ -399,7 +400,7 @@ def test_column_separation_where_absolute_pressure_falls_below_vapour_pressure(f
     # The sub-atmospheric finding stays: in each scenario it flags exactly the
     # stations where the lower side of the HGL is below the top of pipe (the
     # definition, field notes), with the worst depth below the top.
-    for name, g in grades.groupby("scenario", sort=False):
+    for name, g in grades.frame().groupby("scenario", sort=False):
         hgl = np.minimum(g["hgl_m"], g["hgl_upstream_m"]).to_numpy()
         rows = found[(found["check"] == "sub-atmospheric") & (found["scenario"] == name)]
         flagged = np.zeros(len(STATIONS), bool)
