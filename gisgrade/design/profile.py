@@ -32,6 +32,11 @@ from .rules import PRIORITY, Crossing, DesignRules, PipeProfile, Relaxation, tre
 TOL = 1e-6
 #: Linearization error (rad) at which the sequential solves stop.
 SLP_TOL = 1e-8
+#: With the pipe's joints as knots: the joints are held this much (rad,
+#: 0.0006 deg) inside their allowance, and a linearization error below it
+#: ends the solves (the true angles then keep the allowance); bends hold their
+#: standard angle to within it.
+JOINT_MARGIN = 1e-5
 #: Linearization error (rad) enough while turning is still short (more bends to come).
 SLP_ROUGH = 1e-3
 #: Most linear solves per sequential-linearization loop.
@@ -49,6 +54,11 @@ BEND_WEIGHT = 1e-1
 #: rest are then settled with these held (stage 2), so a rule below joint
 #: deflection never buys relief for one above it.
 UPPER_RULES = PRIORITY[:3]
+#: Cost of 1 m^3 of trench below the maximum cover where a crossing forces
+#: it (max cover is elastic there): far above excavation and bend costs, so
+#: the dip is as small as the rules above max cover allow, fittings included
+#: (as in the least-violation solve, where bends are nearly free).
+MAX_COVER_COST = 1e6
 #: Weight of excavation (per m of depth at a mean station) in that solve.
 EXCAVATION_WEIGHT = 1e-3
 
@@ -107,6 +117,8 @@ class _Problem:
     upper_lp: np.ndarray = None  # upper and lower with pointwise contradictions
     lower_lp: np.ndarray = None  # settled by priority (see _settle_pointwise)
     steep: np.ndarray = None     # knot segments whose grade is held within MAX_PIPE_GRADE by a row
+    margin: float = 0.0          # rad the joints are held inside their allowance (JOINT_MARGIN)
+    soft_mc: np.ndarray = None   # stations where max cover is elastic (beside deep crossings)
 
     @property
     def n(self):
@@ -243,6 +255,14 @@ def _prepare(station, ground, crossings, rules) -> tuple[_Problem, np.ndarray, n
                  st_ct=np.array(stc, float))
     P.upper_lp, P.lower_lp = _settle_pointwise(P)
     P.steep = np.abs(np.diff(P.ground) / h) > MAX_PIPE_GRADE / 2 if m > 1 else np.zeros(0, bool)
+    P.margin = JOINT_MARGIN if rules.knots is not None else 0.0
+    P.soft_mc = np.zeros(n, bool)
+    if rules.knots is not None and len(P.cj):
+        low_at = np.interp(np.array([c.station for c in crossings]), st, np.where(np.isfinite(lower), lower, -1e300))
+        deep = np.flatnonzero((P.csign > 0) & (P.crhs < low_at - TOL))
+        for c in deep:  # few
+            reach = 10 * rules.joint_length + 20 * (low_at[c] - P.crhs[c])
+            P.soft_mc |= np.abs(st - crossings[c].station) <= reach
     return P, group, first
 
 
@@ -294,13 +314,21 @@ def _build(P: _Problem, ghat, bends, mg_dir, mode, caps, strict=False, stage=2, 
     R, C, V, rhs = [], [], [], []
     nrow = 0
 
-    def add_rows(rows, cols, vals, b, name=None, weight=None):
-        """Rows ``A x <= b``; in "least" mode each row gets its own slack."""
+    def add_rows(rows, cols, vals, b, name=None, weight=None, elastic=None):
+        """Rows ``A x <= b``; in "least" mode each row gets its own slack;
+        ``elastic`` (a cost per unit of slack) gives the rows slack in any mode."""
         nonlocal nrow, nv
         k = len(b)
         rows, cols, vals = np.asarray(rows), np.asarray(cols), np.asarray(vals, float)
         soft = name in GRADE_RULES and not least  # always elastic, at MIN_GRADE_COST
-        if (least or soft) and name is not None:
+        if elastic is not None:
+            layout[name] = (nv, nv + k)
+            rows, cols, vals = np.r_[rows, np.arange(k)], np.r_[cols, nv + np.arange(k)], np.r_[vals, -np.ones(k)]
+            cost.append(np.asarray(elastic, float))
+            lo.append(np.zeros(k))
+            hi.append(np.full(k, np.inf))
+            nv += k
+        elif (least or soft) and name is not None:
             layout[name] = (nv, nv + k)
             rows, cols, vals = np.r_[rows, np.arange(k)], np.r_[cols, nv + np.arange(k)], np.r_[vals, -np.ones(k)]
             base = name.rstrip(" +-")
@@ -338,13 +366,24 @@ def _build(P: _Problem, ghat, bends, mg_dir, mode, caps, strict=False, stage=2, 
         up = upper + cap("min cover", ns)
         low = lower.copy()
         low[fin] -= cap("max cover", len(fin))
-        lo[0] = low[P.kidx]
+        # beside a crossing deeper than the maximum cover, max cover is elastic
+        # (it must give way there; its cost keeps the dip as shallow and short as
+        # the rules above it allow), so no least-violation solve is needed for it
+        soft = P.soft_mc & np.isfinite(low)
+        hard_low = np.where(soft, -np.inf, low)
+        lo[0] = hard_low[P.kidx]
         hi[0] = up[P.kidx]
         o = P.other
-        if len(o):
-            add_rows(*interp_rows(o, 1.0), up[o])
-            of = o[np.isfinite(low[o])]
-            add_rows(*interp_rows(of, -1.0), -low[of])
+        if len(o):  # a straight piece under (over) its points: the hull's vertices suffice
+            keep = _hull(P.st, up, P.sj, o, P.kidx, below=True)
+            add_rows(*interp_rows(keep, 1.0), up[keep])
+            of = o[np.isfinite(hard_low[o])]
+            keep = _hull(P.st, hard_low, P.sj, of, P.kidx, below=False)
+            add_rows(*interp_rows(keep, -1.0), -hard_low[keep])
+        sf = np.flatnonzero(soft)
+        if len(sf):
+            add_rows(*interp_rows(sf, -1.0), -low[sf], "max cover elastic",
+                     elastic=MAX_COVER_COST * P.st_wt[sf])
 
     # crossings: csign * ((1-t) z_j + t z_{j+1}) <= csign * rhs
     k = len(P.cj)
@@ -386,8 +425,8 @@ def _build(P: _Problem, ghat, bends, mg_dir, mode, caps, strict=False, stage=2, 
         for sgn in (1.0, -1.0):
             add_rows(np.tile(np.arange(q), 4), np.r_[i[free] - 1, i[free], i[free] + 1, n + free],
                      np.r_[sgn * cm[free], sgn * cc[free], sgn * cp[free], -np.ones(q)],
-                     P.allow[free] - sgn * c0[free])
-        if r.grade_break_cost > 0:
+                     np.maximum(P.allow[free] - P.margin, 0.0) - sgn * c0[free])
+        if r.grade_break_cost > 0 and not least:
             # l1 penalty on the change of grade at each knot: |theta| <= t, cost per rad
             # (in the least violation, scaled as the excavation is: a tie-breaker)
             layout["grade break"] = (nv, nv + q)
@@ -425,6 +464,36 @@ def _build(P: _Problem, ghat, bends, mg_dir, mode, caps, strict=False, stage=2, 
         b = np.concatenate(rhs)
     bounds = np.c_[np.concatenate(lo), np.concatenate(hi)]
     return np.concatenate(cost), A, b, Aeq, beq, bounds, layout
+
+
+def _hull(x, y, seg, idx, kidx, below=True):
+    """The stations of ``idx`` (points between knots) that a straight piece
+    must be checked at: the vertices of the lower (``below``) or upper convex
+    hull of each knot segment's points, its end knots (station indices
+    ``kidx[seg]``, ``kidx[seg + 1]``) included. A line under (over) those
+    vertices is under (over) every point of the segment, and a point on or
+    above the chord of two others is no hull vertex, so such points are
+    dropped until none is left.
+
+    >>> x = np.arange(6.0); y = np.array([0.0, 1, -1, 2, 3, 0])
+    >>> _hull(x, y, np.zeros(6, int), np.arange(1, 5), np.array([0, 5])).tolist()
+    [2]
+    """
+    idx = np.asarray(idx, int)
+    sign = 1.0 if below else -1.0
+    k = idx
+    while len(k):
+        same_p = np.r_[False, seg[k[1:]] == seg[k[:-1]]]
+        same_n = np.r_[seg[k[:-1]] == seg[k[1:]], False]
+        left = np.where(same_p, np.r_[0, k[:-1]], kidx[seg[k]])
+        right = np.where(same_n, np.r_[k[1:], 0], kidx[np.minimum(seg[k] + 1, len(kidx) - 1)])
+        t = (x[k] - x[left]) / (x[right] - x[left])
+        chord = (1 - t) * y[left] + t * y[right]
+        above = sign * (y[k] - chord) >= -1e-12
+        if not above.any():
+            break
+        k = k[~above]
+    return k
 
 
 def _bend_arrays(bends, n):
@@ -466,7 +535,7 @@ def _solve(P, ghat, bends, mg_dir, mode, caps=None, max_iter=SLP_MAX, strict=Fal
         lin = _turn(ghat) + a[1:] * (g[1:] - ghat[1:]) - a[:-1] * (g[:-1] - ghat[:-1])
         err = float(np.max(np.abs(_turn(g) - lin)))
         sol.err = err
-        sol.done = err <= SLP_TOL or (err <= SLP_ROUGH and sol.excess.max() > TOL)
+        sol.done = err <= max(SLP_TOL, P.margin) or (err <= SLP_ROUGH and sol.excess.max() > TOL)
         if err <= best_err:
             best, best_err = sol, err
         if sol.done:
@@ -647,7 +716,9 @@ def design_profile(station, ground, crossings=(), rules: DesignRules | None = No
     crossings = list(crossings)
     P, group, first = _prepare(station, ground, crossings, rules)
     n = P.n
-    ghat = _grades(P.ground, P.h)
+    # first linearized about level pipe when laid in joints (the ground's
+    # grades between knots are noise), else about the ground
+    ghat = np.zeros(max(P.n - 1, 0)) if rules.knots is not None else _grades(P.ground, P.h)
     bends: dict = {}
     prev_bends: dict = {}
     mg_dir = caps = sol = None
@@ -681,9 +752,10 @@ def design_profile(station, ground, crossings=(), rules: DesignRules | None = No
         # either side are held to one direction, the bends placed kept
         mg_dir = _grade_directions(sol.z, P.ground, P.h, 1e-7, rules.high_point_tolerance,
                                    _rule_shaped(P))
-        new, _ = _attempt(P, sol.g, bends, mg_dir, caps)
-        if new is not None:
-            sol, ghat = new, new.g
+        if np.any(mg_dir * sol.g < -TOL):  # some were merged away: solve with the directions
+            new, _ = _attempt(P, sol.g, bends, mg_dir, caps)
+            if new is not None:
+                sol, ghat = new, new.g
     if sol is not None and n > 2 and sol.excess.max() > TOL:
         # turning beyond the joints that no standard bend could take: keep the
         # joints at their priority, letting lower rules (max cover, grades) give way
@@ -735,7 +807,7 @@ def _finish(P, sol, bends, crossings, group, first, station, mg_dir=None) -> Pip
     report("max cover", P.lower - zs, at_st, "m")
     over = np.where(is_bend, 0.0, np.abs(turn) - np.nan_to_num(allow, nan=np.inf))
     report("joint deflection", over, at, "rad")
-    report("bend angle", np.where(is_bend, np.abs(turn - target), 0.0), at, "rad")
+    report("bend angle", np.where(is_bend, np.abs(turn - target) - P.margin, 0.0), at, "rad")
     if r.max_transition_grade is not None and n > 1:
         report("max grade", np.abs(g) - r.max_transition_grade, seg, "m/m")
     if r.min_grade is not None and n > 1:
