@@ -7,11 +7,12 @@ straight lengths, *common practice*), or, beyond that, by standard bend
 fittings whose angles come closest with the fewest fittings, the joints
 taking the rest. A joint's deflection is the angle between its two pipe
 lengths in 3D, so a joint that takes a share of a plan turn has only the
-rest left for a change of grade: sqrt(delta^2 - share^2) [1].
+rest left for a change of grade [1] (:func:`vertical_allowance`).
 
-[1] The angle between two unit vectors whose horizontal and vertical
-    components are orthogonal: cos(theta) = cos(a) cos(b) for small grades;
-    exactly, :func:`deflection_3d`.
+[1] The angle between two pipe lengths whose plan and vertical turns are
+    orthogonal components: cos(theta) = cos(a) cos(b) (exact for a level
+    pipe, within a hair for water-main grades); the drawn polyline's own
+    angles: :func:`deflection_3d`.
 """
 from __future__ import annotations
 
@@ -87,6 +88,28 @@ def fewest_fittings(turn: float, angles, capacity: float, max_count: int = 3) ->
     return min(combos, key=lambda c: (abs(turn - sum(c)), len(c)))
 
 
+def vertical_allowance(delta, share):
+    """The change of grade (rad) a joint allowed ``delta`` rad may still take
+    when it turns ``share`` rad in plan: cos(delta) = cos(share) cos(b) for the
+    two orthogonal components, so b = arccos(cos delta / cos share).
+
+    >>> round(float(np.degrees(vertical_allowance(np.radians(3), np.radians(2)))), 4)
+    2.2365
+    """
+    share = np.minimum(np.abs(share), delta)
+    return np.arccos(np.clip(np.cos(delta) / np.cos(share), -1.0, 1.0))
+
+
+def joint_deflection(share, vertical):
+    """The deflection (rad) of a joint turning ``share`` rad in plan and
+    ``vertical`` rad in grade: arccos(cos(share) cos(vertical)).
+
+    >>> round(float(np.degrees(joint_deflection(np.radians(2), np.radians(2.2365)))), 3)
+    3.0
+    """
+    return np.arccos(np.clip(np.cos(share) * np.cos(vertical), -1.0, 1.0))
+
+
 @dataclass(frozen=True)
 class PlanDesign:
     """How each vertex's plan turn is taken."""
@@ -124,6 +147,6 @@ def plan_design(station, x, y, knots, delta: float, angles, curve_joints: int = 
         if k:
             near = knot_idx[np.argsort(np.abs(s[knot_idx] - s[v]), kind="stable")[:k]]
             share[near] += abs(rest) / k
-    allowance = np.sqrt(np.maximum(delta ** 2 - share ** 2, 0.0))
+    allowance = vertical_allowance(delta, share)
     fittings = pd.DataFrame(rows, columns=["index", "angle", "direction", "combo"])
     return PlanDesign(turn, share, allowance, fittings)

@@ -633,6 +633,9 @@ def _grade_directions(z, ground, h, flat: float, tolerance: float, protected=Non
     >>> z = np.array([0.0, 1.0, 2.0, 1.9, 3.0, 4.0, 2.0, 0.0])
     >>> _grade_directions(z, z, np.ones(7), 1e-9, 0.5).tolist()
     [1.0, 1.0, 1.0, 1.0, 1.0, -1.0, -1.0]
+    >>> z = np.array([0.0, 0.1, -2.0, -3.0, -3.2, -3.1])  # small runs at both ends go
+    >>> _grade_directions(z, z, np.ones(5), 1e-9, 0.5).tolist()
+    [-1.0, -1.0, -1.0, -1.0, -1.0]
     """
     g = np.diff(z) / h
     sign = np.where(g >= flat, 1.0, np.where(g <= -flat, -1.0, 0.0))
@@ -642,6 +645,7 @@ def _grade_directions(z, ground, h, flat: float, tolerance: float, protected=Non
         new = np.r_[True, sign[steep][1:] != sign[steep][:-1]]
         first = steep[new]
         last = steep[np.r_[new[1:], True]]
+        way = sign[first]  # each run's direction
         guard = np.zeros(len(g) + 1) if protected is None else np.r_[0, np.cumsum(protected)]
         while len(first) > 1:
             rise = np.abs(z[last + 1] - z[first])
@@ -652,19 +656,20 @@ def _grade_directions(z, ground, h, flat: float, tolerance: float, protected=Non
             k = int(np.argmin(rise))
             if rise[k] >= tolerance:
                 break
-            if k == 0:
-                first, last = first[1:], last[1:]
+            if k == 0:  # the first run joins the second
+                first, last, way = first[1:], last[1:], way[1:]
                 first[0] = 0
-            elif k == len(first) - 1:
-                first, last = first[:-1], last[:-1]
+            elif k == len(first) - 1:  # the last run joins the one before
+                first, last, way = first[:-1], last[:-1], way[:-1]
                 last[-1] = len(g) - 1
             else:  # the run and its two neighbours become one
-                last = np.r_[last[:k - 1], last[k + 1], last[k + 2:]]
+                last = np.r_[last[:k - 1], last[k + 1:]]
                 first = np.r_[first[:k], first[k + 2:]]
-        for a, b in zip(first, last):
-            d[a:b + 1] = sign[a]
-        d[:first[0]] = sign[first[0]]
-        d[last[-1] + 1:] = sign[last[-1]]
+                way = np.r_[way[:k], way[k + 2:]]
+        for a, b, w in zip(first, last, way):
+            d[a:b + 1] = w
+        d[:first[0]] = way[0]
+        d[last[-1] + 1:] = way[-1]
     flat_run = d == 0  # between runs of opposite direction, or no direction at all
     if flat_run.any():
         run = np.cumsum(flat_run & ~np.r_[False, flat_run[:-1]])

@@ -16,7 +16,7 @@ import pandas as pd
 from .. import alignment as al
 from .crossings import choose_sides, design_crossings
 from .fittings import fittings_table
-from .plan import deflection_3d, plan_design
+from .plan import joint_deflection, plan_design
 from .points import high_low_points
 from .profile import design_profile
 from .rules import DesignRules, trench_width
@@ -75,8 +75,10 @@ def stage_design(project, table: pd.DataFrame, crossings):
     """Pipe profile: top of pipe, axis, invert and cover at every station.
 
     Returns ``(table, design)``: the grown table (``top_m, axis_m, invert_m,
-    cover_m``, the limits, vertical and 3D deflection, plan turn, reason)
-    and a :class:`Design`.
+    cover_m``, the limits, the change of grade at each joint
+    ``deflection_deg``, the centerline's plan turn ``plan_turn_deg``, the
+    share of it each joint takes ``plan_share_deg``, the joint's whole (3D)
+    deflection ``joint_deflection_deg``, reason) and a :class:`Design`.
     """
     station = table["station_m"].to_numpy()
     ground = table["ground_m"].to_numpy()
@@ -103,7 +105,9 @@ def stage_design(project, table: pd.DataFrame, crossings):
         deflection_deg=np.degrees(profile.deflection),
         deflection_limit_deg=np.degrees(profile.deflection_limit),
         plan_turn_deg=np.degrees(plan.turn),
-        deflection_3d_deg=np.degrees(deflection_3d(x, y, axis)),
+        plan_share_deg=np.degrees(plan.share),
+        joint_deflection_deg=np.degrees(np.where(
+            knots, joint_deflection(plan.share, profile.deflection), 0.0)),
         reason=profile.reason,
     )
     points = high_low_points(station, profile.top, profile.reason, near=cfg.joint_length)

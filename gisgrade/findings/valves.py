@@ -12,10 +12,10 @@ against the current edition before citing a clause):
 3. an increase in downward slope: **air-vacuum**; a decrease in upward
    slope: **air-release**, where the grade changes by at least
    ``grade_change`` (grade breaks within ``merge_distance`` count as one);
-4. along long runs, so that no stretch between valves or run ends exceeds
-   ``interval``: **air-release** on ascending runs, **air-vacuum** on
-   descending runs, **combination** on near-horizontal runs (flatter than
-   ``flat_grade``);
+4. along long runs, so that no stretch between air valves (or the line's
+   ends) exceeds ``interval``: **air-release** on ascending runs,
+   **air-vacuum** on descending runs, **combination** on near-horizontal runs
+   (flatter than ``flat_grade``);
 5. both ends of a near-horizontal run longer than ``flat_run``:
    **combination**;
 6. every low point: a **drain** (blow-off).
@@ -115,29 +115,27 @@ def _slope_changes(s, g, knots, rules):
 
 
 def _runs(s, g, knots, rules, placed):
-    """Rules 4 and 5: valves along long runs and at the ends of long level runs."""
+    """Rules 4 and 5: the ends of long near-horizontal runs; then valves so
+    that no stretch between air valves (or the line's ends) is longer than
+    the interval, evenly spaced, the kind by the run each falls in."""
     cls = np.where(g > rules.flat_grade, 1, np.where(g < -rules.flat_grade, -1, 0))
     change = np.flatnonzero(np.diff(cls)) + 1
-    starts, stops = np.r_[0, change], np.r_[change, len(g)]  # segment ranges
-    kinds = {1: ("air-release", "long ascending run"), -1: ("air-vacuum", "long descending run"),
-             0: ("combination", "long near-horizontal run")}
-    placed = np.sort(np.asarray(placed, float))
-    knot_s = s[knots]
     out = []
-    for a, b in zip(starts, stops):  # runs: few
-        c = int(cls[a])
-        lo, hi = s[a], s[b]
-        if c == 0 and hi - lo >= rules.flat_run:
+    for a, b in zip(np.r_[0, change], np.r_[change, len(g)]):  # runs: few
+        if cls[a] == 0 and s[b] - s[a] >= rules.flat_run:
             for i, where in ((a, "start"), (b, "end")):
                 if 0 < i < len(s) - 1:
                     out.append((i, "combination", f"{where} of a near-horizontal run", 3))
-        inside = [lo] + [s[int(p)] for p in placed if lo < s[int(p)] < hi] + [hi]
-        for x0, x1 in zip(inside[:-1], inside[1:]):
-            k = int(np.ceil((x1 - x0) / rules.interval - 1e-9)) - 1
-            for j in range(1, k + 1):
-                want = x0 + j * (x1 - x0) / (k + 1)
-                i = int(np.flatnonzero(s == knot_s[np.argmin(np.abs(knot_s - want))])[0])
-                out.append((i, kinds[c][0], kinds[c][1], 4))
+    kinds = {1: ("air-release", "long ascending run"), -1: ("air-vacuum", "long descending run"),
+             0: ("combination", "long near-horizontal run")}
+    at = np.unique(np.r_[s[0], s[np.asarray(list(placed) + [o[0] for o in out], int)], s[-1]])
+    knot_s = np.flatnonzero(knots)
+    for x0, x1 in zip(at[:-1], at[1:]):  # gaps between air valves: few
+        k = int(np.ceil((x1 - x0) / rules.interval - 1e-9)) - 1
+        for j in range(1, k + 1):
+            i = int(knot_s[np.argmin(np.abs(s[knot_s] - (x0 + j * (x1 - x0) / (k + 1))))])
+            c = int(cls[min(i, len(g) - 1)])
+            out.append((i, kinds[c][0], kinds[c][1], 4))
     return out
 
 
