@@ -6,7 +6,8 @@ against the project file's folder. Later stages receive the frozen
 :class:`Project` and never see raw TOML or unit strings.
 
 Each section is a frozen dataclass whose fields declare its keys once with
-:func:`key`, and :func:`read_table` reads any section from them. A rule between
+:func:`key`; :func:`read_table` reads any section from them and
+:func:`project_schema` makes the file's JSON Schema from them. A rule between
 keys is the dataclass's ``_rules`` (``_one_of``: exactly one of two keys);
 rules across sections are in :func:`_check_hydraulic_cases`. A table reports
 its first problem: each key in declaration order, then exactly-one-of, then
@@ -638,3 +639,96 @@ def _check_hydraulic_cases(p: Project) -> None:
     if hyd.flow == 0 and p.scenarios and p.offtakes:
         raise InputError("hydraulics.flow = 0: scenarios with offtakes need a base flow above zero")
 
+
+# --------------------------------------------------------------------------
+# The JSON Schema
+# --------------------------------------------------------------------------
+
+_NUMBER = r"(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?"
+_UNIT = r"[A-Za-z%°µ][A-Za-z0-9_%°µ*/^.() -]*"
+_TEXT = {"type": "string", "pattern": r"\S"}
+
+
+def project_schema(*, ground_only: bool = False) -> dict:
+    """The project file's JSON Schema (draft 2020-12), made from the declarations.
+
+    Each section's keys and no others, the required ones, each key's doc and
+    its default as written. A quantity is a number then a unit; a name is in
+    its documented spelling (the reader also takes other cases). Rules
+    between keys are the reader's alone. ``ground_only`` as for :func:`load`.
+
+    >>> design = project_schema()["properties"]["design"]["properties"]
+    >>> design["joint_length"]["default"], design["joint_length"]["description"]
+    ('6 m', 'length of one pipe joint')
+    """
+    props, required = {}, []
+    for f in fields(Project):
+        if "cls" in f.metadata:
+            m, table = f.metadata, _table_schema(f.metadata["cls"])
+            props[f.name] = ({"type": "array", "description": table["description"],
+                              "items": table} if m["array"] else table)
+            if m["need"] == "always" or (m["need"] == "run" and not ground_only):
+                required.append(f.name)
+    return {"$schema": "https://json-schema.org/draft/2020-12/schema",
+            "$id": "urn:gisgrade:project-file" + (":ground" if ground_only else ""),
+            "title": "gisgrade project file",
+            "description": "One TOML file that drives a gisgrade run. Every dimensional value is "
+                           "a string with its unit; relative paths are read from its folder.",
+            "type": "object", "properties": props, "required": required,
+            "additionalProperties": False}
+
+
+def _table_schema(cls) -> dict:
+    """One section's schema: its declared keys, the required ones, no others."""
+    def shape(keys) -> dict:
+        return {"properties": {toml_name(f): _key_schema(f) for f in keys},
+                "required": [toml_name(f) for f in keys if f.metadata["required"]],
+                "additionalProperties": False}
+
+    out = {"type": "object", "description": cls.__doc__.strip().splitlines()[0]}
+    if hasattr(cls, "_variants"):  # one shape or the other
+        out["oneOf"] = [shape(declared(cls, [sel] if sel else ())) for sel, _ in cls._variants]
+    else:
+        out.update(shape(declared(cls)))
+    if hasattr(cls, "_one_of"):
+        out["oneOf"] = [{"required": [name]} for name, _ in cls._one_of]
+    return out
+
+
+def _key_schema(f) -> dict:
+    """One key's schema: its doc, its value's form and its default as written."""
+    default = f.default if f.metadata["shown"] is None else f.metadata["shown"]
+    shown = {} if default is None or default is MISSING else {"default": default}
+    return {"description": f.metadata["doc"], **_value_schema(f.metadata), **shown}
+
+
+def _quantity_schema(sign=None, unit: str = "") -> dict:
+    """A number (no minus where it may not be negative), then a unit (``unit="?"``: optional)."""
+    lead = r"\+?" if sign else "[-+]?"
+    return {"type": "string", "pattern": rf"^\s*{lead}{_NUMBER}\s*({_UNIT}){unit}$"}
+
+
+def _value_schema(m: dict) -> dict:
+    """The schema of one key's value, from its declaration ``m``."""
+    from .hydraulics.materials import MATERIALS
+    from .hydraulics.minor import NAMED_K
+    from .terrain import VERTICAL_ACCURACY_BY_KIND, VERTICAL_UNITS
+    kind, sign = m["kind"], m["sign"]
+    bound = {">0": {"exclusiveMinimum": 0}, ">=0": {"minimum": 0}}.get(sign, {})
+    if kind == "dimensionless":  # a plain number, or a number and an optional unit ("0.1 %")
+        return {**_quantity_schema(sign, "?"), "type": ["number", "string"], **bound}
+    if kind in QUANTITIES:
+        return _quantity_schema(sign)
+    if kind in ("number", "bool", "feature"):
+        return {"type": {"bool": "boolean", "feature": "integer"}.get(kind, "number"), **bound}
+    if kind == "dem":
+        return {"anyOf": [_TEXT, {"type": "array", "minItems": 1, "items": _TEXT}]}
+    if kind == "angles":
+        return {"type": "array", "minItems": 1, "items": _quantity_schema(">0")}
+    if kind == "accuracy":
+        return {"anyOf": [_quantity_schema(">=0"), {"enum": list(VERTICAL_ACCURACY_BY_KIND)}]}
+    if kind in ("unit", "flow_unit"):
+        return {"type": "string", "pattern": rf"^\s*{_UNIT}$"}
+    known = {"vertical_unit": VERTICAL_UNITS, "material": MATERIALS, "fitting": NAMED_K}
+    choices = m["choices"] or sorted(known.get(kind, ()))
+    return {"type": "string", "enum": list(choices)} if choices else dict(_TEXT)
