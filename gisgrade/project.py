@@ -476,11 +476,11 @@ class _Table:
         return InputError(f"{self.file.name}: missing required key {self.key(key)}{hint}")
 
 
-def declared(cls, raw=()) -> list:
-    """The fields of ``cls`` that are project-file keys, in reading order (those
-    of the shape ``raw`` selects, for a table of several shapes)."""
+def declared(cls, raw=None) -> list:
+    """The fields of ``cls`` that are project-file keys: all of them, or those
+    of the shape table ``raw`` has, in reading order."""
     keys = {f.name: f for f in fields(cls) if "kind" in f.metadata}
-    for selector, shape in getattr(cls, "_variants", ()):
+    for selector, shape in getattr(cls, "_variants", ()) if raw is not None else ():
         if selector is None or selector in raw:
             return [keys[name] for name in shape]
     return list(keys.values())
@@ -644,7 +644,7 @@ def _check_hydraulic_cases(p: Project) -> None:
 # The JSON Schema
 # --------------------------------------------------------------------------
 
-_NUMBER = r"(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?"
+_NUMBER = r"(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?(?![eE][-+]?\d)"  # "1e3" has no unit
 _UNIT = r"[A-Za-z%°µ][A-Za-z0-9_%°µ*/^.() -]*"
 _TEXT = {"type": "string", "pattern": r"\S"}
 
