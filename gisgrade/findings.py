@@ -6,12 +6,11 @@ the run and its station. Later issues add air valves and drains here.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
-
 import numpy as np
 import pandas as pd
 
 from .arrays import runs
+from .project import ChecksConfig as Thresholds
 
 #: Pressures within this much (Pa) of a limit meet it (a solved head meets a
 #: required pressure to rounding error, not one pascal short).
@@ -20,16 +19,6 @@ PRESSURE_TOLERANCE = 1e-3
 #: Columns of the findings table (``findings.csv``).
 COLUMNS = ["scenario", "check", "severity", "from_station_m", "to_station_m",
            "worst_station_m", "worst_value", "unit", "limit", "message"]
-
-
-@dataclass(frozen=True)
-class Thresholds:
-    """Planning checks (defaults: common practice, see docs/hydraulics.md)."""
-
-    min_pressure: float = 140e3  # Pa: 20 psi floor under all demands (common practice)
-    max_pressure: float = 550e3  # Pa: upper end of normal working pressure, 80 psi (common practice)
-    min_velocity: float = 0.0  # m/s: 0 disables the check
-    max_velocity: float = 3.0  # m/s: upper end even in fire flow (common practice)
 
 
 def range_findings(station, value, mask, *, scenario, check, severity, unit, limit,
