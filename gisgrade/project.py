@@ -44,7 +44,8 @@ def key(kind: str, doc: str, default=MISSING, shown=None, *, toml=None, choices=
     ``>=0`` after it bounds the value. ``default``: the SI value (none: the
     key is required, or ``required=True`` in its shape of the table);
     ``shown``: the default as the file writes it (``"6 m"``); ``toml``: the
-    key's name where it is not the field's.
+    key's name where it is not the field's. (A table's own ``key`` field, its
+    name in messages, comes after its keys: it hides this function.)
     """
     kind, _, bound = kind.partition(">")
     meta = dict(kind=kind, sign={"0": ">0", "=0": ">=0"}.get(bound), doc=doc, shown=shown,
@@ -521,12 +522,10 @@ def _value(m: dict, value, key: str, base: Path):
     """One key's ``value`` read as its declaration ``m`` says (:func:`key`);
     ``key`` is its full name for messages, ``base`` the folder paths are read from.
 
-    The special kinds: ``feature`` (a whole number), ``dem`` (a path, list,
-    folder or glob), ``accuracy`` (a length in m RMSE, or a DEM kind's),
-    ``angles`` (bend angles above 0 and at most 90 deg, in rad, sorted),
-    ``unit`` (a length unit, as metres per unit) and the names ``flow_unit``,
-    ``vertical_unit``, ``material`` and ``fitting``. Text is stripped; with
-    ``choices``, the choice whatever the letter case.
+    Besides the kinds of :func:`key`: ``feature`` (a whole number), ``dem``
+    and ``accuracy`` (:func:`_terrain`), ``angles`` (:func:`_angles`), ``unit``
+    (a length unit, as metres per unit) and the names ``flow_unit``,
+    ``vertical_unit``, ``material`` and ``fitting`` (:func:`_text`).
     """
     kind, sign = m["kind"], m["sign"]
     if kind in QUANTITIES:
@@ -546,37 +545,70 @@ def _value(m: dict, value, key: str, base: Path):
     if kind in ("bool", "feature"):
         return value
     if kind in ("file", "dir"):
-        if not isinstance(value, str) or not value.strip():
-            raise InputError(f"{key} = {value!r}: expected a file path as text")
-        path = Path(value).expanduser()
-        path = path if path.is_absolute() else base / path
-        if kind == "file" and not path.exists():
-            raise InputError(f"{key} = {value!r}: file not found ({path})")
-        return path
-    from . import terrain  # terrain and units (numpy, pint) load only when a file is read
+        return _path(value, key, base, must_exist=kind == "file")
+    if kind in ("dem", "accuracy"):
+        return _terrain(kind, value, key, base)
+    return _angles(value, key) if kind == "angles" else _text(kind, value, key, m["choices"])
+
+
+def _quantity(value, kind: str, key: str, sign=None) -> float:
+    """A quantity string in SI, finite and within ``sign`` (``>0``, ``>=0``)."""
+    from .units import parse_quantity
+    out = parse_quantity(value, kind, key)
+    if not math.isfinite(out):
+        raise InputError(f"{key} = {value!r}: must be finite")
+    if sign == ">0" and out <= 0:
+        raise InputError(f"{key} = {value!r}: must be greater than zero")
+    if sign == ">=0" and out < 0:
+        raise InputError(f"{key} = {value!r}: must not be negative")
+    return out
+
+
+def _path(value, key: str, base: Path, must_exist: bool) -> Path:
+    """A path; a relative one is read from ``base``, the project file's folder."""
+    if not isinstance(value, str) or not value.strip():
+        raise InputError(f"{key} = {value!r}: expected a file path as text")
+    path = Path(value).expanduser()
+    path = path if path.is_absolute() else base / path
+    if must_exist and not path.exists():
+        raise InputError(f"{key} = {value!r}: file not found ({path})")
+    return path
+
+
+def _terrain(kind: str, value, key: str, base: Path):
+    """terrain.dem: the DEM files, in overlap priority; terrain.vertical_accuracy:
+    m RMSE, a length or the typical RMSE of a DEM kind."""
+    from . import terrain
     if kind == "dem":
         return tuple(terrain.resolve_dem_paths(value, base, key))
-    if kind == "accuracy":
-        kinds = terrain.VERTICAL_ACCURACY_BY_KIND
-        if isinstance(value, str) and value.strip().lower() in kinds:
-            return kinds[value.strip().lower()]
-        try:
-            return _quantity(value, "length", key, ">=0")
-        except InputError as exc:
-            raise InputError(f"{exc} (or a DEM kind: {', '.join(kinds)})") from None
+    kinds = terrain.VERTICAL_ACCURACY_BY_KIND
+    if isinstance(value, str) and value.strip().lower() in kinds:
+        return kinds[value.strip().lower()]
+    try:
+        return _quantity(value, "length", key, ">=0")
+    except InputError as exc:
+        raise InputError(f"{exc} (or a DEM kind: {', '.join(kinds)})") from None
+
+
+def _angles(value, key: str) -> tuple:
+    """design.bend_angles: angles above 0 and at most 90 deg, in rad, sorted."""
     from .units import parse_quantity
-    if kind == "angles":
-        if not isinstance(value, list) or not value:
-            raise InputError(f"{key} = {value!r}: expected a list such as "
-                             "[\"11.25 deg\", \"22.5 deg\", \"45 deg\", \"90 deg\"]")
-        angles = tuple(sorted(parse_quantity(a, "angle", key) for a in value))
-        if not all(0 < a <= math.pi / 2 + 1e-12 for a in angles):
-            raise InputError(f"{key} = {value!r}: each angle must be above 0 and at most 90 deg")
-        return angles
+    if not isinstance(value, list) or not value:
+        raise InputError(f"{key} = {value!r}: expected a list such as "
+                         "[\"11.25 deg\", \"22.5 deg\", \"45 deg\", \"90 deg\"]")
+    angles = tuple(sorted(parse_quantity(a, "angle", key) for a in value))
+    if not all(0 < a <= math.pi / 2 + 1e-12 for a in angles):
+        raise InputError(f"{key} = {value!r}: each angle must be above 0 and at most 90 deg")
+    return angles
+
+
+def _text(kind: str, value, key: str, choices=()):
+    """Text, stripped: with ``choices``, the one it names in any letter case; a
+    ``unit`` as metres per unit; a known name of the kind it is."""
+    from .units import parse_quantity
     if not isinstance(value, str) or not value.strip():
         raise InputError(f"{key} = {value!r}: expected a text value")
-    text, choices = value.strip(), m["choices"]
-    low = [c.lower() for c in choices]
+    text, low = value.strip(), [c.lower() for c in choices]
     if choices and text.lower() not in low:
         raise InputError(f"{key} = {value!r}: expected one of {', '.join(low)}"
                          f"{names.suggest(text.lower(), low)}")
@@ -591,24 +623,12 @@ def _value(m: dict, value, key: str, base: Path):
     if kind == "flow_unit":
         parse_quantity(f"1 {text}", "flow", key)
     elif kind == "vertical_unit":
-        terrain.vertical_unit_factor(text, key)
+        from .terrain import vertical_unit_factor
+        vertical_unit_factor(text, key)
     elif kind == "material":
         from .hydraulics.materials import material
         material(text, key)
     return text
-
-
-def _quantity(value, kind: str, key: str, sign=None) -> float:
-    """A quantity string in SI, finite and within ``sign`` (``>0``, ``>=0``)."""
-    from .units import parse_quantity
-    out = parse_quantity(value, kind, key)
-    if not math.isfinite(out):
-        raise InputError(f"{key} = {value!r}: must be finite")
-    if sign == ">0" and out <= 0:
-        raise InputError(f"{key} = {value!r}: must be greater than zero")
-    if sign == ">=0" and out < 0:
-        raise InputError(f"{key} = {value!r}: must not be negative")
-    return out
 
 
 def _check_hydraulic_cases(p: Project) -> None:
