@@ -80,7 +80,8 @@ class TerrainConfig:
     dem: tuple[Path, ...] = key("dem", "a DEM file, a list of them (first wins where they "
                                 "overlap), a folder or a glob")
     vertical_unit: str = key("vertical_unit", "unit of the DEM's elevations", "m")
-    method: str = key("text", "interpolation", "bilinear", choices=("bilinear", "bicubic"))
+    method: str = key("text", "interpolation between DEM cells", "bilinear",
+                      choices=("bilinear", "bicubic"))
     max_gap: float | None = key("length>=0", "longest nodata run bridged (default: 3 cells)",
                                 None)
     vertical_accuracy: float | None = key("accuracy", "the DEM's RMSE or kind, shown as a 95 % "
