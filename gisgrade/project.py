@@ -5,25 +5,53 @@ dimensional value (a pint quantity string) to SI and resolves relative paths
 against the project file's folder. Later stages receive the frozen
 :class:`Project` and never see raw TOML or unit strings.
 
-Where a new key goes: add it to the section's ``_read_*`` function below (read it
-with :class:`Section`, which records the key as known, so an unknown-key check
-and its "did you mean" hint come for free), then to the section's dataclass.
+Each section is a frozen dataclass whose fields declare its keys once with
+:func:`key`; :func:`read_table` reads any section from them and
+:func:`project_schema` makes the file's JSON Schema from them. A rule between
+keys is the dataclass's ``_rules`` (``_one_of``: exactly one of two keys);
+rules across sections are in :func:`_check_hydraulic_cases`. A table reports
+its first problem: each key in declaration order, then exactly-one-of, then
+the rules, then an unknown key.
 """
 from __future__ import annotations
 
-import difflib
 import math
 import sys
-from dataclasses import dataclass, field
+from dataclasses import MISSING, dataclass, field, fields, replace
 from pathlib import Path
 
+from . import names
 from .errors import InputError
-from .units import parse_quantity
 
 if sys.version_info >= (3, 11):
     import tomllib
 else:  # pragma: no cover
     import tomli as tomllib
+
+#: Kinds read as a quantity string and converted to SI (``units.SI_UNITS``).
+QUANTITIES = ("length", "flow", "velocity", "pressure", "temperature", "angle", "dimensionless")
+FRICTION_METHODS = ("darcy-weisbach", "hazen-williams")
+BOUNDARIES = ("source-head", "two-heads", "min-pressure")
+
+
+def key(kind: str, doc: str, default=MISSING, shown=None, *, toml=None, choices=(),
+        required=None):
+    """A project-file key: a dataclass field whose metadata says how to read it.
+
+    ``kind``: a dimension in :data:`QUANTITIES` (read to SI), ``number``,
+    ``text`` (with ``choices``: one of them, any case), ``bool``, ``file``
+    (must exist), ``dir`` or a special kind of :func:`_value`; ``>0`` or
+    ``>=0`` after it bounds the value. ``default``: the SI value (none: the
+    key is required, or ``required=True`` in its shape of the table);
+    ``shown``: the default as the file writes it (``"6 m"``); ``toml``: the
+    key's name where it is not the field's. (A table's own ``key`` field, its
+    name in messages, comes after its keys: it hides this function.)
+    """
+    kind, _, bound = kind.partition(">")
+    meta = dict(kind=kind, sign={"0": ">0", "=0": ">=0"}.get(bound), doc=doc, shown=shown,
+                toml=toml, choices=choices,
+                required=default is MISSING if required is None else required)
+    return field(default=default, metadata=meta)
 
 
 # --------------------------------------------------------------------------
@@ -32,191 +60,340 @@ else:  # pragma: no cover
 
 
 @dataclass(frozen=True)
-class ChecksConfig:
-    """Planning checks (defaults: common practice, see docs/hydraulics.md)."""
-
-    min_pressure: float = 140e3  # Pa: 20 psi floor under all demands (common practice)
-    max_pressure: float = 550e3  # Pa: upper end of normal working pressure, 80 psi (common practice)
-    min_velocity: float = 0.0  # m/s: 0 disables the check
-    max_velocity: float = 3.0  # m/s: upper end even in fire flow (common practice)
-
-
-Thresholds = ChecksConfig
-
-
-@dataclass(frozen=True)
 class AlignmentConfig:
-    path: Path
-    spacing: float  # m
-    layer: str | None = None
-    reverse: bool = False
-    where: str | None = None  # attribute filter (OGR SQL WHERE clause)
-    feature: int | None = None  # feature id (FID) when a layer holds several routes
-    start_station: float = 0.0  # m, station of the first point
+    """[alignment]: the centerline and how it is stationed."""
+
+    path: Path = key("file", "the centerline: GeoJSON or GeoPackage")
+    spacing: float = key("length>0", "station spacing (plus every vertex, crossing, zone edge, "
+                         "fitting and offtake)")
+    layer: str | None = key("text", "layer of the file to read", None)
+    reverse: bool = key("bool", "true when flow runs against the digitized direction", False)
+    where: str | None = key("text", "attribute filter picking one route (OGR SQL WHERE)", None)
+    feature: int | None = key("feature", "feature id (FID) picking one route", None)
+    start_station: float = key("length", "station of the first point", 0.0, "0 m")
 
 
 @dataclass(frozen=True)
 class TerrainConfig:
-    dem: tuple[Path, ...]
-    vertical_unit: str = "m"
-    method: str = "bilinear"
-    max_gap: float | None = None  # m; None: 3 cells of the finest DEM
-    vertical_accuracy: float | None = None  # m RMSE; None: a default from the DEM's cell size
+    """[terrain]: the DEM the ground is sampled from."""
+
+    dem: tuple[Path, ...] = key("dem", "a DEM file, a list of them (first wins where they "
+                                "overlap), a folder or a glob")
+    vertical_unit: str = key("vertical_unit", "unit of the DEM's elevations", "m")
+    method: str = key("text", "interpolation between DEM cells", "bilinear",
+                      choices=("bilinear", "bicubic"))
+    max_gap: float | None = key("length>=0", "longest nodata run bridged (default: 3 cells)",
+                                None)
+    vertical_accuracy: float | None = key("accuracy", "the DEM's RMSE or kind, shown as a 95 % "
+                                          "band (default: from the cell size)", None)
 
 
 @dataclass(frozen=True)
 class PipeConfig:
-    inside_diameter: float  # m
-    outside_diameter: float  # m
-    friction: str  # "darcy-weisbach" | "hazen-williams"
-    roughness: float | None = None  # m (Darcy-Weisbach)
-    hazen_williams_c: float | None = None  # plain number (Hazen-Williams)
-    material: str | None = None  # a name in hydraulics.materials.MATERIALS
-    pressure_rating: float | None = None  # Pa, the pipe's rated working pressure
+    """[pipe]: the pipe along the whole line."""
+
+    inside_diameter: float = key("length>0", "inside diameter")
+    outside_diameter: float = key("length>0", "outside diameter")
+    friction: str = key("text", "friction formula", "darcy-weisbach", choices=FRICTION_METHODS)
+    roughness: float | None = key("length>=0", "absolute roughness (Darcy-Weisbach)", None)
+    hazen_williams_c: float | None = key("number>0", "Hazen-Williams C", None)
+    material: str | None = key("material", "a pipe material giving roughness and C", None)
+    pressure_rating: float | None = key("pressure>0", "rated working pressure", None)
+
+    def _rules(self, t: _Table) -> PipeConfig:
+        cfg = _pipe_data(self, t)
+        if cfg.friction == "darcy-weisbach" and cfg.roughness is None:
+            raise InputError(f"{t.file.name}: missing required key {t.key('roughness')} (needed "
+                             "for friction = \"darcy-weisbach\"), e.g. roughness = \"0.1 mm\" or "
+                             "material = \"ductile-iron-cement-lined\"")
+        if cfg.friction == "hazen-williams" and cfg.hazen_williams_c is None:
+            raise InputError(f"{t.file.name}: missing required key {t.key('hazen_williams_c')} "
+                             "(needed for friction = \"hazen-williams\"), e.g. hazen_williams_c = "
+                             "130 or material = \"pvc\"")
+        return cfg
 
 
 @dataclass(frozen=True)
 class PipeSectionConfig:
-    """One [[sections]] table: pipe data over a station range (None: as [pipe])."""
+    """[[sections]]: pipe data over a station range (a key not given: as [pipe])."""
 
-    start: float  # m, station where the section begins
-    end: float  # m, station where it ends
-    inside_diameter: float | None = None  # m
-    outside_diameter: float | None = None  # m
-    roughness: float | None = None  # m
-    hazen_williams_c: float | None = None
-    pressure_rating: float | None = None  # Pa
+    start: float = key("length", "station where the section begins", toml="from")
+    end: float = key("length", "station where it ends", toml="to")
+    inside_diameter: float | None = key("length>0", "inside diameter", None)
+    outside_diameter: float | None = key("length>0", "outside diameter", None)
+    roughness: float | None = key("length>=0", "absolute roughness", None)
+    hazen_williams_c: float | None = key("number>0", "Hazen-Williams C", None)
+    pressure_rating: float | None = key("pressure>0", "rated working pressure", None)
+    material: str | None = key("material", "a pipe material giving roughness and C", None)
     key: str = "sections[0]"
+
+    def _rules(self, t: _Table) -> PipeSectionConfig:
+        if self.end <= self.start:
+            raise InputError(f"{t.say('to')}: must be beyond {t.say('from')}")
+        return _pipe_data(self, t)
+
+
+def _pipe_data(cfg, t: _Table):
+    """Check the diameters' order; fill roughness and C from the material (an
+    explicit roughness or C wins over the material's value)."""
+    inside, outside = cfg.inside_diameter, cfg.outside_diameter
+    if inside is not None and outside is not None and outside < inside:
+        raise InputError(f"{t.say('outside_diameter')}: smaller than {t.say('inside_diameter')}")
+    if cfg.material is None:
+        return cfg
+    from .hydraulics.materials import material
+    mat, c = material(cfg.material), cfg.hazen_williams_c
+    return replace(cfg, roughness=mat.roughness if cfg.roughness is None else cfg.roughness,
+                   hazen_williams_c=mat.hazen_williams_c if c is None else c)
 
 
 @dataclass(frozen=True)
 class FittingConfig:
-    """One [[fittings]] table: a point loss K at a station."""
+    """[[fittings]]: a point loss K at a station."""
 
-    station: float  # m
-    k: float  # loss coefficient on the downstream velocity head
-    kind: str | None = None  # the named kind, if given
+    station: float = key("length", "station of the fitting")
+    k: float | None = key("number>=0", "loss coefficient on the downstream velocity head", None)
+    kind: str | None = key("fitting", "a named fitting, giving its K", None)
     key: str = "fittings[0]"
+    _one_of = (("kind", "a named fitting"), ("k", "a loss coefficient"))
+
+    def _rules(self, t: _Table) -> FittingConfig:
+        if self.kind is None:
+            return self
+        from .hydraulics.minor import k_for
+        try:
+            return replace(self, k=k_for(self.kind))
+        except InputError as exc:
+            raise InputError(f"{t.key('kind')}: {exc}") from None
 
 
 @dataclass(frozen=True)
 class OfftakeConfig:
-    """One [[offtakes]] table: a flow leaving at a station, or a point layer of them."""
+    """[[offtakes]]: a flow leaving at a station, or a point layer of them."""
 
-    station: float | None = None  # m (a single offtake)
-    flow: float | None = None  # m3/s (a single offtake)
-    path: Path | None = None  # a point layer instead
-    flow_field: str | None = None
-    flow_unit: str = "L/s"  # unit of the layer's flow values (as written)
+    station: float | None = key("length", "station of a single offtake", None, required=True)
+    flow: float | None = key("flow>=0", "its flow", None, required=True)
+    path: Path | None = key("file", "or a point layer of offtakes, snapped to the line", None,
+                            required=True)
+    flow_field: str | None = key("text", "the layer's flow attribute", None, required=True)
+    flow_unit: str = key("flow_unit", "unit of the layer's flow values", "L/s")
     flow_factor: float = 1e-3  # m3/s per one flow_unit (parsed at load)
-    layer: str | None = None
+    layer: str | None = key("text", "layer of the file to read", None)
     key: str = "offtakes[0]"
+    #: The shapes, each with its keys in reading order: the first whose key is given, else the last.
+    _variants = (("path", ("flow_unit", "path", "flow_field", "layer")),
+                 (None, ("station", "flow")))
+
+    def _rules(self, t: _Table) -> OfftakeConfig:
+        if self.path is None:
+            return self
+        from .units import parse_quantity
+        factor = parse_quantity(f"1 {self.flow_unit}", "flow", t.key("flow_unit"))
+        return replace(self, flow_factor=factor)
 
 
 @dataclass(frozen=True)
 class ScenarioConfig:
-    """One [[scenarios]] table: a named flow case.
+    """[[scenarios]]: a named flow case.
 
     The base case ([hydraulics] flow and every offtake) times ``multiplier``
-    (a scenario given by ``flow`` has multiplier flow / [hydraulics] flow),
-    plus ``fire_flow``, which is not scaled: it enters at the start and
-    leaves at ``fire_station`` (None: the last station).
+    (given ``flow``: flow / hydraulics.flow), plus ``fire_flow``, not scaled,
+    entering at the start and leaving at ``fire_station``.
     """
 
-    name: str
-    flow: float | None = None  # m3/s entering at the start
-    multiplier: float | None = None  # times [hydraulics] flow
-    show_egl: bool = True
-    fire_flow: float = 0.0  # m3/s, an extra demand that is not scaled
-    fire_station: float | None = None  # m, where it leaves (None: the last station)
+    name: str = key("text", "the scenario's name in the outputs")
+    flow: float | None = key("flow>=0", "the whole flow entering at the start", None)
+    multiplier: float | None = key("number>=0", "times hydraulics.flow (offtakes too)", None)
+    show_egl: bool = key("bool", "draw the EGL on the profile sheet", True)
+    fire_flow: float = key("flow>=0", "extra demand, not scaled (with multiplier)", 0.0, "0 L/s")
+    fire_station: float | None = key("length", "where the fire flow leaves (default: the last "
+                                     "station)", None)
     key: str = "scenarios[0]"
+    _one_of = (("flow", "entering at the start"), ("multiplier", "x hydraulics.flow"))
+
+    def _rules(self, t: _Table) -> ScenarioConfig:
+        if self.name.lower() == "static":
+            raise InputError(f"{t.key('name')} = {self.name!r}: the static case is always "
+                             "computed; choose another name")
+        if "fire_flow" in t.raw and self.flow is not None:
+            raise InputError(f"{t.key('fire_flow')}: give it with {t.key('multiplier')}, not "
+                             f"with {t.key('flow')} (flow is already the whole inflow)")
+        if self.fire_station is not None and "fire_flow" not in t.raw:
+            raise InputError(f"{t.key('fire_station')}: only used with {t.key('fire_flow')}")
+        return self
 
 
 @dataclass(frozen=True)
 class CoverConfig:
-    minimum: float  # m, ground to top of pipe
-    maximum: float | None = None  # m; None: no limit
+    """[cover]: cover, ground to top of pipe."""
+
+    minimum: float = key("length>=0", "least cover")
+    maximum: float | None = key("length>=0", "greatest cover (default: no limit)", None)
+
+    def _rules(self, t: _Table) -> CoverConfig:
+        if self.maximum is not None and self.maximum < self.minimum:
+            raise InputError(f"{t.say('maximum')}: less than {t.say('minimum')}")
+        return self
 
 
 @dataclass(frozen=True)
 class CoverZoneConfig:
-    """A polygon layer whose zones override the cover limits inside them."""
+    """[[cover_zones]]: polygons whose cover limits replace the line's inside them."""
 
-    path: Path
-    layer: str | None = None
-    minimum: float | None = None  # m, for every zone of the layer
-    maximum: float | None = None
-    minimum_field: str | None = None  # attribute, in field_unit (wins over minimum)
-    maximum_field: str | None = None
-    field_factor: float = 1.0  # m per attribute unit
+    path: Path = key("file", "the polygon layer")
+    layer: str | None = key("text", "layer of the file to read", None)
+    minimum: float | None = key("length>=0", "least cover in every zone", None)
+    maximum: float | None = key("length>=0", "greatest cover in every zone", None)
+    minimum_field: str | None = key("text", "attribute with a zone's least cover", None)
+    maximum_field: str | None = key("text", "attribute with a zone's greatest cover", None)
+    field_factor: float = key("unit", "unit of the attributes", 1.0, "m", toml="field_unit")
     key: str = "cover_zones[0]"
+
+    def _rules(self, t: _Table) -> CoverZoneConfig:
+        if (self.minimum, self.maximum, self.minimum_field, self.maximum_field) == (None,) * 4:
+            raise InputError(f"{t.file.name}: [[cover_zones]] {t.name} sets no cover: give "
+                             "minimum, maximum, minimum_field or maximum_field")
+        return self
 
 
 @dataclass(frozen=True)
 class CrossingLayerConfig:
-    path: Path
-    clearance: float  # m
-    bottom_field: str | None = None  # the feature's bottom elevation
-    depth_field: str | None = None  # or: depth from ground to the feature's top
-    size_field: str | None = None  # the feature's outside height (attribute) ...
-    size: float | None = None  # ... or one value for the layer, m
-    side: str = "under"  # "under" or "over"
-    width_field: str | None = None  # the feature's plan width (attribute) ...
-    width: float | None = None  # ... or one value; default: its size (a round pipe)
-    field_factor: float | None = None  # m per attribute unit (None: the DEM's vertical unit)
-    layer: str | None = None
+    """[[crossings]]: one layer of features the main crosses."""
+
+    path: Path = key("file", "the layer of crossed features")
+    clearance: float = key("length>=0", "clear distance kept from each feature")
+    bottom_field: str | None = key("text", "attribute with a feature's bottom elevation", None)
+    depth_field: str | None = key("text", "attribute with its depth, ground to its top", None)
+    size_field: str | None = key("text", "attribute with its outside height", None)
+    size: float | None = key("length>=0", "one outside height for the layer", None)
+    side: str = key("text", "pass under or over it", "under", choices=("under", "over"))
+    width_field: str | None = key("text", "attribute with its plan width (default: its size)",
+                                  None)
+    width: float | None = key("length>=0", "one plan width for the layer", None)
+    field_factor: float | None = key("unit", "unit of the attributes (default: the DEM's "
+                                     "vertical unit)", None, toml="field_unit")
+    layer: str | None = key("text", "layer of the file to read", None)
     key: str = "crossings[0]"  # where it sits in the project file, for messages
+    _one_of = (("bottom_field", "the feature's bottom elevation"),
+               ("depth_field", "its depth below ground"))
 
 
 @dataclass(frozen=True)
 class DesignConfig:
-    """How the pipe may be laid (defaults: common practice, docs/design.md)."""
+    """[design]: how the pipe may be laid (defaults: common practice, docs/design.md)."""
 
-    joint_length: float = 6.0  # m
-    max_joint_deflection: float = math.radians(3.0)  # rad per joint (maker's table governs)
-    bend_angles: tuple = tuple(math.radians(a) for a in (11.25, 22.5, 45.0, 90.0))
-    min_grade: float | None = None  # m/m
-    max_grade: float | None = None  # m/m
-    trench_width: float | None = None  # m; None: outside diameter + 0.6 m
+    joint_length: float = key("length>0", "length of one pipe joint", 6.0, "6 m")
+    max_joint_deflection: float = key("angle>=0", "deflection per joint", math.radians(3.0),
+                                      "3 deg")
+    bend_angles: tuple = key("angles", "the standard bend fittings",
+                             tuple(math.radians(a) for a in (11.25, 22.5, 45.0, 90.0)),
+                             ["11.25 deg", "22.5 deg", "45 deg", "90 deg"])
+    min_grade: float | None = key("dimensionless>0", "least grade, so air moves to the high "
+                                  "points", None)
+    max_grade: float | None = key("dimensionless>0", "steepest grade (never above 45 deg)", None)
+    trench_width: float | None = key("length>0", "trench width (default: outside diameter + "
+                                     "0.6 m)", None)
+
+    def _rules(self, t: _Table) -> DesignConfig:
+        if self.max_joint_deflection > math.radians(15):
+            raise InputError(f"{t.say('max_joint_deflection')}: more than 15 deg per joint is "
+                             "not a pipe joint")
+        if self.min_grade and self.max_grade and self.min_grade > self.max_grade:
+            raise InputError(f"{t.say('min_grade')}: steeper than {t.say('max_grade')}")
+        return self
 
 
 @dataclass(frozen=True)
 class HydraulicsConfig:
-    source_head: float | None  # m, HGL at the first station (a tank level if start = "tank")
-    flow: float | None  # m3/s, the base flow entering at the first station
-    temperature: float  # K
-    boundary: str = "source-head"  # | "two-heads" | "min-pressure"
-    end_head: float | None = None  # m (two-heads)
-    start: str = "main"  # | "tank"
-    end: str = "open"  # | "tank" | "main"
-    entrance: str = "sharp"  # entrance kind when start = "tank"
-    required_pressure: float | None = None  # Pa (min-pressure); None: [checks] min_pressure
-    required_at: str = "everywhere"  # | "end"
+    """[hydraulics]: the design flow and what is known at the ends."""
+
+    source_head: float | None = key("length", "HGL at the first station (the tank level with "
+                                    "start = \"tank\")", None)
+    flow: float | None = key("flow>=0", "the design flow entering at the first station", None)
+    temperature: float = key("temperature", "water temperature, 0-40 degC", 288.15, "15 degC")
+    boundary: str = key("text", "what is known: the source head, both heads (the flow is "
+                        "solved) or a least pressure (the head is solved)", "source-head",
+                        choices=BOUNDARIES)
+    end_head: float | None = key("length", "HGL at the last station (two-heads)", None)
+    start: str = key("text", "the line leaves a main, or a tank (entrance loss)", "main",
+                     choices=("main", "tank"))
+    end: str = key("text", "the line ends open, in a main, or in a tank (exit loss)", "open",
+                   choices=("open", "tank", "main"))
+    entrance: str = key("text", "the tank entrance (start = \"tank\")", "sharp",
+                        choices=("sharp", "rounded", "projecting"))
+    required_pressure: float | None = key("pressure", "least pressure for min-pressure (default: "
+                                          "checks.min_pressure)", None)
+    required_at: str = key("text", "where the required pressure is kept", "everywhere",
+                           choices=("everywhere", "end"))
+
+    def _rules(self, t: _Table) -> HydraulicsConfig:
+        if not 273.15 <= self.temperature <= 313.15:
+            raise InputError(f"{t.key('temperature')} = {t.raw.get('temperature')!r}: outside "
+                             "0-40 degC, the range of the water property correlations")
+        # two-heads solves the flow; min-pressure solves the head (source_head is
+        # then the head available without a pump, optional). A free outlet
+        # ("open") is at atmospheric pressure: its head defaults to the axis there.
+        two = self.boundary == "two-heads"
+        if self.source_head is None and self.boundary != "min-pressure":
+            raise t.missing("source_head")
+        if self.end_head is None and two and self.end != "open":
+            raise t.missing("end_head")
+        if self.end_head is not None and not two:
+            raise InputError(f"{t.key('end_head')}: only used with {t.key('boundary')} = "
+                             "\"two-heads\"")
+        if two and self.end_head is not None and self.end_head > self.source_head:
+            raise InputError(f"{t.say('end_head')}: above {t.key('source_head')}; the flow "
+                             "would run backwards")
+        return self
+
+
+@dataclass(frozen=True)
+class ChecksConfig:
+    """[checks]: planning checks (defaults: common practice, see docs/hydraulics.md)."""
+
+    min_pressure: float = key("pressure", "floor under all demands, 20 psi (common practice)",
+                              140e3, "140 kPa")
+    max_pressure: float = key("pressure", "upper end of normal working pressure, 80 psi (common "
+                              "practice)", 550e3, "550 kPa")
+    min_velocity: float = key("velocity>=0", "least velocity (0: off)", 0.0, "0 m/s")
+    max_velocity: float = key("velocity>=0", "upper end even in fire flow (common practice)", 3.0,
+                              "3 m/s")
 
 
 @dataclass(frozen=True)
 class OutputConfig:
-    dir: Path | None = None
-    units: str = "SI"  # display units: "SI" or "US"
+    """[output]: where and how results are written."""
+
+    dir: Path | None = key("dir", "output folder (-o on the command line wins)", None)
+    units: str = key("text", "units of station labels and the plot", "SI", choices=("SI", "US"))
+
+
+def _section(cls, need: str = "optional", array: bool = False):
+    """A [table] (or [[array of tables]]) of :class:`Project`: ``need`` ``always``,
+    ``run`` (not for the ground profile alone) or ``optional`` (absent: the defaults)."""
+    meta, default = dict(cls=cls, need=need, array=array), () if array else MISSING
+    if need == "optional" and not array:
+        return field(default_factory=cls, metadata=meta)
+    return field(default=default, metadata=meta)
 
 
 @dataclass(frozen=True)
 class Project:
     path: Path
-    alignment: AlignmentConfig
-    terrain: TerrainConfig
-    pipe: PipeConfig | None
-    cover: CoverConfig | None
-    hydraulics: HydraulicsConfig | None
-    crossings: tuple[CrossingLayerConfig, ...] = ()
-    cover_zones: tuple[CoverZoneConfig, ...] = ()
-    design: DesignConfig = field(default_factory=DesignConfig)
-    checks: Thresholds = field(default_factory=Thresholds)
-    sections: tuple[PipeSectionConfig, ...] = ()
-    fittings: tuple[FittingConfig, ...] = ()
-    offtakes: tuple[OfftakeConfig, ...] = ()
-    scenarios: tuple[ScenarioConfig, ...] = ()
-    output: OutputConfig = field(default_factory=OutputConfig)
+    alignment: AlignmentConfig = _section(AlignmentConfig, "always")
+    terrain: TerrainConfig = _section(TerrainConfig, "always")
+    pipe: PipeConfig | None = _section(PipeConfig, "run")
+    cover: CoverConfig | None = _section(CoverConfig, "run")
+    hydraulics: HydraulicsConfig | None = _section(HydraulicsConfig, "run")
+    crossings: tuple[CrossingLayerConfig, ...] = _section(CrossingLayerConfig, array=True)
+    cover_zones: tuple[CoverZoneConfig, ...] = _section(CoverZoneConfig, array=True)
+    design: DesignConfig = _section(DesignConfig)
+    checks: ChecksConfig = _section(ChecksConfig)
+    sections: tuple[PipeSectionConfig, ...] = _section(PipeSectionConfig, array=True)
+    fittings: tuple[FittingConfig, ...] = _section(FittingConfig, array=True)
+    offtakes: tuple[OfftakeConfig, ...] = _section(OfftakeConfig, array=True)
+    scenarios: tuple[ScenarioConfig, ...] = _section(ScenarioConfig, array=True)
+    output: OutputConfig = _section(OutputConfig)
 
     @property
     def base_dir(self) -> Path:
@@ -230,415 +407,8 @@ class Project:
 
 
 # --------------------------------------------------------------------------
-# Reading helpers
+# The reader
 # --------------------------------------------------------------------------
-
-_MISSING = object()
-
-
-class Section:
-    """Typed access to one TOML table, remembering which keys were read.
-
-    Every getter names the key as ``section.key`` in its error messages;
-    :meth:`finish` rejects keys nobody read, suggesting the nearest known one.
-    """
-
-    def __init__(self, table, name: str, base_dir: Path, file: Path):
-        if not isinstance(table, dict):
-            raise InputError(f"{file.name}: [{name}] must be a table of keys")
-        self.table = table
-        self.name = name
-        self.base_dir = base_dir
-        self.file = file
-        self.known: set[str] = set()
-
-    def key(self, key: str) -> str:
-        return f"{self.name}.{key}"
-
-    def _get(self, key: str, default):
-        self.known.add(key)
-        if key in self.table:
-            return self.table[key]
-        if default is _MISSING:
-            close = difflib.get_close_matches(key, [str(k) for k in self.table], n=1, cutoff=0.6)
-            hint = f" (is {self.key(close[0])} a typo for it?)" if close else ""
-            raise InputError(f"{self.file.name}: missing required key {self.key(key)}{hint}")
-        return default
-
-    def quantity(self, key: str, kind: str, default=_MISSING, *, positive=False, minimum=None):
-        value = self._get(key, default)
-        if value is None:
-            return None
-        out = parse_quantity(value, kind, self.key(key))
-        if not math.isfinite(out):
-            raise InputError(f"{self.key(key)} = {value!r}: must be finite")
-        if positive and out <= 0:
-            raise InputError(f"{self.key(key)} = {value!r}: must be greater than zero")
-        if minimum is not None and out < minimum:
-            raise InputError(f"{self.key(key)} = {value!r}: must not be negative")
-        return out
-
-    def number(self, key: str, default=_MISSING, *, positive=False):
-        value = self._get(key, default)
-        if value is None:
-            return None
-        if isinstance(value, bool) or not isinstance(value, (int, float)):
-            raise InputError(f"{self.key(key)} = {value!r}: expected a plain number")
-        if not math.isfinite(value) or (positive and value <= 0):
-            raise InputError(f"{self.key(key)} = {value!r}: must be a finite number above zero")
-        return float(value)
-
-    def string(self, key: str, default=_MISSING, *, choices=None):
-        value = self._get(key, default)
-        if value is None:
-            return None
-        if not isinstance(value, str) or not value.strip():
-            raise InputError(f"{self.key(key)} = {value!r}: expected a text value")
-        if choices is not None:
-            norm = value.strip().lower()
-            if norm not in choices:
-                hint = _suggest(norm, choices)
-                raise InputError(
-                    f"{self.key(key)} = {value!r}: expected one of {', '.join(choices)}{hint}"
-                )
-            return norm
-        return value.strip()
-
-    def boolean(self, key: str, default=_MISSING) -> bool:
-        value = self._get(key, default)
-        if not isinstance(value, bool):
-            raise InputError(f"{self.key(key)} = {value!r}: expected true or false")
-        return value
-
-    def path(self, key: str, default=_MISSING, *, must_exist=True) -> Path | None:
-        value = self._get(key, default)
-        if value is None:
-            return None
-        return self._one_path(key, value, must_exist)
-
-    def _one_path(self, key: str, value, must_exist: bool) -> Path:
-        if not isinstance(value, str) or not value.strip():
-            raise InputError(f"{self.key(key)} = {value!r}: expected a file path as text")
-        p = Path(value).expanduser()
-        if not p.is_absolute():
-            p = self.base_dir / p
-        if must_exist and not p.exists():
-            raise InputError(f"{self.key(key)} = {value!r}: file not found ({p})")
-        return p
-
-    def finish(self) -> None:
-        unknown = sorted(set(self.table) - self.known)
-        if unknown:
-            bad = unknown[0]
-            hint = _suggest(bad, sorted(self.known))
-            raise InputError(f"{self.file.name}: unknown key {self.key(bad)}{hint}")
-
-
-def _suggest(word: str, choices) -> str:
-    close = difflib.get_close_matches(word, list(choices), n=1, cutoff=0.5)
-    return f" (did you mean {close[0]!r}?)" if close else ""
-
-
-# --------------------------------------------------------------------------
-# Sections
-# --------------------------------------------------------------------------
-
-FRICTION_METHODS = ("darcy-weisbach", "hazen-williams")
-SECTIONS = ("alignment", "terrain", "pipe", "cover", "cover_zones", "crossings", "design",
-            "hydraulics", "checks", "output", "sections", "fittings", "offtakes", "scenarios")
-BOUNDARIES = ("source-head", "two-heads", "min-pressure")
-
-
-def _read_alignment(s: Section) -> AlignmentConfig:
-    feature = s._get("feature", None)
-    if feature is not None and (isinstance(feature, bool) or not isinstance(feature, int)):
-        raise InputError(f"{s.key('feature')} = {feature!r}: expected a whole-number feature id")
-    return AlignmentConfig(
-        path=s.path("path"),
-        spacing=s.quantity("spacing", "length", positive=True),
-        layer=s.string("layer", None),
-        reverse=s.boolean("reverse", False),
-        where=s.string("where", None),
-        feature=feature,
-        start_station=s.quantity("start_station", "length", "0 m"),
-    )
-
-
-def _read_terrain(s: Section) -> TerrainConfig:
-    from .terrain import VERTICAL_ACCURACY_BY_KIND, resolve_dem_paths, vertical_unit_factor
-
-    unit = s.string("vertical_unit", "m")
-    vertical_unit_factor(unit, s.key("vertical_unit"))  # validate early
-    accuracy = s._get("vertical_accuracy", None)
-    if isinstance(accuracy, str) and accuracy.strip().lower() in VERTICAL_ACCURACY_BY_KIND:
-        accuracy = VERTICAL_ACCURACY_BY_KIND[accuracy.strip().lower()]
-    elif accuracy is not None:
-        try:
-            accuracy = s.quantity("vertical_accuracy", "length", minimum=0.0)
-        except InputError as exc:
-            kinds = ", ".join(VERTICAL_ACCURACY_BY_KIND)
-            raise InputError(f"{exc} (or a DEM kind: {kinds})") from None
-    return TerrainConfig(
-        dem=tuple(resolve_dem_paths(s._get("dem", _MISSING), s.base_dir, s.key("dem"))),
-        vertical_unit=unit,
-        method=s.string("method", "bilinear", choices=("bilinear", "bicubic")),
-        max_gap=s.quantity("max_gap", "length", None, minimum=0.0),
-        vertical_accuracy=accuracy,
-    )
-
-
-def _read_pipe(s: Section) -> PipeConfig:
-    inside = s.quantity("inside_diameter", "length", positive=True)
-    outside = s.quantity("outside_diameter", "length", positive=True)
-    _check_diameters(s, inside, outside)
-    method = s.string("friction", "darcy-weisbach", choices=FRICTION_METHODS)
-    name, roughness, c = _friction_data(s)
-    if method == "darcy-weisbach" and roughness is None:
-        raise InputError(f"{s.file.name}: missing required key {s.key('roughness')} "
-                         f"(needed for friction = \"darcy-weisbach\"), e.g. roughness = \"0.1 mm\" "
-                         f"or material = \"ductile-iron-cement-lined\"")
-    if method == "hazen-williams" and c is None:
-        raise InputError(f"{s.file.name}: missing required key {s.key('hazen_williams_c')} "
-                         f"(needed for friction = \"hazen-williams\"), e.g. hazen_williams_c = 130 "
-                         f"or material = \"pvc\"")
-    rating = s.quantity("pressure_rating", "pressure", None, positive=True)
-    return PipeConfig(inside, outside, method, roughness, c, name, rating)
-
-
-def _check_diameters(s: Section, inside, outside) -> None:
-    if inside is not None and outside is not None and outside < inside:
-        raise InputError(
-            f"{s.key('outside_diameter')} = {s.table['outside_diameter']!r}: smaller than "
-            f"{s.key('inside_diameter')} = {s.table['inside_diameter']!r}"
-        )
-
-
-def _friction_data(s: Section):
-    """``material``, ``roughness`` and ``hazen_williams_c`` of a table; an
-    explicit roughness or C wins over the material's value."""
-    from .hydraulics.materials import material
-
-    name = s.string("material", None)
-    mat = material(name, s.key("material")) if name is not None else None
-    roughness = s.quantity("roughness", "length", None, minimum=0.0)
-    c = s.number("hazen_williams_c", None, positive=True)
-    if mat is not None:
-        roughness = mat.roughness if roughness is None else roughness
-        c = mat.hazen_williams_c if c is None else c
-    return name, roughness, c
-
-
-def _read_pipe_section(s: Section) -> PipeSectionConfig:
-    start = s.quantity("from", "length")
-    end = s.quantity("to", "length")
-    if end <= start:
-        raise InputError(f"{s.key('to')} = {s.table['to']!r}: must be beyond "
-                         f"{s.key('from')} = {s.table['from']!r}")
-    inside = s.quantity("inside_diameter", "length", None, positive=True)
-    outside = s.quantity("outside_diameter", "length", None, positive=True)
-    _check_diameters(s, inside, outside)
-    _, roughness, c = _friction_data(s)
-    return PipeSectionConfig(start, end, inside, outside, roughness, c,
-                             s.quantity("pressure_rating", "pressure", None, positive=True), s.name)
-
-
-def _exactly_one(s: Section, a, b) -> None:
-    """Require exactly one of two keys, each ``(key, value, what)``; a number must not be negative."""
-    if (a[1] is None) == (b[1] is None):
-        raise InputError(f"{s.file.name}: {s.name} needs exactly one of {s.key(a[0])} ({a[2]}) "
-                         f"or {s.key(b[0])} ({b[2]})")
-    for key, value, _ in (a, b):
-        if isinstance(value, float) and value < 0:
-            raise InputError(f"{s.key(key)} = {value!r}: must not be negative")
-
-
-def _read_fitting(s: Section) -> FittingConfig:
-    from .hydraulics.minor import k_for
-
-    station = s.quantity("station", "length")
-    kind = s.string("kind", None)
-    k = s.number("k", None)
-    _exactly_one(s, ("kind", kind, "a named fitting"), ("k", k, "a loss coefficient"))
-    if kind is not None:
-        try:
-            k = k_for(kind)
-        except InputError as exc:
-            raise InputError(f"{s.key('kind')}: {exc}") from None
-    return FittingConfig(station, k, kind, s.name)
-
-
-def _read_offtake(s: Section) -> OfftakeConfig:
-    if "path" in s.table:
-        unit = s.string("flow_unit", "L/s")
-        factor = parse_quantity(f"1 {unit}", "flow", s.key("flow_unit"))
-        return OfftakeConfig(path=s.path("path"), flow_field=s.string("flow_field"),
-                             flow_unit=unit, flow_factor=factor, layer=s.string("layer", None),
-                             key=s.name)
-    return OfftakeConfig(station=s.quantity("station", "length"),
-                         flow=s.quantity("flow", "flow", minimum=0.0), key=s.name)
-
-
-def _read_scenario(s: Section) -> ScenarioConfig:
-    name = s.string("name")
-    if name.lower() == "static":
-        raise InputError(f"{s.key('name')} = {name!r}: the static case is always computed; "
-                         "choose another name")
-    flow = s.quantity("flow", "flow", None, minimum=0.0)
-    mult = s.number("multiplier", None)
-    _exactly_one(s, ("flow", flow, "entering at the start"), ("multiplier", mult, "x hydraulics.flow"))
-    fire = s.quantity("fire_flow", "flow", None, minimum=0.0)
-    fire_station = s.quantity("fire_station", "length", None)
-    if fire is not None and flow is not None:
-        raise InputError(f"{s.key('fire_flow')}: give it with {s.key('multiplier')}, not with "
-                         f"{s.key('flow')} (flow is already the whole inflow)")
-    if fire_station is not None and fire is None:
-        raise InputError(f"{s.key('fire_station')}: only used with {s.key('fire_flow')}")
-    return ScenarioConfig(name, flow, mult, s.boolean("show_egl", True),
-                          fire_flow=fire or 0.0, fire_station=fire_station, key=s.name)
-
-
-def _read_cover(s: Section) -> CoverConfig:
-    minimum = s.quantity("minimum", "length", minimum=0.0)
-    maximum = s.quantity("maximum", "length", None, minimum=0.0)
-    if maximum is not None and maximum < minimum:
-        raise InputError(f"{s.key('maximum')} = {s.table['maximum']!r}: less than "
-                         f"{s.key('minimum')} = {s.table['minimum']!r}")
-    return CoverConfig(minimum=minimum, maximum=maximum)
-
-
-def _field_unit(s: Section, default=None):
-    """``field_unit``: the unit attribute values are in, as metres per unit."""
-    unit = s.string("field_unit", None)
-    if unit is None:
-        return None if default is None else default
-    try:
-        return parse_quantity(f"1 {unit}", "length", s.key("field_unit"))
-    except InputError:
-        raise InputError(f"{s.key('field_unit')} = {unit!r}: expected a length unit, e.g. \"m\" "
-                         "or \"ft\"") from None
-
-
-def _read_cover_zone(s: Section) -> CoverZoneConfig:
-    cfg = CoverZoneConfig(
-        path=s.path("path"),
-        layer=s.string("layer", None),
-        minimum=s.quantity("minimum", "length", None, minimum=0.0),
-        maximum=s.quantity("maximum", "length", None, minimum=0.0),
-        minimum_field=s.string("minimum_field", None),
-        maximum_field=s.string("maximum_field", None),
-        field_factor=_field_unit(s, 1.0),
-        key=s.name,
-    )
-    if all(v is None for v in (cfg.minimum, cfg.maximum, cfg.minimum_field, cfg.maximum_field)):
-        raise InputError(f"{s.file.name}: [[{s.name.split('[')[0]}]] {s.name} sets no cover: give "
-                         "minimum, maximum, minimum_field or maximum_field")
-    return cfg
-
-
-def _read_crossing(s: Section) -> CrossingLayerConfig:
-    bottom = s.string("bottom_field", None)
-    depth = s.string("depth_field", None)
-    if (bottom is None) == (depth is None):
-        raise InputError(f"{s.file.name}: {s.name} needs exactly one of {s.key('bottom_field')} "
-                         f"(the feature's bottom elevation) or {s.key('depth_field')} (its depth "
-                         "below ground)")
-    return CrossingLayerConfig(
-        path=s.path("path"),
-        clearance=s.quantity("clearance", "length", minimum=0.0),
-        bottom_field=bottom,
-        depth_field=depth,
-        size_field=s.string("size_field", None),
-        size=s.quantity("size", "length", None, minimum=0.0),
-        side=s.string("side", "under", choices=("under", "over")),
-        width_field=s.string("width_field", None),
-        width=s.quantity("width", "length", None, minimum=0.0),
-        field_factor=_field_unit(s),
-        layer=s.string("layer", None),
-        key=s.name,
-    )
-
-
-def _read_design(s: Section) -> DesignConfig:
-    d = DesignConfig()
-    angles = s._get("bend_angles", None)
-    if angles is None:
-        bend_angles = d.bend_angles
-    elif isinstance(angles, list) and angles:
-        bend_angles = tuple(sorted(parse_quantity(a, "angle", s.key("bend_angles")) for a in angles))
-        if not all(0 < a <= math.pi / 2 + 1e-12 for a in bend_angles):
-            raise InputError(f"{s.key('bend_angles')} = {angles!r}: each angle must be above 0 "
-                             "and at most 90 deg")
-    else:
-        raise InputError(f"{s.key('bend_angles')} = {angles!r}: expected a list such as "
-                         "[\"11.25 deg\", \"22.5 deg\", \"45 deg\", \"90 deg\"]")
-    deflection = s.quantity("max_joint_deflection", "angle", "3 deg", minimum=0.0)
-    if deflection > math.radians(15):
-        raise InputError(f"{s.key('max_joint_deflection')} = {s.table['max_joint_deflection']!r}: "
-                         "more than 15 deg per joint is not a pipe joint")
-    cfg = DesignConfig(
-        joint_length=s.quantity("joint_length", "length", "6 m", positive=True),
-        max_joint_deflection=deflection,
-        bend_angles=bend_angles,
-        min_grade=s.quantity("min_grade", "dimensionless", None, positive=True),
-        max_grade=s.quantity("max_grade", "dimensionless", None, positive=True),
-        trench_width=s.quantity("trench_width", "length", None, positive=True),
-    )
-    if cfg.min_grade and cfg.max_grade and cfg.min_grade > cfg.max_grade:
-        raise InputError(f"{s.key('min_grade')} = {s.table['min_grade']!r}: steeper than "
-                         f"{s.key('max_grade')} = {s.table['max_grade']!r}")
-    return cfg
-
-
-def _read_hydraulics(s: Section) -> HydraulicsConfig:
-    temperature = s.quantity("temperature", "temperature", "15 degC")
-    if not 273.15 <= temperature <= 313.15:
-        raise InputError(
-            f"{s.key('temperature')} = {s.table.get('temperature')!r}: outside 0-40 degC, "
-            "the range of the water property correlations"
-        )
-    boundary = s.string("boundary", "source-head", choices=BOUNDARIES)
-    # two-heads solves the flow; min-pressure solves the head (source_head is
-    # then the head available without a pump, optional).
-    source_head = s.quantity("source_head", "length", None if boundary == "min-pressure" else _MISSING)
-    flow = s.quantity("flow", "flow", None, minimum=0.0)
-    end = s.string("end", "open", choices=("open", "tank", "main"))
-    # A free outlet ("open") is at atmospheric pressure: its head defaults to the axis there.
-    end_head = s.quantity("end_head", "length",
-                          _MISSING if boundary == "two-heads" and end != "open" else None)
-    if boundary != "two-heads" and end_head is not None:
-        raise InputError(f"{s.key('end_head')}: only used with {s.key('boundary')} = \"two-heads\"")
-    if boundary == "two-heads" and end_head is not None and end_head > source_head:
-        raise InputError(f"{s.key('end_head')} = {s.table['end_head']!r}: above "
-                         f"{s.key('source_head')}; the flow would run backwards")
-    return HydraulicsConfig(
-        source_head=source_head,
-        flow=flow,
-        temperature=temperature,
-        boundary=boundary,
-        end_head=end_head,
-        start=s.string("start", "main", choices=("main", "tank")),
-        end=end,
-        entrance=s.string("entrance", "sharp", choices=("sharp", "rounded", "projecting")),
-        required_pressure=s.quantity("required_pressure", "pressure", None),
-        required_at=s.string("required_at", "everywhere", choices=("everywhere", "end")),
-    )
-
-
-def _read_checks(s: Section) -> Thresholds:
-    d = Thresholds()
-    return Thresholds(
-        min_pressure=s.quantity("min_pressure", "pressure", f"{d.min_pressure} Pa"),
-        max_pressure=s.quantity("max_pressure", "pressure", f"{d.max_pressure} Pa"),
-        min_velocity=s.quantity("min_velocity", "velocity", f"{d.min_velocity} m/s", minimum=0.0),
-        max_velocity=s.quantity("max_velocity", "velocity", f"{d.max_velocity} m/s", minimum=0.0),
-    )
-
-
-def _read_output(s: Section) -> OutputConfig:
-    return OutputConfig(
-        dir=s.path("dir", None, must_exist=False),
-        units=s.string("units", "si", choices=("si", "us")).upper(),
-    )
 
 
 def load(path, *, ground_only: bool = False) -> Project:
@@ -662,65 +432,210 @@ def load(path, *, ground_only: bool = False) -> Project:
         raise InputError(f"{file.name}: not valid TOML ({exc})") from None
     except (OSError, UnicodeDecodeError) as exc:
         raise InputError(f"{file.name}: cannot read ({exc})") from None
-
     file = file.resolve()
-    base = file.parent
-
-    unknown = [k for k in data if k not in SECTIONS]
+    sections = {f.name: f.metadata for f in fields(Project) if "cls" in f.metadata}
+    unknown = [k for k in data if k not in sections]
     if unknown:
-        raise InputError(f"{file.name}: unknown section [{unknown[0]}]{_suggest(unknown[0], SECTIONS)}")
-
-    def section(name: str, reader, required=True):
-        if name not in data:
-            if not required:
-                try:
-                    return reader(Section({}, name, base, file))
-                except InputError:  # an optional section with required keys
-                    return None
-            raise InputError(f"{file.name}: missing required section [{name}]")
-        sec = Section(data[name], name, base, file)
-        out = reader(sec)
-        sec.finish()
-        return out
-
-    def tables(name: str, reader) -> tuple:
-        raw = data.get(name, [])
-        if isinstance(raw, dict):
-            raw = [raw]
-        if not isinstance(raw, list):
-            raise InputError(f"{file.name}: [[{name}]] must be a list of tables")
-        out = []
-        for i, table in enumerate(raw):
-            sec = Section(table, f"{name}[{i}]", base, file)
-            out.append(reader(sec))
-            sec.finish()
-        return tuple(out)
-
-    project = Project(
-        path=file,
-        alignment=section("alignment", _read_alignment),
-        terrain=section("terrain", _read_terrain),
-        pipe=section("pipe", _read_pipe, required=not ground_only),
-        cover=section("cover", _read_cover, required=not ground_only),
-        hydraulics=section("hydraulics", _read_hydraulics, required=not ground_only),
-        crossings=tables("crossings", _read_crossing),
-        cover_zones=tables("cover_zones", _read_cover_zone),
-        design=section("design", _read_design, required=False),
-        checks=section("checks", _read_checks, required=False),
-        output=section("output", _read_output, required=False),
-        sections=tables("sections", _read_pipe_section),
-        fittings=tables("fittings", _read_fitting),
-        offtakes=tables("offtakes", _read_offtake),
-        scenarios=tables("scenarios", _read_scenario),
-    )
+        raise InputError(f"{file.name}: unknown section [{unknown[0]}]"
+                         f"{names.suggest(unknown[0], sections)}")
+    project = Project(path=file, **{name: _read_section(m, data, name, file, ground_only)
+                                    for name, m in sections.items()})
     _check_hydraulic_cases(project)
     return project
 
 
+def _read_section(m: dict, data: dict, name: str, file: Path, ground_only: bool):
+    """Section ``name`` of ``data``, a table or an array of tables (``m``: its field's metadata)."""
+    if m["array"]:
+        raw = data.get(name, [])
+        raw = [raw] if isinstance(raw, dict) else raw
+        if not isinstance(raw, list):
+            raise InputError(f"{file.name}: [[{name}]] must be a list of tables")
+        return tuple(read_table(m["cls"], tab, f"{name}[{i}]", file) for i, tab in enumerate(raw))
+    if name in data:
+        return read_table(m["cls"], data[name], name, file)
+    if m["need"] == "always" or (m["need"] == "run" and not ground_only):
+        raise InputError(f"{file.name}: missing required section [{name}]")
+    return None if m["need"] == "run" else m["cls"]()
+
+
+class _Table:
+    """One TOML table being read: its name (``pipe``, ``crossings[0]``), raw values and file."""
+
+    def __init__(self, raw: dict, name: str, file: Path):
+        self.raw, self.name, self.file = raw, name, file
+
+    def key(self, key: str) -> str:
+        return f"{self.name}.{key}"
+
+    def say(self, key: str) -> str:
+        """The key as written, for messages: ``pipe.outside_diameter = '200 mm'``."""
+        return f"{self.key(key)} = {self.raw[key]!r}"
+
+    def missing(self, key: str) -> InputError:
+        near = names.closest(key, self.raw)
+        hint = f" (is {self.key(near)} a typo for it?)" if near else ""
+        return InputError(f"{self.file.name}: missing required key {self.key(key)}{hint}")
+
+
+def declared(cls, raw=None) -> list:
+    """The fields of ``cls`` that are project-file keys: all of them, or those
+    of the shape table ``raw`` has, in reading order."""
+    keys = {f.name: f for f in fields(cls) if "kind" in f.metadata}
+    for selector, shape in getattr(cls, "_variants", ()) if raw is not None else ():
+        if selector is None or selector in raw:
+            return [keys[name] for name in shape]
+    return list(keys.values())
+
+
+def toml_name(f) -> str:
+    """A declared field's key in the project file."""
+    return f.metadata["toml"] or f.name
+
+
+def read_table(cls, raw, name: str, file: Path):
+    """Read one TOML table ``raw`` (``name`` in messages) into ``cls`` from its
+    declared keys: each value checked and converted, then its rules."""
+    if not isinstance(raw, dict):
+        raise InputError(f"{file.name}: [{name}] must be a table of keys")
+    t, keys, values = _Table(raw, name, file), declared(cls, raw), {}
+    for f in keys:
+        if toml_name(f) in raw:
+            values[f.name] = _value(f.metadata, raw[toml_name(f)], t.key(toml_name(f)), file.parent)
+        elif f.metadata["required"]:
+            raise t.missing(toml_name(f))
+    one_of = getattr(cls, "_one_of", None)
+    if one_of and (one_of[0][0] in raw) == (one_of[1][0] in raw):
+        (a, what_a), (b, what_b) = one_of
+        raise InputError(f"{file.name}: {name} needs exactly one of {t.key(a)} ({what_a}) or "
+                         f"{t.key(b)} ({what_b})")
+    cfg = cls(**values, **({"key": name} if "key" in cls.__dataclass_fields__ else {}))
+    cfg = cfg._rules(t) if hasattr(cfg, "_rules") else cfg
+    known = [toml_name(f) for f in keys]
+    unknown = sorted(set(raw) - set(known))
+    if unknown:
+        raise InputError(f"{file.name}: unknown key {t.key(unknown[0])}"
+                         f"{names.suggest(unknown[0], known)}")
+    return cfg
+
+
+def _value(m: dict, value, key: str, base: Path):
+    """One key's ``value`` read as its declaration ``m`` says (:func:`key`);
+    ``key`` is its full name for messages, ``base`` the folder paths are read from.
+
+    Besides the kinds of :func:`key`: ``feature`` (a whole number), ``dem``
+    and ``accuracy`` (:func:`_terrain`), ``angles`` (:func:`_angles`), ``unit``
+    (a length unit, as metres per unit) and the names ``flow_unit``,
+    ``vertical_unit``, ``material`` and ``fitting`` (:func:`_text`).
+    """
+    kind, sign = m["kind"], m["sign"]
+    if kind in QUANTITIES:
+        return _quantity(value, kind, key, sign)
+    if kind == "number":
+        if isinstance(value, bool) or not isinstance(value, (int, float)):
+            raise InputError(f"{key} = {value!r}: expected a plain number")
+        if not math.isfinite(value) or (sign == ">0" and value <= 0):
+            raise InputError(f"{key} = {value!r}: must be a finite number above zero")
+        if sign == ">=0" and value < 0:
+            raise InputError(f"{key} = {float(value)!r}: must not be negative")
+        return float(value)
+    if kind == "bool" and not isinstance(value, bool):
+        raise InputError(f"{key} = {value!r}: expected true or false")
+    if kind == "feature" and (isinstance(value, bool) or not isinstance(value, int)):
+        raise InputError(f"{key} = {value!r}: expected a whole-number feature id")
+    if kind in ("bool", "feature"):
+        return value
+    if kind in ("file", "dir"):
+        return _path(value, key, base, must_exist=kind == "file")
+    if kind in ("dem", "accuracy"):
+        return _terrain(kind, value, key, base)
+    return _angles(value, key) if kind == "angles" else _text(kind, value, key, m["choices"])
+
+
+def _quantity(value, kind: str, key: str, sign=None) -> float:
+    """A quantity string in SI, finite and within ``sign`` (``>0``, ``>=0``)."""
+    from .units import parse_quantity
+    out = parse_quantity(value, kind, key)
+    if not math.isfinite(out):
+        raise InputError(f"{key} = {value!r}: must be finite")
+    if sign == ">0" and out <= 0:
+        raise InputError(f"{key} = {value!r}: must be greater than zero")
+    if sign == ">=0" and out < 0:
+        raise InputError(f"{key} = {value!r}: must not be negative")
+    return out
+
+
+def _path(value, key: str, base: Path, must_exist: bool) -> Path:
+    """A path; a relative one is read from ``base``, the project file's folder."""
+    if not isinstance(value, str) or not value.strip():
+        raise InputError(f"{key} = {value!r}: expected a file path as text")
+    path = Path(value).expanduser()
+    path = path if path.is_absolute() else base / path
+    if must_exist and not path.exists():
+        raise InputError(f"{key} = {value!r}: file not found ({path})")
+    return path
+
+
+def _terrain(kind: str, value, key: str, base: Path):
+    """terrain.dem: the DEM files, in overlap priority; terrain.vertical_accuracy:
+    m RMSE, a length or the typical RMSE of a DEM kind."""
+    from . import terrain
+    if kind == "dem":
+        return tuple(terrain.resolve_dem_paths(value, base, key))
+    kinds = terrain.VERTICAL_ACCURACY_BY_KIND
+    if isinstance(value, str) and value.strip().lower() in kinds:
+        return kinds[value.strip().lower()]
+    try:
+        return _quantity(value, "length", key, ">=0")
+    except InputError as exc:
+        raise InputError(f"{exc} (or a DEM kind: {', '.join(kinds)})") from None
+
+
+def _angles(value, key: str) -> tuple:
+    """design.bend_angles: angles above 0 and at most 90 deg, in rad, sorted."""
+    from .units import parse_quantity
+    if not isinstance(value, list) or not value:
+        raise InputError(f"{key} = {value!r}: expected a list such as "
+                         "[\"11.25 deg\", \"22.5 deg\", \"45 deg\", \"90 deg\"]")
+    angles = tuple(sorted(parse_quantity(a, "angle", key) for a in value))
+    if not all(0 < a <= math.pi / 2 + 1e-12 for a in angles):
+        raise InputError(f"{key} = {value!r}: each angle must be above 0 and at most 90 deg")
+    return angles
+
+
+def _text(kind: str, value, key: str, choices=()):
+    """Text, stripped: with ``choices``, the one it names in any letter case; a
+    ``unit`` as metres per unit; a known name of the kind it is."""
+    from .units import parse_quantity
+    if not isinstance(value, str) or not value.strip():
+        raise InputError(f"{key} = {value!r}: expected a text value")
+    text, low = value.strip(), [c.lower() for c in choices]
+    if choices and text.lower() not in low:
+        raise InputError(f"{key} = {value!r}: expected one of {', '.join(low)}"
+                         f"{names.suggest(text.lower(), low)}")
+    if choices:
+        return choices[low.index(text.lower())]
+    if kind == "unit":
+        try:
+            return parse_quantity(f"1 {text}", "length", key)
+        except InputError:
+            raise InputError(f"{key} = {text!r}: expected a length unit, e.g. \"m\" or "
+                             "\"ft\"") from None
+    if kind == "flow_unit":
+        parse_quantity(f"1 {text}", "flow", key)
+    elif kind == "vertical_unit":
+        from .terrain import vertical_unit_factor
+        vertical_unit_factor(text, key)
+    elif kind == "material":
+        from .hydraulics.materials import material
+        material(text, key)
+    return text
+
+
 def _check_hydraulic_cases(p: Project) -> None:
     """Cross-section rules of the hydraulic keys (one line naming the key)."""
-    names = [sc.name for sc in p.scenarios]
-    dup = sorted({n for n in names if names.count(n) > 1})
+    scenario_names = [sc.name for sc in p.scenarios]
+    dup = sorted({n for n in scenario_names if scenario_names.count(n) > 1})
     if dup:
         raise InputError(f"{p.path.name}: scenario name {dup[0]!r} given twice in [[scenarios]]")
     hyd = p.hydraulics
@@ -744,3 +659,97 @@ def _check_hydraulic_cases(p: Project) -> None:
         raise InputError(f"{p.path.name}: missing required key hydraulics.flow ({why})")
     if hyd.flow == 0 and p.scenarios and p.offtakes:
         raise InputError("hydraulics.flow = 0: scenarios with offtakes need a base flow above zero")
+
+
+# --------------------------------------------------------------------------
+# The JSON Schema
+# --------------------------------------------------------------------------
+
+_NUMBER = r"(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?(?![eE][-+]?\d)"  # "1e3" has no unit
+_UNIT = r"[A-Za-z%°µ][A-Za-z0-9_%°µ*/^.() -]*"
+_TEXT = {"type": "string", "pattern": r"\S"}
+
+
+def project_schema(*, ground_only: bool = False) -> dict:
+    """The project file's JSON Schema (draft 2020-12), made from the declarations.
+
+    Each section's keys and no others, the required ones, each key's doc and
+    its default as written. A quantity is a number then a unit; a name is in
+    its documented spelling (the reader also takes other cases). Rules
+    between keys are the reader's alone. ``ground_only`` as for :func:`load`.
+
+    >>> design = project_schema()["properties"]["design"]["properties"]
+    >>> design["joint_length"]["default"], design["joint_length"]["description"]
+    ('6 m', 'length of one pipe joint')
+    """
+    props, required = {}, []
+    for f in fields(Project):
+        if "cls" in f.metadata:
+            m, table = f.metadata, _table_schema(f.metadata["cls"])
+            props[f.name] = ({"type": "array", "description": table["description"],
+                              "items": table} if m["array"] else table)
+            if m["need"] == "always" or (m["need"] == "run" and not ground_only):
+                required.append(f.name)
+    return {"$schema": "https://json-schema.org/draft/2020-12/schema",
+            "$id": "urn:gisgrade:project-file" + (":ground" if ground_only else ""),
+            "title": "gisgrade project file",
+            "description": "One TOML file that drives a gisgrade run. Every dimensional value is "
+                           "a string with its unit; relative paths are read from its folder.",
+            "type": "object", "properties": props, "required": required,
+            "additionalProperties": False}
+
+
+def _table_schema(cls) -> dict:
+    """One section's schema: its declared keys, the required ones, no others."""
+    def shape(keys) -> dict:
+        return {"properties": {toml_name(f): _key_schema(f) for f in keys},
+                "required": [toml_name(f) for f in keys if f.metadata["required"]],
+                "additionalProperties": False}
+
+    out = {"type": "object", "description": cls.__doc__.strip().splitlines()[0]}
+    if hasattr(cls, "_variants"):  # one shape or the other
+        out["oneOf"] = [shape(declared(cls, [sel] if sel else ())) for sel, _ in cls._variants]
+    else:
+        out.update(shape(declared(cls)))
+    if hasattr(cls, "_one_of"):
+        out["oneOf"] = [{"required": [name]} for name, _ in cls._one_of]
+    return out
+
+
+def _key_schema(f) -> dict:
+    """One key's schema: its doc, its value's form and its default as written."""
+    default = f.default if f.metadata["shown"] is None else f.metadata["shown"]
+    shown = {} if default is None or default is MISSING else {"default": default}
+    return {"description": f.metadata["doc"], **_value_schema(f.metadata), **shown}
+
+
+def _quantity_schema(sign=None, unit: str = "") -> dict:
+    """A number (no minus where it may not be negative), then a unit (``unit="?"``: optional)."""
+    lead = r"\+?" if sign else "[-+]?"
+    return {"type": "string", "pattern": rf"^\s*{lead}{_NUMBER}\s*({_UNIT}){unit}$"}
+
+
+def _value_schema(m: dict) -> dict:
+    """The schema of one key's value, from its declaration ``m``."""
+    from .hydraulics.materials import MATERIALS
+    from .hydraulics.minor import NAMED_K
+    from .terrain import VERTICAL_ACCURACY_BY_KIND, VERTICAL_UNITS
+    kind, sign = m["kind"], m["sign"]
+    bound = {">0": {"exclusiveMinimum": 0}, ">=0": {"minimum": 0}}.get(sign, {})
+    if kind == "dimensionless":  # a plain number, or a number and an optional unit ("0.1 %")
+        return {**_quantity_schema(sign, "?"), "type": ["number", "string"], **bound}
+    if kind in QUANTITIES:
+        return _quantity_schema(sign)
+    if kind in ("number", "bool", "feature"):
+        return {"type": {"bool": "boolean", "feature": "integer"}.get(kind, "number"), **bound}
+    if kind == "dem":
+        return {"anyOf": [_TEXT, {"type": "array", "minItems": 1, "items": _TEXT}]}
+    if kind == "angles":
+        return {"type": "array", "minItems": 1, "items": _quantity_schema(">0")}
+    if kind == "accuracy":
+        return {"anyOf": [_quantity_schema(">=0"), {"enum": list(VERTICAL_ACCURACY_BY_KIND)}]}
+    if kind in ("unit", "flow_unit"):
+        return {"type": "string", "pattern": rf"^\s*{_UNIT}$"}
+    known = {"vertical_unit": VERTICAL_UNITS, "material": MATERIALS, "fitting": NAMED_K}
+    choices = m["choices"] or sorted(known.get(kind, ()))
+    return {"type": "string", "enum": list(choices)} if choices else dict(_TEXT)

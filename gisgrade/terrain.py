@@ -44,6 +44,7 @@ import numpy as np
 
 from .arrays import runs
 from .errors import InputError, first_line
+from .names import normalise
 
 __all__ = [
     "VERTICAL_UNITS",
@@ -90,11 +91,7 @@ DEFAULT_MAX_GAP_CELLS = 3.0
 DEM_EXTENSIONS = (".tif", ".tiff", ".vrt")
 
 
-def _norm_unit(name: str) -> str:
-    return "_".join(name.strip().lower().replace("-", " ").replace("_", " ").split())
-
-
-_UNIT_LOOKUP = {_norm_unit(k): v for k, v in VERTICAL_UNITS.items()}
+_UNIT_LOOKUP = {normalise(k, "_"): v for k, v in VERTICAL_UNITS.items()}
 
 
 def vertical_unit_factor(name, key: str = "terrain.vertical_unit") -> float:
@@ -119,7 +116,7 @@ def vertical_unit_factor(name, key: str = "terrain.vertical_unit") -> float:
     0.3048006096
     """
     if isinstance(name, str):
-        factor = _UNIT_LOOKUP.get(_norm_unit(name))
+        factor = _UNIT_LOOKUP.get(normalise(name, "_"))
         if factor is not None:
             return factor
     raise InputError(

@@ -153,3 +153,19 @@ def test_grade_set_rows_are_the_long_table(tmp_path):
     rows = frame[frame["scenario"] == "design"]
     np.testing.assert_array_equal(rows["hgl_m"].to_numpy(), g.hgl[i])
     np.testing.assert_array_equal(rows["pressure_kpa"].to_numpy(), g.pressure[i] / 1e3)
+
+
+def test_schema_command_prints_a_schema_the_demo_project_keeps(capsys):
+    # the printed JSON Schema, checked by an independent validator (jsonschema,
+    # JSON Schema 2020-12) against the bundled demo project file
+    import json
+    import tomllib
+
+    import jsonschema
+
+    from gisgrade.cli.demo import demo_project
+
+    assert main(["schema"]) == 0
+    schema = json.loads(capsys.readouterr().out)
+    jsonschema.Draft202012Validator.check_schema(schema)
+    jsonschema.validate(tomllib.loads(demo_project().read_text()), schema)

@@ -19,10 +19,10 @@ References
 """
 from __future__ import annotations
 
-import difflib
 from typing import NamedTuple
 
 from gisgrade.errors import InputError
+from gisgrade.names import normalise, suggest
 
 
 class Material(NamedTuple):
@@ -74,9 +74,8 @@ def material(name: str, key: str = "material") -> Material:
     >>> material("ductile iron cement lined").roughness
     0.0001
     """
-    norm = "-".join(str(name).strip().lower().replace("_", " ").replace("-", " ").split())
+    norm = normalise(name, "-")
     if norm in MATERIALS:
         return MATERIALS[norm]
-    near = difflib.get_close_matches(norm, MATERIALS, n=1, cutoff=0.0)
-    hint = f" (did you mean {near[0]!r}?)" if near else ""
-    raise InputError(f"{key} = {name!r}: unknown material{hint}; known: {', '.join(MATERIALS)}")
+    raise InputError(f"{key} = {name!r}: unknown material{suggest(norm, MATERIALS)}; "
+                     f"known: {', '.join(MATERIALS)}")

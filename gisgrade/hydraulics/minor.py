@@ -16,13 +16,13 @@ References
 
 from __future__ import annotations
 
-import difflib
 from typing import NamedTuple
 
 import numpy as np
 
 from gisgrade.errors import InputError
 from gisgrade.hydraulics.friction import _out, friction_factor
+from gisgrade.names import normalise, suggest
 
 #: Default bend radius in pipe diameters (r/D = 1.5, a "long-radius" bend;
 #: common practice for fabricated and cast bends in water mains, where r/D
@@ -174,7 +174,8 @@ def k_for(name: str) -> float:
     """Default K of a named fitting from :data:`NAMED_K`.
 
     The name is matched case-insensitively, with spaces and hyphens read as
-    underscores ("Gate valve open" finds ``gate_valve_open``).
+    underscores ("Gate valve open" finds ``gate_valve_open``; see
+    :func:`gisgrade.names.normalise`).
 
     Parameters
     ----------
@@ -199,9 +200,8 @@ def k_for(name: str) -> float:
     >>> k_for("Gate valve open")
     0.12
     """
-    key = "_".join(str(name).strip().lower().replace("-", " ").split())
+    key = normalise(name, "_")
     if key in NAMED_K:
         return NAMED_K[key].k
-    near = difflib.get_close_matches(key, NAMED_K, n=1, cutoff=0.0)
-    hint = f"; did you mean {near[0]!r}?" if near else ""
-    raise InputError(f"unknown fitting kind {name!r}{hint} (known: {', '.join(sorted(NAMED_K))})")
+    raise InputError(f"unknown fitting kind {name!r}{suggest(key, NAMED_K)}; "
+                     f"known: {', '.join(sorted(NAMED_K))}")
