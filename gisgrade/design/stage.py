@@ -21,10 +21,8 @@ from .points import high_low_points
 from .profile import design_profile
 from .rules import DesignRules, trench_width
 
-#: A grade break's cost is stated per this change of grade (1 %).
+#: A grade break's cost ([design] grade_break_cost) is stated per this change of grade (1 %).
 GRADE_BREAK_UNIT = 0.01
-#: Default grade-break cost, m^3 of excavation per 1 % of grade change.
-GRADE_BREAK_COST = 10.0
 
 
 @dataclass(frozen=True)
@@ -51,7 +49,7 @@ def rules_for(project, table: pd.DataFrame, allowance=None) -> DesignRules:
     and outside diameter per station from the earlier stages)."""
     cfg = project.design
     od = table["outside_diameter_m"].to_numpy(dtype=float)
-    tolerance = getattr(cfg, "high_point_tolerance", None)
+    tolerance = cfg.high_point_tolerance
     if tolerance is None and "ground_band_m" in table:  # what the DEM cannot resolve
         tolerance = float(np.nanmax(table["ground_band_m"].to_numpy(dtype=float)))
     return DesignRules(
@@ -66,7 +64,7 @@ def rules_for(project, table: pd.DataFrame, allowance=None) -> DesignRules:
         trench_width=trench_width(od, cfg.trench_width),
         knots=knots_of(table),
         allowance=allowance,
-        grade_break_cost=getattr(cfg, "grade_break_cost", GRADE_BREAK_COST) / GRADE_BREAK_UNIT,
+        grade_break_cost=cfg.grade_break_cost / GRADE_BREAK_UNIT,
         high_point_tolerance=tolerance,
     )
 
@@ -91,7 +89,7 @@ def stage_design(project, table: pd.DataFrame, crossings):
              "passes under it" for n in crossings.name[moved]]
     knots = knots_of(table)
     plan = plan_design(station, x, y, knots, cfg.max_joint_deflection, cfg.bend_angles,
-                       getattr(cfg, "curve_joints", 3))
+                       int(cfg.curve_joints))
     profile = design_profile(station, ground, design_crossings(crossings, station, ground),
                              rules_for(project, table, plan.allowance))
     axis = profile.top - od / 2

@@ -26,12 +26,11 @@ one (an air-release and an air-vacuum make a combination). Pure numpy.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
-
 import numpy as np
 import pandas as pd
 
 from ..arrays import runs
+from ..project import ValvesConfig
 
 #: Columns of the valve table.
 COLUMNS = ["station_m", "kind", "reason"]
@@ -40,17 +39,8 @@ AIR_KINDS = ("combination", "air-vacuum", "air-release")
 KINDS = AIR_KINDS + ("drain",)
 
 
-@dataclass(frozen=True)
-class ValveRules:
-    """Siting rules (SI). Defaults: AWWA M51 as recalled (*from memory*) and
-    common practice (the interval: 400-800 m, a quarter to half a mile)."""
-
-    interval: float = 500.0  #: m, longest run without an air valve
-    grade_change: float = 0.01  #: m/m, a slope change that needs a valve
-    flat_grade: float = 0.001  #: m/m, flatter is near-horizontal
-    flat_run: float = 100.0  #: m, a near-horizontal run this long gets valves at both ends
-    hgl_margin: float = 5.0  #: m, HGL this close above the top of pipe needs an air-vacuum valve
-    merge_distance: float = 20.0  #: m, valves closer than this are one
+#: The siting rules: the project's [valves] table (defaults defined there).
+ValveRules = ValvesConfig
 
 
 def site_valves(station, top, highs, lows, grades=(), names=(), knots=None,
@@ -166,8 +156,7 @@ def stage_valves(project, table: pd.DataFrame, points: pd.DataFrame, grades) -> 
     top = table["top_m"].to_numpy()
     at = lambda kind: np.searchsorted(s, points.loc[points["kind"] == kind, "station_m"].to_numpy())  # noqa: E731
     rows = grades.flowing if grades is not None else []
-    cfg = getattr(project, "valves", None)
-    rules = ValveRules(**{k: getattr(cfg, k) for k in ValveRules.__dataclass_fields__}) if cfg else ValveRules()
+    rules = project.valves
     v = site_valves(s, top, at("high"), at("low"), grades.hgl_low[rows] if len(rows) else (),
                     [grades.names[i] for i in rows], knots_of(table), rules)
     for col in ("x", "y", "top_m", "axis_m", "ground_m"):
