@@ -32,6 +32,11 @@ from .errors import InputError, first_line
 REGULAR, VERTEX, CROSSING, END, ZONE = 1, 2, 4, 8, 16
 #: Hydraulic station kinds: a fitting or valve, an offtake, a pipe-section boundary.
 FITTING, OFFTAKE, SECTION = 32, 64, 128
+#: A pipe joint (one every joint length from each vertex, fitting and section end).
+JOINT = 256
+#: The kinds of station where the pipe may change grade or direction: its
+#: joints, the fittings and vertices (each has a joint), and the ends.
+KNOTS = JOINT | VERTEX | END | FITTING | OFFTAKE | SECTION
 
 #: Most regular stations a line may get (a guard against a mistyped spacing).
 MAX_STATIONS = 5e6
@@ -677,7 +682,7 @@ def stage_alignment(project):
     crossings = locate_crossings(line, project.crossings,
                                  vertical_unit_factor(project.terrain.vertical_unit))
     zones = locate_zones(line, project.cover_zones)
-    extra, located, line = special_stations(project, line)
+    extra, located, line = special_stations(project, line, crossings.station)
     s, x, y, kind = stations(line, cfg.spacing, crossings, zones, extra)
     offset = line.start_station
     table = pd.DataFrame({"station_m": s + offset, "x": x, "y": y, "kind": kind})

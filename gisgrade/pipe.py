@@ -19,12 +19,14 @@ from .errors import InputError
 from .hydraulics.cases import segment_values
 
 
-def special_stations(project, line: al.Alignment):
+def special_stations(project, line: al.Alignment, crossings=()):
     """Stations the hydraulics needs on the table.
 
     Returns ``(extra, located, line)``: ``extra`` is ``(stations, flag)``
     pairs measured from the line's first point (fittings, offtakes and fire
-    stations, section boundaries); ``located`` the offtake point layers
+    stations, section boundaries, and, when a pipe is to be designed, its
+    joints: :func:`joint_stations`, with a full pipe length centred on each of
+    the ``crossings`` (stations from the line's first point)); ``located`` the offtake point layers
     snapped to the line as ``(station, flow m3/s)`` arrays (or None); and the
     line with a note on how far the points lay from it.
     """
@@ -36,8 +38,39 @@ def special_stations(project, line: al.Alignment):
              (np.array([b for sec in project.sections for b in (sec.start, sec.end)]) - s0,
               al.SECTION)]
     layers = [o for o in project.offtakes if o.path is not None]
-    if not layers:
-        return extra, None, line
+    located = None
+    if layers:
+        extra, located, line = _offtake_layers(layers, extra, line)
+    if project.pipe is not None:  # the pipe will be designed: its joints are stations
+        L = project.design.joint_length
+        # a full pipe length centred on each crossing, its joints equidistant from
+        # the crossed feature (Ten States Standards, from memory)
+        centred = np.concatenate([np.asarray(crossings, float) - L / 2,
+                                  np.asarray(crossings, float) + L / 2])
+        anchors = np.concatenate([line.vertex_stations, centred] + [e[0] for e in extra])
+        extra.append((np.r_[joint_stations(anchors, line.length, L), centred], al.JOINT))
+    return extra, located, line
+
+
+def joint_stations(anchors, length: float, joint_length: float) -> np.ndarray:
+    """Stations (m from the line's start) of the pipe joints: one every
+    ``joint_length`` from each anchor (the start, vertices, fittings, section
+    ends), the length before the next anchor cut to fit.
+
+    >>> joint_stations([0.0, 20.0], 30.0, 6.0).tolist()
+    [6.0, 12.0, 18.0, 26.0]
+    """
+    a = np.unique(np.clip(np.r_[0.0, np.asarray(anchors, float), length], 0.0, length))
+    gaps = np.diff(a)
+    count = np.maximum(np.ceil(gaps / joint_length - 1e-9).astype(int) - 1, 0)
+    start = np.repeat(a[:-1], count)
+    k = np.arange(count.sum()) - np.repeat(np.cumsum(count) - count, count) + 1
+    return start + k * joint_length
+
+
+def _offtake_layers(layers, extra, line):
+    """Offtake point layers snapped to the line: (extra, located, line)."""
+    s0 = line.start_station
     stations, flows, notes = [], [], []
     for o in layers:
         gdf, st, offset = al.locate_points(line, o.path, f"{o.key}.path", layer=o.layer)

@@ -15,8 +15,9 @@ import time
 from contextlib import contextmanager
 
 from .alignment import stage_alignment
-from .design import bends_frame, clearances, stage_design
+from .design import clearances, stage_design
 from .findings import stage_findings
+from .findings.valves import stage_valves
 from .hydraulics.stage import stage_hydraulics
 from .pipe import stage_pipe
 from .project import Project, load
@@ -29,7 +30,7 @@ __all__ = ["compute", "compute_ground", "run", "run_ground", "resolve_outdir", "
 log = logging.getLogger("gisgrade")
 
 #: The stages of a whole run, in order (names for timings and progress).
-STAGES = ("alignment", "terrain", "pipe", "design", "hydraulics", "findings", "summary")
+STAGES = ("alignment", "terrain", "pipe", "design", "hydraulics", "findings", "valves", "summary")
 #: The stages of the ground profile alone.
 GROUND_STAGES = ("alignment", "terrain", "summary")
 
@@ -71,16 +72,17 @@ def compute(project, *, progress=None) -> Result:
     with clock("pipe"):
         table = stage_pipe(project, table)
     with clock("design"):
-        table, crossings, profile, design_notes = stage_design(project, table, crossings)
-        bends = bends_frame(profile, table)
+        table, design = stage_design(project, table, crossings)
     with clock("hydraulics"):
-        grades = stage_hydraulics(project, table, bends)
+        grades = stage_hydraulics(project, table, design.bends)
     with clock("findings"):
-        found = stage_findings(project, table, grades, profile.relaxations)
-    result = Result(project, line, crossings, table, grades, found, bends,
-                    list(profile.relaxations), profile=profile,
-                    clearances=_clearances(crossings, table), notes=notes + design_notes,
-                    timings=clock.timings)
+        found = stage_findings(project, table, grades, design.profile.relaxations)
+    with clock("valves"):
+        valves = stage_valves(project, table, design.points, grades)
+    result = Result(project, line, design.crossings, table, grades, found, design.bends,
+                    list(design.profile.relaxations), profile=design.profile,
+                    clearances=_clearances(design.crossings, table), points=design.points,
+                    valves=valves, notes=notes + design.notes, timings=clock.timings)
     with clock("summary"):
         _summarize(result)
     return result

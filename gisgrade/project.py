@@ -29,7 +29,8 @@ else:  # pragma: no cover
     import tomli as tomllib
 
 #: Kinds read as a quantity string and converted to SI (``units.SI_UNITS``).
-QUANTITIES = ("length", "flow", "velocity", "pressure", "temperature", "angle", "dimensionless")
+QUANTITIES = ("length", "flow", "velocity", "pressure", "temperature", "angle", "dimensionless",
+              "volume")
 FRICTION_METHODS = ("darcy-weisbach", "hazen-williams")
 BOUNDARIES = ("source-head", "two-heads", "min-pressure")
 
@@ -293,6 +294,13 @@ class DesignConfig:
     max_grade: float | None = key("dimensionless>0", "steepest grade (never above 45 deg)", None)
     trench_width: float | None = key("length>0", "trench width (default: outside diameter + "
                                      "0.6 m)", None)
+    grade_break_cost: float = key("volume>=0", "excavation a grade break of 1 % must save "
+                                  "(0: least excavation, following every ripple)", 10.0, "10 m3")
+    high_point_tolerance: float | None = key("length>=0", "high and low points less prominent "
+                                             "than this are designed out (default: the DEM's "
+                                             "95 % band)", None)
+    curve_joints: float = key("number>0", "joints a plan turn may be spread over before a bend "
+                              "fitting is used", 3.0, 3)
 
     def _rules(self, t: _Table) -> DesignConfig:
         if self.max_joint_deflection > math.radians(15):
@@ -361,6 +369,24 @@ class ChecksConfig:
 
 
 @dataclass(frozen=True)
+class ValvesConfig:
+    """[valves]: how air valves and drains are sited (AWWA M51 as recalled, from memory;
+    common practice)."""
+
+    interval: float = key("length>0", "longest run without an air valve (400-800 m is usual)",
+                          500.0, "500 m")
+    grade_change: float = key("dimensionless>0", "a change of slope that needs a valve", 0.01,
+                              "1 %")
+    flat_grade: float = key("dimensionless>=0", "flatter runs are near-horizontal", 0.001,
+                            "0.1 %")
+    flat_run: float = key("length>0", "a near-horizontal run this long gets valves at both ends",
+                          100.0, "100 m")
+    hgl_margin: float = key("length>=0", "the HGL this close above the pipe needs an air-vacuum "
+                            "valve", 5.0, "5 m")
+    merge_distance: float = key("length>=0", "valves closer than this are one", 20.0, "20 m")
+
+
+@dataclass(frozen=True)
 class OutputConfig:
     """[output]: where and how results are written."""
 
@@ -389,6 +415,7 @@ class Project:
     cover_zones: tuple[CoverZoneConfig, ...] = _section(CoverZoneConfig, array=True)
     design: DesignConfig = _section(DesignConfig)
     checks: ChecksConfig = _section(ChecksConfig)
+    valves: ValvesConfig = _section(ValvesConfig)
     sections: tuple[PipeSectionConfig, ...] = _section(PipeSectionConfig, array=True)
     fittings: tuple[FittingConfig, ...] = _section(FittingConfig, array=True)
     offtakes: tuple[OfftakeConfig, ...] = _section(OfftakeConfig, array=True)

@@ -30,6 +30,8 @@ class Result:
     relaxations: list = field(default_factory=list)
     profile: object = None  # design.PipeProfile
     clearances: object = None  # design.Clearances
+    points: pd.DataFrame | None = None  # the pipe's high and low points, with why
+    valves: pd.DataFrame | None = None  # air valves and drains sited
     notes: list = field(default_factory=list)  # stage remarks for the summary
     summary: dict = field(default_factory=dict)
     timings: dict = field(default_factory=dict)  # stage name -> seconds

@@ -23,6 +23,7 @@ SI_UNITS = {
     "temperature": "K",
     "angle": "radian",
     "dimensionless": "",
+    "volume": "m**3",
 }
 
 #: pint dimensionality strings of the dimensions above.
@@ -34,6 +35,7 @@ _DIMENSIONALITY = {
     "temperature": "[temperature]",
     "angle": "",
     "dimensionless": "",
+    "volume": "[length] ** 3",
 }
 
 #: Example strings shown in error messages.
@@ -45,6 +47,7 @@ _EXAMPLES = {
     "temperature": '"15 degC"',
     "angle": '"22.5 deg"',
     "dimensionless": '"0.5 %"',
+    "volume": '"10 m3"',
 }
 
 
@@ -55,6 +58,9 @@ def registry() -> pint.UnitRegistry:
     ureg.define("gallon_per_minute = gallon / minute = gpm")
     ureg.define("million_gallons_per_day = 1e6 gallon / day = mgd = MGD")
     ureg.define("megalitre_per_day = megaliter / day = MLD = MLd")
+    ureg.define("cubic_metre_ = meter ** 3 = m3")  # the trade writes volumes m3, yd3, ft3
+    ureg.define("cubic_yard_ = yard ** 3 = yd3")
+    ureg.define("cubic_foot_ = foot ** 3 = ft3")
     return ureg
 
 

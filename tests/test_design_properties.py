@@ -105,6 +105,8 @@ def test_every_rule_holds_or_is_reported(case):
         "bend angle": lambda x: np.abs(turn_at - bend)[at(x) & has_bend].max(),
         "max grade": lambda x: (np.abs(g) - (r.max_transition_grade or np.inf))[seg(x)].max(),
         "min grade": lambda x: ((r.min_grade or 0.0) - np.abs(g))[seg(x)].max(),
+        # the direction each segment is held to (rising or falling), by definition
+        "grade direction": lambda x: (-p.direction[:-1] * g)[seg(x)].max(),
     }
     for x in rel:
         if x.rule == "crossing clearance":  # one of the crossings at that station

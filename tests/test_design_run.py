@@ -27,8 +27,9 @@ minimum_field = "cover"
     assert 402.5 in s and 611.25 in s  # zone edges are exact stations
     inside = (s >= 402.5) & (s <= 611.25)
     # Flat ground, no other rule binding: the pipe sits exactly at each stretch's
-    # minimum cover away from the transitions the joints need at the zone edges.
-    far = (np.abs(s - 402.5) > 60) & (np.abs(s - 611.25) > 60)
+    # minimum cover away from the transitions at the zone edges (each a straight
+    # grade run between two grade breaks, under 100 m long here).
+    far = (np.abs(s - 402.5) > 100) & (np.abs(s - 611.25) > 100)
     assert np.allclose(t["cover_m"][inside & far], 1.8, atol=1e-6)
     assert np.allclose(t["cover_m"][~inside & far], 1.2, atol=1e-6)
     # every station keeps the zone's own minimum, cover recomputed from the
@@ -182,7 +183,9 @@ def test_a_relaxed_rule_is_found_at_its_worst_station(tmp_path):
     # by 10.3 - 4 = 6.3 m (exact arithmetic).
     rows = r.findings[r.findings["check"] == "rule relaxed: max cover"]
     assert len(rows) == 1
-    assert rows["worst_station_m"].iloc[0] == pytest.approx(500.0)
+    # worst on the full pipe length centred on the crossing (497 to 503 m: its
+    # joints equidistant from the feature), which is straight and level there
+    assert 497.0 - 1e-9 <= rows["worst_station_m"].iloc[0] <= 503.0 + 1e-9
     assert rows["worst_value"].iloc[0] == pytest.approx(6.3, abs=1e-6)
 
 
@@ -254,9 +257,12 @@ def test_ground_bridged_exactly_where_the_stencil_meets_nodata(tmp_path):
     # max_gap of 3 cells (30 m), so it is bridged: flat ground, bridged exactly.
     r = run(nodata_site(tmp_path, [60]), tmp_path / "o")
     prof = pd.read_csv(tmp_path / "o" / "profile.csv")
-    assert prof.loc[prof["ground_bridged"], "station_m"].tolist() == [500.0, 505.0, 510.0]
+    s = prof["station_m"].to_numpy()
+    inside = s[(s > 495.0) & (s < 515.0)]  # 500, 505, 510 and the pipe joints between
+    assert prof.loc[prof["ground_bridged"], "station_m"].tolist() == inside.tolist()
+    assert {500.0, 505.0, 510.0} <= set(inside)
     np.testing.assert_allclose(prof["ground_m"], 100.0, atol=1e-9)
-    assert r.summary["ground_bridged_stations"] == 3
+    assert r.summary["ground_bridged_stations"] == len(inside)
 
 
 def test_max_gap_from_the_project_file(tmp_path):
@@ -269,8 +275,8 @@ def test_max_gap_from_the_project_file(tmp_path):
     # ... which terrain.max_gap = 45 m turns into bridging, exactly there
     r = run(nodata_site(tmp_path, [60, 61, 62], '\nmax_gap = "45 m"'), write=False)
     t = r.table
-    assert t.loc[t["ground_bridged"], "station_m"].tolist() == [500.0, 505.0, 510.0, 515.0, 520.0,
-                                                                  525.0, 530.0]
+    s = t["station_m"].to_numpy()
+    assert t.loc[t["ground_bridged"], "station_m"].tolist() == s[(s > 495.0) & (s < 535.0)].tolist()
     # and a max_gap below the one-cell gap (20 m) refuses even that
     with pytest.raises(InputError, match="max_gap 15.0 m"):
         run(nodata_site(tmp_path, [60], '\nmax_gap = "15 m"'), write=False)

@@ -97,7 +97,9 @@ TODAY = {
     "cover_zones": "path layer minimum maximum minimum_field maximum_field field_unit",
     "crossings": "path bottom_field depth_field size_field size clearance side width_field width "
                  "field_unit layer",
-    "design": "joint_length max_joint_deflection bend_angles min_grade max_grade trench_width",
+    "design": "joint_length max_joint_deflection bend_angles min_grade max_grade trench_width "
+              "grade_break_cost high_point_tolerance curve_joints",
+    "valves": "interval grade_change flat_grade flat_run hgl_margin merge_distance",
     "hydraulics": "source_head flow temperature start entrance end boundary end_head "
                   "required_pressure required_at",
     "scenarios": "name multiplier flow show_egl fire_flow fire_station",
@@ -119,6 +121,10 @@ README_DEFAULTS = {
     ("design", "bend_angles"): ["11.25 deg", "22.5 deg", "45 deg", "90 deg"],
     ("checks", "min_pressure"): "140 kPa", ("checks", "max_pressure"): "550 kPa",
     ("checks", "min_velocity"): "0 m/s", ("checks", "max_velocity"): "3 m/s",
+    ("design", "grade_break_cost"): "10 m3", ("design", "curve_joints"): 3,
+    ("valves", "interval"): "500 m", ("valves", "grade_change"): "1 %",
+    ("valves", "flat_grade"): "0.1 %", ("valves", "flat_run"): "100 m",
+    ("valves", "hgl_margin"): "5 m", ("valves", "merge_distance"): "20 m",
 }
 
 #: A table for every section (two where a section has two shapes or an
@@ -141,7 +147,10 @@ FULL = {
                   {"path": "line.geojson", "depth_field": "d", "clearance": "18 in"}],
     "design": [{"joint_length": "5.5 m", "max_joint_deflection": "4 deg",
                 "bend_angles": ["45 deg", "90 deg"], "min_grade": "0.1 %", "max_grade": 0.25,
-                "trench_width": "0.9 m"}],
+                "trench_width": "0.9 m", "grade_break_cost": "5 m3", "high_point_tolerance": "0.5 m",
+                "curve_joints": 2}],
+    "valves": [{"interval": "0.25 mi", "grade_change": "2 %", "flat_grade": "0.2 %",
+                "flat_run": "300 ft", "hgl_margin": "3 m", "merge_distance": "10 m"}],
     "hydraulics": [{"source_head": "185 m", "flow": "60 L/s", "temperature": "12 degC",
                     "start": "tank", "entrance": "rounded", "end": "tank",
                     "boundary": "min-pressure", "required_pressure": "200 kPa",

@@ -10,10 +10,10 @@ from .fittings import fittings_table, standard_combination
 from .profile import REASONS, design_profile
 from .rules import (PRIORITY, STANDARD_BEND_ANGLES, TRENCH_SIDE_ROOM, Crossing, DesignRules,
                     PipeProfile, Relaxation, trench_width)
-from .stage import bends_frame, rules_for, stage_design
+from .stage import Design, bends_frame, knots_of, rules_for, stage_design
 
 __all__ = [
-    "Clearances", "Crossing", "DesignRules", "PipeProfile", "Relaxation", "PRIORITY", "REASONS",
+    "Clearances", "Crossing", "Design", "knots_of", "DesignRules", "PipeProfile", "Relaxation", "PRIORITY", "REASONS",
     "STANDARD_BEND_ANGLES", "TRENCH_SIDE_ROOM", "bends_frame", "choose_sides", "clearances",
     "design_crossings", "design_profile", "fittings_table", "rules_for", "stage_design",
     "standard_combination", "trench_width",

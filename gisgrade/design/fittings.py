@@ -55,7 +55,8 @@ def standard_combination(need: float, angles, max_count: int = MAX_FITTINGS_PER_
 
 
 def place_bends(excess: np.ndarray, turn: np.ndarray, allowance: np.ndarray, angles,
-                tol: float = 1e-7, at_least: bool = False, max_total: float | None = None) -> dict:
+                tol: float = 1e-7, at_least: bool = False, max_total: float | None = None,
+                separate: bool = False) -> dict:
     """Bend positions and fittings for the stations whose turning exceeds the joints.
 
     excess: rad per interior station, turning beyond the joints' allowance;
@@ -74,12 +75,18 @@ def place_bends(excess: np.ndarray, turn: np.ndarray, allowance: np.ndarray, ang
     """
     out = {}
     sign = np.sign(turn)
+    half = 0.5 * min(angles) if len(angles) else np.inf
     for kind in (1.0, -1.0):
         for a, b in runs((excess > tol) & (sign == kind)).tolist():
-            i = a + int(np.argmax(excess[a:b + 1]))
-            need = float(excess[a:b + 1].sum() + allowance[i])
-            combo = standard_combination(need, angles, at_least=at_least, max_total=max_total)
-            out[i] = (kind * sum(combo), combo)
+            idx = np.arange(a, b + 1)
+            big = idx[excess[idx] >= half] if separate else idx[:0]
+            if len(big) < 2:
+                big = np.array([a + int(np.argmax(excess[a:b + 1]))])
+            owner = big[np.argmin(np.abs(idx[:, None] - big[None, :]), axis=1)]
+            for i in big:
+                need = float(excess[idx[owner == i]].sum() + allowance[i])
+                combo = standard_combination(need, angles, at_least=at_least, max_total=max_total)
+                out[int(i)] = (kind * sum(combo), combo)
     return out
 
 

@@ -32,6 +32,11 @@ from .rules import PRIORITY, Crossing, DesignRules, PipeProfile, Relaxation, tre
 TOL = 1e-6
 #: Linearization error (rad) at which the sequential solves stop.
 SLP_TOL = 1e-8
+#: With the pipe's joints as knots: the joints are held this much (rad,
+#: 0.0006 deg) inside their allowance, and a linearization error below it
+#: ends the solves (the true angles then keep the allowance); bends hold their
+#: standard angle to within it.
+JOINT_MARGIN = 1e-5
 #: Linearization error (rad) enough while turning is still short (more bends to come).
 SLP_ROUGH = 1e-3
 #: Most linear solves per sequential-linearization loop.
@@ -43,12 +48,17 @@ BEND_ROUNDS = 4
 #: one cannot make room. Joint deflection is kept by bends, which cost
 #: BEND_WEIGHT per rad there.
 WEIGHT = {"crossing clearance": 1e7, "min cover": 1e5, "joint deflection": 1e4, "max cover": 1e3,
-          "max grade": 1e2, "min grade": 1e1}
+          "max grade": 1e2, "min grade": 1e1, "grade direction": 1e1}
 BEND_WEIGHT = 1e-1
 #: The rules settled first (stage 1) when rules contradict each other; the
 #: rest are then settled with these held (stage 2), so a rule below joint
 #: deflection never buys relief for one above it.
 UPPER_RULES = PRIORITY[:3]
+#: Cost of 1 m^3 of trench below the maximum cover where a crossing forces
+#: it (max cover is elastic there): far above excavation and bend costs, so
+#: the dip is as small as the rules above max cover allow, fittings included
+#: (as in the least-violation solve, where bends are nearly free).
+MAX_COVER_COST = 1e6
 #: Weight of excavation (per m of depth at a mean station) in that solve.
 EXCAVATION_WEIGHT = 1e-3
 
@@ -68,6 +78,9 @@ MAX_BEND = np.pi / 2
 #: enormous excavation (0.001 short over 10 m weighs as 100 m^3).
 MIN_GRADE_COST = 1e4
 
+#: The grade rows held in one direction per segment, elastic at MIN_GRADE_COST.
+GRADE_RULES = ("min grade", "grade direction")
+
 #: The words :attr:`PipeProfile.reason` uses.
 REASONS = ("min cover", "crossing <name>", "max cover", "bend", "deflection", "max grade",
            "min grade", "transition")
@@ -75,26 +88,46 @@ REASONS = ("min cover", "crossing <name>", "max cover", "bend", "deflection", "m
 
 @dataclass
 class _Problem:
-    s: np.ndarray        # unique stations, m
-    h: np.ndarray        # segment lengths, m
-    ground: np.ndarray
-    upper: np.ndarray    # ground - min cover
-    lower: np.ndarray    # ground - max cover (-inf: none)
-    wt: np.ndarray       # trench width x tributary length, m^2
-    allow: np.ndarray    # joint allowance at interior stations, rad
-    cj: np.ndarray       # crossing: segment index
+    """The program's data. The unknowns are the top of pipe at the knots
+    (where the pipe may change grade); every station is a point the rules
+    are checked at, its top interpolated between its two knots."""
+
+    s: np.ndarray        # knot stations, m
+    h: np.ndarray        # knot segment lengths, m
+    ground: np.ndarray   # ground at the knots
+    wt: np.ndarray       # excavation weight per knot (stations' trench width x tributary length)
+    allow: np.ndarray    # joint allowance at interior knots, rad
+    cj: np.ndarray       # crossing: knot segment index
     ct: np.ndarray       # crossing: position in segment, 0..1
     csign: np.ndarray    # +1 under (z <= rhs), -1 over (z >= rhs)
     crhs: np.ndarray     # crossing limit on top of pipe, m
     cname: list
     rules: DesignRules
+    st: np.ndarray = None        # every (unique) station, m
+    st_ground: np.ndarray = None
+    upper: np.ndarray = None     # per station: ground - min cover
+    lower: np.ndarray = None     # per station: ground - max cover (-inf: none)
+    st_wt: np.ndarray = None     # per station: trench width x tributary length, m^2
+    sj: np.ndarray = None        # per station: its knot segment
+    stt: np.ndarray = None       # per station: position in that segment, 0..1
+    kidx: np.ndarray = None      # per knot: its station index
+    other: np.ndarray = None     # stations that are not knots
+    st_cj: np.ndarray = None     # crossing: station segment index (for limits and reasons)
+    st_ct: np.ndarray = None     # crossing: position in that station segment
     upper_lp: np.ndarray = None  # upper and lower with pointwise contradictions
     lower_lp: np.ndarray = None  # settled by priority (see _settle_pointwise)
-    steep: np.ndarray = None     # segments whose grade is held within MAX_PIPE_GRADE by a row
+    steep: np.ndarray = None     # knot segments whose grade is held within MAX_PIPE_GRADE by a row
+    margin: float = 0.0          # rad the joints are held inside their allowance (JOINT_MARGIN)
+    soft_mc: np.ndarray = None   # stations where max cover is elastic (beside deep crossings)
 
     @property
     def n(self):
         return len(self.s)
+
+    def at_stations(self, z):
+        """Top of pipe at every station from the knots' ``z``."""
+        j = np.minimum(self.sj + 1, self.n - 1)
+        return (1 - self.stt) * z[self.sj] + self.stt * z[j]
 
 
 @dataclass
@@ -117,6 +150,18 @@ def _turn(g):
     return a[1:] - a[:-1]
 
 
+def _locate(s, h, x):
+    """Segment index and position 0..1 of position ``x`` on stations ``s``."""
+    n = len(s)
+    j = int(np.clip(np.searchsorted(s, x, "right") - 1, 0, max(n - 2, 0)))
+    t = 0.0 if n == 1 else float(np.clip((x - s[j]) / h[j], 0, 1))
+    if t < 1e-6 and n > 1:
+        t = 0.0
+    elif t > 1 - 1e-6:
+        j, t = j + 1, 0.0
+    return j, t
+
+
 def _prepare(station, ground, crossings, rules) -> tuple[_Problem, np.ndarray, np.ndarray]:
     station = np.asarray(station, float)
     ground = np.asarray(ground, float)
@@ -136,8 +181,8 @@ def _prepare(station, ground, crossings, rules) -> tuple[_Problem, np.ndarray, n
     new = np.r_[True, np.diff(station) > STATION_TOLERANCE]
     group = np.cumsum(new) - 1
     first = np.flatnonzero(new)
-    s = station[first]
-    n = len(s)
+    st = station[first]
+    n = len(st)
     upper = np.full(n, np.inf)
     np.minimum.at(upper, group, ground - per(rules.min_cover))
     lower = np.full(n, -np.inf)
@@ -147,28 +192,55 @@ def _prepare(station, ground, crossings, rules) -> tuple[_Problem, np.ndarray, n
     g_u = ground[first]
     width = np.zeros(n)
     np.maximum.at(width, group, per(trench_width(rules.outside_diameter, rules.trench_width)))
-    h = np.diff(s)
-    trib = np.r_[h, 0] / 2 + np.r_[0, h] / 2 if n > 1 else np.ones(1)
-    allow = rules.max_joint_deflection * (h[:-1] + h[1:]) / (2 * rules.joint_length)
+    sh = np.diff(st)
+    trib = np.r_[sh, 0] / 2 + np.r_[0, sh] / 2 if n > 1 else np.ones(1)
 
-    cj, ct, cs, cr, names = [], [], [], [], []
+    # the knots: where the pipe may change grade (every station without knots)
+    knot = np.ones(n, bool)
+    if rules.knots is not None:
+        knot = np.zeros(n, bool)
+        np.logical_or.at(knot, group, np.asarray(rules.knots, bool))
+        knot[[0, -1]] = True
+    kidx = np.flatnonzero(knot)
+    s = st[kidx]
+    h = np.diff(s)
+    m = len(s)
+    sj = np.clip(np.cumsum(knot) - 1, 0, max(m - 2, 0))
+    stt = np.zeros(n)
+    if m > 1:
+        stt = np.where(knot, 0.0, (st - s[sj]) / h[sj])
+        stt[-1], sj[-1] = 1.0, m - 2  # the last station: the end of the last segment
+    if rules.knots is None:  # the joints' turning spread along the line
+        allow = rules.max_joint_deflection * (h[:-1] + h[1:]) / (2 * rules.joint_length)
+    else:  # a joint at each knot, straight pipe between
+        a = np.full(n, np.inf)
+        np.minimum.at(a, group, per(rules.max_joint_deflection if rules.allowance is None
+                                    else rules.allowance))
+        allow = a[kidx][1:-1]
+    st_wt = width * trib
+    wt = np.zeros(m)  # the stations' excavation weights shared by their two knots
+    if m > 1:
+        np.add.at(wt, sj, st_wt * (1 - stt))
+        np.add.at(wt, np.minimum(sj + 1, m - 1), st_wt * stt)
+    else:
+        wt[:] = st_wt.sum()
+
+    cj, ct, sjc, stc, cs, cr, names = [], [], [], [], [], [], []
     for k, c in enumerate(crossings):
         name = c.name or f"#{k + 1}"
         if c.side not in ("under", "over"):
             raise InputError(f"crossing {name}: side {c.side!r} is not 'under' or 'over'")
         if not (np.isfinite(c.limit) and np.isfinite(c.clearance) and c.clearance >= 0):
             raise InputError(f"crossing {name}: limit and clearance must be finite, clearance >= 0")
-        if not (s[0] - STATION_TOLERANCE <= c.station <= s[-1] + STATION_TOLERANCE):
+        if not (st[0] - STATION_TOLERANCE <= c.station <= st[-1] + STATION_TOLERANCE):
             raise InputError(f"crossing {name}: station {c.station} m is off the line "
-                             f"({s[0]} to {s[-1]} m)")
-        j = int(np.clip(np.searchsorted(s, c.station, "right") - 1, 0, max(n - 2, 0)))
-        t = 0.0 if n == 1 else float(np.clip((c.station - s[j]) / h[j], 0, 1))
-        if t < 1e-6 and n > 1:
-            t = 0.0
-        elif t > 1 - 1e-6:
-            j, t = j + 1, 0.0
+                             f"({st[0]} to {st[-1]} m)")
+        j, t = _locate(s, h, c.station)
         cj.append(j)
         ct.append(t)
+        j, t = _locate(st, sh, c.station)
+        sjc.append(j)
+        stc.append(t)
         if c.side == "under":
             cs.append(1.0)
             cr.append(c.limit - c.clearance)
@@ -176,10 +248,21 @@ def _prepare(station, ground, crossings, rules) -> tuple[_Problem, np.ndarray, n
             cs.append(-1.0)
             cr.append(c.limit + c.clearance + rules.outside_diameter)
         names.append(name)
-    P = _Problem(s, h, g_u, upper, lower, width * trib, allow, np.array(cj, int),
-                 np.array(ct, float), np.array(cs, float), np.array(cr, float), names, rules)
+    P = _Problem(s, h, g_u[kidx], wt, allow, np.array(cj, int), np.array(ct, float),
+                 np.array(cs, float), np.array(cr, float), names, rules,
+                 st=st, st_ground=g_u, upper=upper, lower=lower, st_wt=st_wt, sj=sj, stt=stt,
+                 kidx=kidx, other=np.flatnonzero(~knot), st_cj=np.array(sjc, int),
+                 st_ct=np.array(stc, float))
     P.upper_lp, P.lower_lp = _settle_pointwise(P)
-    P.steep = np.abs(np.diff(g_u) / h) > MAX_PIPE_GRADE / 2 if n > 1 else np.zeros(0, bool)
+    P.steep = np.abs(np.diff(P.ground) / h) > MAX_PIPE_GRADE / 2 if m > 1 else np.zeros(0, bool)
+    P.margin = JOINT_MARGIN if rules.knots is not None else 0.0
+    P.soft_mc = np.zeros(n, bool)
+    if rules.knots is not None and len(P.cj):
+        low_at = np.interp(np.array([c.station for c in crossings]), st, np.where(np.isfinite(lower), lower, -1e300))
+        deep = np.flatnonzero((P.csign > 0) & (P.crhs < low_at - TOL))
+        for c in deep:  # few
+            reach = 10 * rules.joint_length + 20 * (low_at[c] - P.crhs[c])
+            P.soft_mc |= np.abs(st - crossings[c].station) <= reach
     return P, group, first
 
 
@@ -191,10 +274,10 @@ def _settle_pointwise(P: _Problem):
     crossings that contradict each other are left to the least-violation
     solve."""
     upper, lower = P.upper.copy(), P.lower.copy()
-    at = P.ct == 0
+    at = P.st_ct == 0
     under, over = at & (P.csign > 0), at & (P.csign < 0)
-    np.minimum.at(lower, P.cj[under], P.crhs[under])
-    np.maximum.at(upper, P.cj[over], P.crhs[over])
+    np.minimum.at(lower, P.st_cj[under], P.crhs[under])
+    np.maximum.at(upper, P.st_cj[over], P.crhs[over])
     return upper, np.minimum(lower, upper)
 
 
@@ -221,6 +304,7 @@ def _build(P: _Problem, ghat, bends, mg_dir, mode, caps, strict=False, stage=2, 
     caps = caps or {}
     cap = lambda name, size: caps.get(name, np.zeros(size))  # noqa: E731
     wt_rel = P.wt / P.wt.mean()
+    st_rel = P.st_wt / P.st_wt.mean()
     e_cost = (WEIGHT["joint deflection"] if strict else BEND_WEIGHT) if least else r.bend_cost
     cost = [-(EXCAVATION_WEIGHT * wt_rel if least else P.wt), np.full(m, e_cost)]
     lo = [np.full(n, -np.inf), np.zeros(m)]
@@ -230,13 +314,21 @@ def _build(P: _Problem, ghat, bends, mg_dir, mode, caps, strict=False, stage=2, 
     R, C, V, rhs = [], [], [], []
     nrow = 0
 
-    def add_rows(rows, cols, vals, b, name=None, weight=None):
-        """Rows ``A x <= b``; in "least" mode each row gets its own slack."""
+    def add_rows(rows, cols, vals, b, name=None, weight=None, elastic=None):
+        """Rows ``A x <= b``; in "least" mode each row gets its own slack;
+        ``elastic`` (a cost per unit of slack) gives the rows slack in any mode."""
         nonlocal nrow, nv
         k = len(b)
         rows, cols, vals = np.asarray(rows), np.asarray(cols), np.asarray(vals, float)
-        soft = name == "min grade" and not least  # always elastic, at MIN_GRADE_COST
-        if (least or soft) and name is not None:
+        soft = name in GRADE_RULES and not least  # always elastic, at MIN_GRADE_COST
+        if elastic is not None:
+            layout[name] = (nv, nv + k)
+            rows, cols, vals = np.r_[rows, np.arange(k)], np.r_[cols, nv + np.arange(k)], np.r_[vals, -np.ones(k)]
+            cost.append(np.asarray(elastic, float))
+            lo.append(np.zeros(k))
+            hi.append(np.full(k, np.inf))
+            nv += k
+        elif (least or soft) and name is not None:
             layout[name] = (nv, nv + k)
             rows, cols, vals = np.r_[rows, np.arange(k)], np.r_[cols, nv + np.arange(k)], np.r_[vals, -np.ones(k)]
             base = name.rstrip(" +-")
@@ -255,17 +347,43 @@ def _build(P: _Problem, ghat, bends, mg_dir, mode, caps, strict=False, stage=2, 
         rhs.append(np.asarray(b, float))
         nrow += k
 
-    # cover: plain bounds unless each station needs its own slack
-    idx = np.arange(n)
+    # cover at every station: plain bounds at the knots, rows on the straight
+    # pipe between them, and a row (and slack) per station in the least violation
+    ns = len(P.st)
     upper, lower = P.upper_lp, P.lower_lp
     fin = np.flatnonzero(np.isfinite(lower))
+    j0, j1 = P.sj, np.minimum(P.sj + 1, n - 1)
+
+    def interp_rows(where, sign):
+        k = len(where)
+        return (np.r_[np.arange(k), np.arange(k)], np.r_[j0[where], j1[where]],
+                sign * np.r_[1 - P.stt[where], P.stt[where]])
+
     if least:
-        add_rows(idx, idx, np.ones(n), upper, "min cover", wt_rel)
-        add_rows(np.arange(len(fin)), fin, -np.ones(len(fin)), -lower[fin], "max cover", wt_rel[fin])
+        add_rows(*interp_rows(np.arange(ns), 1.0), upper, "min cover", st_rel)
+        add_rows(*interp_rows(fin, -1.0), -lower[fin], "max cover", st_rel[fin])
     else:
-        lo[0] = lower.copy()
-        lo[0][fin] -= cap("max cover", len(fin))
-        hi[0] = upper + cap("min cover", n)
+        up = upper + cap("min cover", ns)
+        low = lower.copy()
+        low[fin] -= cap("max cover", len(fin))
+        # beside a crossing deeper than the maximum cover, max cover is elastic
+        # (it must give way there; its cost keeps the dip as shallow and short as
+        # the rules above it allow), so no least-violation solve is needed for it
+        soft = P.soft_mc & np.isfinite(low)
+        hard_low = np.where(soft, -np.inf, low)
+        lo[0] = hard_low[P.kidx]
+        hi[0] = up[P.kidx]
+        o = P.other
+        if len(o):  # a straight piece under (over) its points: the hull's vertices suffice
+            keep = _hull(P.st, up, P.sj, o, P.kidx, below=True)
+            add_rows(*interp_rows(keep, 1.0), up[keep])
+            of = o[np.isfinite(hard_low[o])]
+            keep = _hull(P.st, hard_low, P.sj, of, P.kidx, below=False)
+            add_rows(*interp_rows(keep, -1.0), -hard_low[keep])
+        sf = np.flatnonzero(soft)
+        if len(sf):
+            add_rows(*interp_rows(sf, -1.0), -low[sf], "max cover elastic",
+                     elastic=MAX_COVER_COST * P.st_wt[sf])
 
     # crossings: csign * ((1-t) z_j + t z_{j+1}) <= csign * rhs
     k = len(P.cj)
@@ -284,14 +402,16 @@ def _build(P: _Problem, ghat, bends, mg_dir, mode, caps, strict=False, stage=2, 
     if r.max_transition_grade is not None:
         grade_rows += [("max grade +", np.ones(n - 1), r.max_transition_grade),
                        ("max grade -", -np.ones(n - 1), r.max_transition_grade)]
-    if r.min_grade is not None and mg_dir is not None:
-        grade_rows.append(("min grade", -mg_dir, -r.min_grade))
+    if mg_dir is not None:
+        grade_rows.append(("min grade" if r.min_grade is not None else "grade direction",
+                           -mg_dir, -(r.min_grade or 0.0)))
     for name, d, b in grade_rows:
         add_rows(np.r_[seg, seg], np.r_[seg, seg + 1], np.r_[-d / h, d / h], np.full(n - 1, b), name, hrel)
 
     # joint deflection, linearized about ghat:
     # theta_i ~ c_i + a_i g_i - a_{i-1} g_{i-1},  a = 1/(1+ghat^2)
     Aeq = beq = None
+    eq_parts = None
     if m:
         a = 1.0 / (1.0 + ghat ** 2)
         c0 = _turn(ghat) - a[1:] * ghat[1:] + a[:-1] * ghat[:-1]
@@ -305,24 +425,75 @@ def _build(P: _Problem, ghat, bends, mg_dir, mode, caps, strict=False, stage=2, 
         for sgn in (1.0, -1.0):
             add_rows(np.tile(np.arange(q), 4), np.r_[i[free] - 1, i[free], i[free] + 1, n + free],
                      np.r_[sgn * cm[free], sgn * cc[free], sgn * cp[free], -np.ones(q)],
-                     P.allow[free] - sgn * c0[free])
+                     np.maximum(P.allow[free] - P.margin, 0.0) - sgn * c0[free])
+        if r.grade_break_cost > 0 and not least:
+            # l1 penalty on the change of grade at each knot: |theta| <= t, cost per rad
+            # (in the least violation, scaled as the excavation is: a tie-breaker)
+            layout["grade break"] = (nv, nv + q)
+            cost.append(np.full(q, r.grade_break_cost * (EXCAVATION_WEIGHT / P.wt.mean() if least
+                                                         else 1.0)))
+            lo.append(np.zeros(q))
+            hi.append(np.full(q, np.inf))
+            t = nv + np.arange(q)
+            nv += q
+            for sgn in (1.0, -1.0):
+                add_rows(np.tile(np.arange(q), 4), np.r_[i[free] - 1, i[free], i[free] + 1, t],
+                         np.r_[sgn * cm[free], sgn * cc[free], sgn * cp[free], -np.ones(q)],
+                         -sgn * c0[free])
         fixed = np.flatnonzero(is_bend)
+        rows_eq, cols_eq, vals_eq, beq = [], [], [], []
         if len(fixed):
             q = len(fixed)
-            Aeq = sp.csr_matrix((np.r_[cm[fixed], cc[fixed], cp[fixed]],
-                                 (np.tile(np.arange(q), 3), np.r_[i[fixed] - 1, i[fixed], i[fixed] + 1])),
-                                shape=(q, nv))
-            beq = target[fixed] - c0[fixed]
+            rows_eq += [np.tile(np.arange(q), 3)]
+            cols_eq += [np.r_[i[fixed] - 1, i[fixed], i[fixed] + 1]]
+            vals_eq += [np.r_[cm[fixed], cc[fixed], cp[fixed]]]
+            beq.append(target[fixed] - c0[fixed])
+        eq_parts = (rows_eq, cols_eq, vals_eq, beq)
     for name, budget in (totals or {}).items():
         a0, a1 = layout[name]
         w = np.concatenate(cost)[a0:a1]
         add_rows(np.zeros(a1 - a0, int), np.arange(a0, a1), w, np.array([budget]))
+    if eq_parts is not None and eq_parts[3]:
+        rows_eq, cols_eq, vals_eq, beq = eq_parts
+        beq = np.concatenate(beq)
+        Aeq = sp.csr_matrix((np.concatenate(vals_eq), (np.concatenate(rows_eq), np.concatenate(cols_eq))),
+                            shape=(len(beq), nv))
     A = b = None
     if nrow:
         A = sp.csr_matrix((np.concatenate(V), (np.concatenate(R), np.concatenate(C))), shape=(nrow, nv))
         b = np.concatenate(rhs)
     bounds = np.c_[np.concatenate(lo), np.concatenate(hi)]
     return np.concatenate(cost), A, b, Aeq, beq, bounds, layout
+
+
+def _hull(x, y, seg, idx, kidx, below=True):
+    """The stations of ``idx`` (points between knots) that a straight piece
+    must be checked at: the vertices of the lower (``below``) or upper convex
+    hull of each knot segment's points, its end knots (station indices
+    ``kidx[seg]``, ``kidx[seg + 1]``) included. A line under (over) those
+    vertices is under (over) every point of the segment, and a point on or
+    above the chord of two others is no hull vertex, so such points are
+    dropped until none is left.
+
+    >>> x = np.arange(6.0); y = np.array([0.0, 1, -1, 2, 3, 0])
+    >>> _hull(x, y, np.zeros(6, int), np.arange(1, 5), np.array([0, 5])).tolist()
+    [2]
+    """
+    idx = np.asarray(idx, int)
+    sign = 1.0 if below else -1.0
+    k = idx
+    while len(k):
+        same_p = np.r_[False, seg[k[1:]] == seg[k[:-1]]]
+        same_n = np.r_[seg[k[:-1]] == seg[k[1:]], False]
+        left = np.where(same_p, np.r_[0, k[:-1]], kidx[seg[k]])
+        right = np.where(same_n, np.r_[k[1:], 0], kidx[np.minimum(seg[k] + 1, len(kidx) - 1)])
+        t = (x[k] - x[left]) / (x[right] - x[left])
+        chord = (1 - t) * y[left] + t * y[right]
+        above = sign * (y[k] - chord) >= -1e-12
+        if not above.any():
+            break
+        k = k[~above]
+    return k
 
 
 def _bend_arrays(bends, n):
@@ -364,7 +535,7 @@ def _solve(P, ghat, bends, mg_dir, mode, caps=None, max_iter=SLP_MAX, strict=Fal
         lin = _turn(ghat) + a[1:] * (g[1:] - ghat[1:]) - a[:-1] * (g[:-1] - ghat[:-1])
         err = float(np.max(np.abs(_turn(g) - lin)))
         sol.err = err
-        sol.done = err <= SLP_TOL or (err <= SLP_ROUGH and sol.excess.max() > TOL)
+        sol.done = err <= max(SLP_TOL, P.margin) or (err <= SLP_ROUGH and sol.excess.max() > TOL)
         if err <= best_err:
             best, best_err = sol, err
         if sol.done:
@@ -442,21 +613,86 @@ def _place(P, sol, at_least=False):
     if not len(P.rules.bend_angles):
         return {}
     got = place_bends(sol.excess, _turn(sol.g), P.allow, P.rules.bend_angles, at_least=at_least,
-                      max_total=MAX_BEND)
+                      max_total=MAX_BEND, separate=P.rules.knots is not None)
     return {v + 1: val for v, val in got.items()}
 
 
-def _grade_directions(g, ground, h, min_grade):
-    """Direction (+1 rising, -1 falling) each segment's minimum grade is kept in:
-    the solved grade's sign; a run of flatter segments follows the ground's net
-    rise over the run (rising if level)."""
-    d = np.where(g >= 0, 1.0, -1.0)
-    flat = np.abs(g) < min_grade
-    run = np.cumsum(flat & ~np.r_[False, flat[:-1]])  # run number of each flat segment
-    net = np.zeros(run.max() + 1 if len(run) else 1)
-    np.add.at(net, run[flat], np.diff(ground)[flat])
-    d[flat] = np.where(net[run[flat]] < 0, -1.0, 1.0)
+def _grade_directions(z, ground, h, flat: float, tolerance: float, protected=None):
+    """Direction (+1 rising, -1 falling) each segment is held to.
+
+    The profile ``z`` is cut into runs of one direction (segments flatter
+    than ``flat`` m/m join their neighbours). While the least prominent run
+    (the smallest rise or fall between its ends) is below ``tolerance`` m, it
+    is merged away: an interior run joins both its neighbours (its high and
+    its low point go), an end run joins its neighbour. A run holding a
+    ``protected`` segment (a cover zone's edge or a crossing: a rule, not the
+    terrain, shaped it) is never merged away. Flat stretches between runs of
+    opposite direction follow the ground's net rise over them (rising if
+    level), as do wholly flat profiles.
+
+    >>> z = np.array([0.0, 1.0, 2.0, 1.9, 3.0, 4.0, 2.0, 0.0])
+    >>> _grade_directions(z, z, np.ones(7), 1e-9, 0.5).tolist()
+    [1.0, 1.0, 1.0, 1.0, 1.0, -1.0, -1.0]
+    >>> z = np.array([0.0, 0.1, -2.0, -3.0, -3.2, -3.1])  # small runs at both ends go
+    >>> _grade_directions(z, z, np.ones(5), 1e-9, 0.5).tolist()
+    [-1.0, -1.0, -1.0, -1.0, -1.0]
+    """
+    g = np.diff(z) / h
+    sign = np.where(g >= flat, 1.0, np.where(g <= -flat, -1.0, 0.0))
+    steep = np.flatnonzero(sign)
+    d = np.zeros(len(g))
+    if len(steep):
+        new = np.r_[True, sign[steep][1:] != sign[steep][:-1]]
+        first = steep[new]
+        last = steep[np.r_[new[1:], True]]
+        way = sign[first]  # each run's direction
+        guard = np.zeros(len(g) + 1) if protected is None else np.r_[0, np.cumsum(protected)]
+        while len(first) > 1:
+            rise = np.abs(z[last + 1] - z[first])
+            # a rule shaped it (with the level stretches either side): keep it
+            lo_ = np.r_[0, last[:-1] + 1]
+            hi_ = np.r_[first[1:], len(g)]
+            rise[guard[hi_] - guard[lo_] > 0] = np.inf
+            k = int(np.argmin(rise))
+            if rise[k] >= tolerance:
+                break
+            if k == 0:  # the first run joins the second
+                first, last, way = first[1:], last[1:], way[1:]
+                first[0] = 0
+            elif k == len(first) - 1:  # the last run joins the one before
+                first, last, way = first[:-1], last[:-1], way[:-1]
+                last[-1] = len(g) - 1
+            else:  # the run and its two neighbours become one
+                last = np.r_[last[:k - 1], last[k + 1:]]
+                first = np.r_[first[:k], first[k + 2:]]
+                way = np.r_[way[:k], way[k + 2:]]
+        for a, b, w in zip(first, last, way):
+            d[a:b + 1] = w
+        d[:first[0]] = way[0]
+        d[last[-1] + 1:] = way[-1]
+    flat_run = d == 0  # between runs of opposite direction, or no direction at all
+    if flat_run.any():
+        run = np.cumsum(flat_run & ~np.r_[False, flat_run[:-1]])
+        net = np.zeros(run.max() + 1)
+        np.add.at(net, run[flat_run], np.diff(ground)[flat_run])
+        d[flat_run] = np.where(net[run[flat_run]] < 0, -1.0, 1.0)
     return d
+
+
+def _rule_shaped(P) -> np.ndarray:
+    """Knot segments a rule shaped rather than the terrain: those holding a
+    station where the cover limits change (a zone's edge) or a crossing."""
+    change = np.zeros(len(P.st), bool)
+    for v in (P.st_ground - P.upper, P.st_ground - P.lower):
+        v = np.where(np.isfinite(v), v, 1e300)
+        d = np.abs(np.diff(v)) > 1e-9
+        change[1:] |= d
+        change[:-1] |= d
+    out = np.zeros(max(P.n - 1, 0), bool)
+    out[np.minimum(P.sj[change], max(P.n - 2, 0))] = True
+    if len(P.cj):
+        out[np.minimum(P.cj, max(P.n - 2, 0))] = True
+    return out
 
 
 def design_profile(station, ground, crossings=(), rules: DesignRules | None = None) -> PipeProfile:
@@ -485,7 +721,9 @@ def design_profile(station, ground, crossings=(), rules: DesignRules | None = No
     crossings = list(crossings)
     P, group, first = _prepare(station, ground, crossings, rules)
     n = P.n
-    ghat = _grades(P.ground, P.h)
+    # first linearized about level pipe when laid in joints (the ground's
+    # grades between knots are noise), else about the ground
+    ghat = np.zeros(max(P.n - 1, 0)) if rules.knots is not None else _grades(P.ground, P.h)
     bends: dict = {}
     prev_bends: dict = {}
     mg_dir = caps = sol = None
@@ -501,7 +739,8 @@ def design_profile(station, ground, crossings=(), rules: DesignRules | None = No
             break
         sol, caps, ghat = new, new_caps, new.g
         if rules.min_grade is not None and mg_dir is None and n > 1:
-            mg_dir = _grade_directions(sol.g, P.ground, P.h, rules.min_grade)
+            mg_dir = _grade_directions(sol.z, P.ground, P.h, rules.min_grade,
+                                       rules.high_point_tolerance or 0.0, _rule_shaped(P))
             caps = None  # contradictions are looked for again with the grade rows
             continue
         if n < 3 or rnd >= BEND_ROUNDS:
@@ -513,20 +752,31 @@ def design_profile(station, ground, crossings=(), rules: DesignRules | None = No
         near, over = {**bends, **placed}, {**bends, **_place(P, sol, at_least=True)}
         trials = [(near, False), (over, False), (near, True), (over, True)] if over != near \
             else [(near, False), (near, True)]
+    if sol is not None and mg_dir is None and rules.high_point_tolerance is not None and n > 1:
+        # high and low points less prominent than the tolerance go: the runs
+        # either side are held to one direction, the bends placed kept
+        mg_dir = _grade_directions(sol.z, P.ground, P.h, 1e-7, rules.high_point_tolerance,
+                                   _rule_shaped(P))
+        if np.any(mg_dir * sol.g < -TOL):  # some were merged away: solve with the directions
+            new, _ = _attempt(P, sol.g, bends, mg_dir, caps)
+            if new is not None:
+                sol, ghat = new, new.g
     if sol is not None and n > 2 and sol.excess.max() > TOL:
         # turning beyond the joints that no standard bend could take: keep the
         # joints at their priority, letting lower rules (max cover, grades) give way
         new, _ = _attempt(P, ghat, bends, mg_dir, None, strict=True)
         sol = new or sol
     if sol is None:  # no solver answer at all: the cover line, with every shortfall reported
-        z = np.where(np.isfinite(P.upper), P.upper, P.ground)
+        z = np.where(np.isfinite(P.upper), P.upper, P.st_ground)[P.kidx]
         sol = _Solution(z, _grades(z, P.h), np.zeros(max(n - 2, 0)), {})
-    return _finish(P, sol, bends, crossings, group, first, np.asarray(station, float))
+    return _finish(P, sol, bends, crossings, group, first, np.asarray(station, float), mg_dir)
 
 
-def _finish(P, sol, bends, crossings, group, first, station) -> PipeProfile:
+def _finish(P, sol, bends, crossings, group, first, station, mg_dir=None) -> PipeProfile:
     r, n, s = P.rules, P.n, P.s
     z, g = sol.z, sol.g
+    zs = P.at_stations(z)  # every station's top
+    ns, k = len(P.st), P.kidx
     turn = np.r_[0.0, _turn(g), 0.0] if n > 2 else np.zeros(n)
     allow = np.r_[np.nan, P.allow, np.nan] if n > 2 else np.full(n, np.nan)
     is_bend, target = _bend_arrays(bends, n)
@@ -536,7 +786,7 @@ def _finish(P, sol, bends, crossings, group, first, station) -> PipeProfile:
     cshort = P.csign * (ztc - P.crhs)  # > 0: clearance short by this much
 
     relax = []
-    above = {k: PRIORITY[:i] for i, k in enumerate(PRIORITY)}
+    above = {k_: PRIORITY[:i] for i, k_ in enumerate(PRIORITY)}
     above["bend angle"] = PRIORITY[:2]
 
     def report(rule, short, where, unit):
@@ -549,63 +799,77 @@ def _finish(P, sol, bends, crossings, group, first, station) -> PipeProfile:
                                     f"{rule} gave way by up to {amt:.4g} {unit} from station {s0:.2f} m "
                                     f"to {s1:.2f} m: {why}"))
 
-    at = lambda a, b: (float(s[a]), float(s[b]))  # noqa: E731
-    seg = lambda a, b: (float(s[a]), float(s[b + 1]))  # noqa: E731
-    for k, name in enumerate(P.cname):
-        if cshort[k] > TOL:
-            st = float(crossings[k].station)
-            relax.append(Relaxation("crossing clearance", st, st, float(cshort[k]), "m",
-                                    f"crossing clearance at {name} gave way by {cshort[k]:.4g} m at station "
-                                    f"{st:.2f} m: no profile keeps every crossing clearance"))
-    report("min cover", z - P.upper, at, "m")
-    report("max cover", P.lower - z, at, "m")
+    at = lambda a, b: (float(s[a]), float(s[b]))  # noqa: E731  (knots)
+    at_st = lambda a, b: (float(P.st[a]), float(P.st[b]))  # noqa: E731  (stations)
+    seg = lambda a, b: (float(s[a]), float(s[b + 1]))  # noqa: E731  (knot segments)
+    for c, name in enumerate(P.cname):
+        if cshort[c] > TOL:
+            sc = float(crossings[c].station)
+            relax.append(Relaxation("crossing clearance", sc, sc, float(cshort[c]), "m",
+                                    f"crossing clearance at {name} gave way by {cshort[c]:.4g} m at station "
+                                    f"{sc:.2f} m: no profile keeps every crossing clearance"))
+    report("min cover", zs - P.upper, at_st, "m")
+    report("max cover", P.lower - zs, at_st, "m")
     over = np.where(is_bend, 0.0, np.abs(turn) - np.nan_to_num(allow, nan=np.inf))
     report("joint deflection", over, at, "rad")
-    report("bend angle", np.where(is_bend, np.abs(turn - target), 0.0), at, "rad")
+    report("bend angle", np.where(is_bend, np.abs(turn - target) - P.margin, 0.0), at, "rad")
     if r.max_transition_grade is not None and n > 1:
         report("max grade", np.abs(g) - r.max_transition_grade, seg, "m/m")
     if r.min_grade is not None and n > 1:
         report("min grade", r.min_grade - np.abs(g), seg, "m/m")
-    order = {k: i for i, k in enumerate(PRIORITY)}
+    if mg_dir is not None and n > 1:
+        report("grade direction", -mg_dir * g, seg, "m/m")
+    order = {k_: i for i, k_ in enumerate(PRIORITY)}
     relax.sort(key=lambda x: (order.get(x.rule, 2), x.station_from))
 
     # why each station sits where it does (later assignments win)
     act = 1e-6
-    reason = np.full(n, "transition", dtype=object)
+    reason = np.full(ns, "transition", dtype=object)
     if n > 1:
-        gflag = lambda cond: np.r_[cond, False] | np.r_[False, cond]  # noqa: E731
+        def gflag(cond):  # a segment's flag on its stations, and on the knot that ends it
+            out = cond[P.sj].copy()
+            out[k[1:]] |= cond
+            return out
+
         if r.min_grade is not None:
             reason[gflag(np.abs(np.abs(g) - r.min_grade) <= act)] = "min grade"
         if r.max_transition_grade is not None:
             reason[gflag(np.abs(np.abs(g) - r.max_transition_grade) <= act)] = "max grade"
-    reason[np.abs(turn) >= np.nan_to_num(allow, nan=np.inf) - act] = "deflection"
-    reason[is_bend] = "bend"
-    reason[np.abs(z - P.lower) <= act] = "max cover"
-    reason[np.abs(z - P.upper) <= act] = "min cover"
-    for k, name in enumerate(P.cname):
-        if cshort[k] >= -act:
-            j = P.cj[k] + (1 if P.ct[k] > 0.5 else 0)
-            reason[j] = f"crossing {name}"
+    reason[k[np.abs(turn) >= np.nan_to_num(allow, nan=np.inf) - act]] = "deflection"
+    reason[k[is_bend]] = "bend"
+    reason[np.abs(zs - P.lower) <= act] = "max cover"
+    reason[np.abs(zs - P.upper) <= act] = "min cover"
+    for c, name in enumerate(P.cname):
+        if cshort[c] >= -act:
+            reason[P.st_cj[c] + (1 if P.st_ct[c] > 0.5 else 0)] = f"crossing {name}"
 
-    wt = P.wt
-    depth = np.maximum(P.upper - z, 0.0)
-    excavation = float(np.sum(wt * depth))
-    trench = float(np.sum(wt * np.maximum(P.ground - z + r.outside_diameter, 0.0)))
+    wt = P.st_wt
+    excavation = float(np.sum(wt * np.maximum(P.upper - zs, 0.0)))
+    trench = float(np.sum(wt * np.maximum(P.st_ground - zs + r.outside_diameter, 0.0)))
     length = float(np.sum(np.hypot(P.h, np.diff(z)))) if n > 1 else 0.0
     upper = P.upper.copy()
     lower = np.where(np.isfinite(P.lower), P.lower, np.nan)
-    for k in range(len(P.cj)):  # crossings tighten the limits at their station
-        j = P.cj[k] + (1 if P.ct[k] > 0.5 else 0)
-        if P.csign[k] > 0:
-            upper[j] = min(upper[j], P.crhs[k])
+    for c in range(len(P.cj)):  # crossings tighten the limits at their station
+        j = P.st_cj[c] + (1 if P.st_ct[c] > 0.5 else 0)
+        if P.csign[c] > 0:
+            upper[j] = min(upper[j], P.crhs[c])
         else:
-            lower[j] = np.fmax(lower[j], P.crhs[k])
+            lower[j] = np.fmax(lower[j], P.crhs[c])
+    turn_st = np.zeros(ns)
+    turn_st[k] = turn
+    allow_st = np.where(np.arange(ns) == 0, np.nan, 0.0)
+    allow_st[-1] = np.nan
+    allow_st[k] = allow
+    direction = None
+    if mg_dir is not None:
+        direction = mg_dir[P.sj]
     return PipeProfile(
-        station=station, top=z[group], reason=reason[group],
-        bends=bends_frame(s, bends, first), relaxations=relax,
+        station=station, top=zs[group], reason=reason[group],
+        bends=bends_frame(s, bends, first[k]), relaxations=relax,
         excavation_volume=excavation, length_3d=length,
         upper_limit=upper[group], lower_limit=lower[group],
-        deflection=turn[group], deflection_limit=allow[group], trench_volume=trench,
+        deflection=turn_st[group], deflection_limit=allow_st[group], trench_volume=trench,
+        direction=None if direction is None else direction[group],
     )
 
 

@@ -44,6 +44,7 @@ PRIORITY = (
     "max cover",
     "max grade",
     "min grade",
+    "grade direction",
 )
 
 
@@ -86,6 +87,24 @@ class DesignRules:
     beyond what the joints allow; the large default means bends are placed
     only where the rules need them or where they save a great deal of
     digging (a judgement, not a standard).
+
+    knots: bool per station, where the pipe may change grade (its joints,
+    fittings, plan vertices); between knots the pipe is straight, and a
+    knot's joint turns at most ``max_joint_deflection`` (or its
+    ``allowance``). None: every station is a knot and the allowance is
+    spread, ``max_joint_deflection`` per ``joint_length`` of line.
+    allowance: rad per station a knot's joint may turn in the vertical
+    (a plan turn there takes its share), or None.
+    grade_break_cost: m^3 of excavation judged equal to one radian of grade
+    change (an l1 penalty on the change of grade at every knot, which makes
+    the profile straight grade runs between few grade breaks [1]); 0: least
+    excavation alone.
+    high_point_tolerance: m; a high or low point of the pipe less prominent
+    than this is removed (the runs either side are held to one direction
+    and solved again); None: the profile's own extrema are kept.
+
+    [1] Kim, S.-J., Koh, K., Boyd, S., Gorinevsky, D. (2009). l1 trend
+        filtering. SIAM Review 51(2), 339-360.
     """
 
     min_cover: float | np.ndarray
@@ -98,6 +117,10 @@ class DesignRules:
     trench_width: float | np.ndarray | None = None
     max_transition_grade: float | None = None
     bend_cost: float = 1.0e5
+    knots: np.ndarray | None = None
+    allowance: np.ndarray | None = None
+    grade_break_cost: float = 0.0
+    high_point_tolerance: float | None = None
 
     def check(self, n: int) -> None:
         """Raise :class:`InputError` naming the first rule value that cannot be used."""
@@ -113,6 +136,16 @@ class DesignRules:
                                  f"is not a finite value {'>' if strict else '>='} {lo}")
 
         arr("min_cover", 0.0)
+        for name in ("knots", "allowance"):
+            v = getattr(self, name)
+            if v is not None and np.shape(v) != (n,):
+                raise InputError(f"design rule {name}: expected {n} values, got shape {np.shape(v)}")
+        if self.allowance is not None:
+            arr("allowance", 0.0)
+        for name in ("grade_break_cost", "high_point_tolerance"):
+            v = getattr(self, name)
+            if v is not None and (not np.isfinite(v) or v < 0):
+                raise InputError(f"design rule {name}: {v!r} must be a finite value >= 0")
         if self.max_cover is not None:
             arr("max_cover", 0.0, open_ended=True)
         if self.trench_width is not None:
@@ -161,7 +194,9 @@ class PipeProfile:
     crossings (nan where none). deflection: rad, change of pipe angle at
     each station (positive = sag). deflection_limit: rad the joints allow
     there (nan at the ends). trench_volume: m^3 from ground down to the pipe
-    bottom (top - outside diameter), times trench width.
+    bottom (top - outside diameter), times trench width. direction: +1/-1,
+    the direction the segment leaving each station is held to (the last
+    station: the segment reaching it), or None where no direction is held.
     """
 
     station: np.ndarray
@@ -176,3 +211,4 @@ class PipeProfile:
     deflection: np.ndarray | None = None
     deflection_limit: np.ndarray | None = None
     trench_volume: float = 0.0
+    direction: np.ndarray | None = None

@@ -36,8 +36,8 @@ class Writer:
 WRITERS: list[Writer] = []
 
 #: The modules holding the writers, imported in this order.
-WRITER_MODULES = ("profile_csv", "gradelines_csv", "findings_csv", "fittings_csv", "layers",
-                  "plot", "summary")
+WRITER_MODULES = ("profile_csv", "gradelines_csv", "findings_csv", "fittings_csv", "valves_csv",
+                  "layers", "plot", "summary")
 
 
 def writer(*files: str, applies: Callable = lambda result: True):

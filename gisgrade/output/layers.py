@@ -5,7 +5,9 @@
   the first flow scenario's lowest pressure, from the perceptual, colour-vision
   friendly *cividis* colormap (Nuñez et al. 2018);
 - ``crossings``: one point per crossing with required and achieved clearance;
-- ``fittings``: one point per vertical bend fitting (angle, sag or crest);
+- ``fittings``: one point per fitting: bends (vertical, horizontal,
+  combined) and the given fittings, with their K;
+- ``valves``: one point per air valve or drain, with its kind and reason;
 - ``stations``: one point per station with ground, pipe and cover.
 
 The ground-only run (``gisgrade profile``) writes ``crossings`` and
@@ -84,10 +86,19 @@ def crossing_points(result) -> "pd.DataFrame":
     return frame
 
 
-def fittings_points(result) -> "pd.DataFrame":
-    f = result.bends
+def fittings_points(result, display) -> "pd.DataFrame":
+    from .fittings_csv import fittings_listing
+
+    f = fittings_listing(result, display)
     frame = f.drop(columns=["x", "y"]).copy()
-    frame["geometry"] = shapely.points(f["x"].to_numpy(), f["y"].to_numpy())
+    frame["geometry"] = shapely.points(f["x"].to_numpy(float), f["y"].to_numpy(float))
+    return frame
+
+
+def valve_points(result) -> "pd.DataFrame":
+    v = result.valves
+    frame = v.drop(columns=["x", "y"]).copy()
+    frame["geometry"] = shapely.points(v["x"].to_numpy(float), v["y"].to_numpy(float))
     return frame
 
 
@@ -104,13 +115,18 @@ def station_points(result) -> "pd.DataFrame":
 def write_layers(result, folder: Path, display=None) -> None:
     import geopandas as gpd
 
+    from ..display import display_of
+
+    display = display or display_of(result.project)
     path = folder / "layers.gpkg"
     crs = result.alignment.crs
     layers = {}
     if result.grades is not None:
         layers["pipe_pieces"] = pipe_pieces(result)
     if result.bends is not None:
-        layers["fittings"] = fittings_points(result)
+        layers["fittings"] = fittings_points(result, display)
+    if result.valves is not None:
+        layers["valves"] = valve_points(result)
     layers["crossings"] = crossing_points(result)
     layers["stations"] = station_points(result)
     for i, (name, frame) in enumerate(layers.items()):

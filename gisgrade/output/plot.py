@@ -30,6 +30,9 @@ GROUND = dict(color="#7a5c3a", lw=1.2)
 PIPE_FILL = dict(color="#5b6770", alpha=0.55, lw=0)
 SCENARIO_COLOURS = ["#1b5e9e", "#b8412c", "#2f8f6a", "#7b4fa0", "#c7962a"]
 STATIC = dict(color="#444444", lw=1.0, ls=":")
+#: Valve marks (symbol, colour) of our own choosing, drawn on the pipe (drains at the invert).
+VALVE_SYMBOLS = {"combination": ("P", "#e0a030"), "air-release": ("^", "#f2d27a"),
+                 "air-vacuum": ("v", "#9fc7e8"), "drain": ("s", "#6b8e4e")}
 
 
 class FeetLocator(matplotlib.ticker.Locator):
@@ -252,7 +255,17 @@ def _crossings_and_bends(ax, result, s, k) -> None:
             ax.scatter(s[short], t["top_m"].to_numpy()[short] * k, s=10, marker="x",
                        color="#d9534f", zorder=6, label="cover below minimum")
     if result.bends is not None and len(result.bends):
-        b = result.bends["station_m"].to_numpy()
-        ax.scatter(b, np.interp(b, s, t["axis_m"]) * k, marker="D", s=14, color="#c7962a",
-                   zorder=6, label="vertical bend")
+        for plane, marker in (("vertical", "D"), ("horizontal", "o"), ("combined", "X")):
+            b = result.bends.loc[result.bends["plane"] == plane, "station_m"].to_numpy()
+            if len(b):
+                ax.scatter(b, np.interp(b, s, t["axis_m"]) * k, marker=marker, s=14,
+                           color="#c7962a", zorder=6, label=f"{plane} bend")
+    if getattr(result, "valves", None) is not None and len(result.valves):
+        v = result.valves
+        for kind, (marker, colour) in VALVE_SYMBOLS.items():
+            at = v.loc[v["kind"] == kind, "station_m"].to_numpy()
+            if len(at):
+                z = np.interp(at, s, t["invert_m" if kind == "drain" else "top_m"]) * k
+                ax.scatter(at, z, marker=marker, s=22, color=colour, edgecolor="#111111",
+                           lw=0.5, zorder=7, label=kind.replace("-", " ") + (" valve" if kind != "drain" else ""))
 

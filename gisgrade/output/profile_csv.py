@@ -7,7 +7,8 @@ from . import writer
 COLUMNS = ["station_m", "x", "y", "ground_m", "top_m", "axis_m", "invert_m", "cover_m"]
 #: Columns appended when the stages produced them.
 EXTRA_COLUMNS = ["ground_band_m", "ground_bridged", "ground_source", "min_cover_m", "max_cover_m",
-                 "upper_limit_m", "lower_limit_m", "deflection_deg", "deflection_limit_deg", "reason"]
+                 "upper_limit_m", "lower_limit_m", "deflection_deg", "deflection_limit_deg",
+                 "plan_turn_deg", "plan_share_deg", "joint_deflection_deg", "reason"]
 #: Decimals of metres written for stations and elevations (0.1 mm), the same in every
 #: table so rows join on ``station_m``.
 STATION_DECIMALS = 4

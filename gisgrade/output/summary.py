@@ -11,6 +11,9 @@ from ..cautions import CAUTIONS
 from ..display import Display
 from . import writer
 
+#: A change of grade at a joint larger than this (deg) counts as a grade break.
+GRADE_BREAK_DEG = 0.01
+
 
 def summarize(result) -> dict:
     """Key figures of a run, plain JSON-able values, SI units in the key names."""
@@ -53,6 +56,20 @@ def summarize(result) -> dict:
         out["pipe_length_3d_m"] = float(result.profile.length_3d)
         out["relaxations"] = [_plain(r) for r in result.relaxations]
         out["bends"] = int(len(result.bends))
+        planes = result.bends["plane"].value_counts() if len(result.bends) else {}
+        out["bends_by_plane"] = {k: int(planes.get(k, 0)) for k in ("vertical", "horizontal", "combined")}
+        knots = np.abs(t["deflection_deg"].to_numpy()) > GRADE_BREAK_DEG
+        out["grade_breaks"] = int(knots.sum())
+    if result.points is not None:
+        p = result.points
+        out["high_points"] = int((p["kind"] == "high").sum())
+        out["low_points"] = int((p["kind"] == "low").sum())
+        out["high_low_points"] = [
+            {"station_m": float(r.station_m), "kind": r.kind, "elevation_m": float(r.elevation_m),
+             "prominence_m": float(r.prominence_m), "why": r.why} for r in p.itertuples()]
+    if result.valves is not None:
+        kinds = result.valves["kind"].value_counts()
+        out["valves"] = {k: int(kinds.get(k, 0)) for k in ("combination", "air-release", "air-vacuum", "drain")}
     if result.findings is not None:
         out["findings"] = int(len(result.findings))
         sep = result.findings[result.findings["check"] == "column separation"]["scenario"]
@@ -157,8 +174,18 @@ def summary_text(summary: dict) -> str:
         lines.append(f"earthwork: trench {d.text(summary['trench_volume_m3'], 'volume')}, of which "
                      f"{d.text(summary['excavation_m3'], 'volume', 1)} below the minimum-cover line; "
                      f"pipe length (3D) {m(summary['pipe_length_3d_m'], 1)}")
+    if "high_points" in summary:
+        lines.append(f"pipe profile: {summary['grade_breaks']} grade breaks, "
+                     f"{summary['high_points']} high points, {summary['low_points']} low points")
+    if "valves" in summary:
+        v = summary["valves"]
+        lines.append(f"valves: {v['combination']} combination, {v['air-release']} air-release, "
+                     f"{v['air-vacuum']} air-vacuum; drains: {v['drain']}")
     if "findings" in summary:
-        lines.append(f"findings: {summary['findings']}; bends: {summary['bends']}; "
+        planes = summary.get("bends_by_plane", {})
+        split = (" (" + ", ".join(f"{n} {k}" for k, n in planes.items() if n) + ")"
+                 if any(planes.values()) else "")
+        lines.append(f"findings: {summary['findings']}; bends: {summary['bends']}{split}; "
                      f"rules relaxed: {len(summary['relaxations'])}")
     for r in summary.get("relaxations", []):
         lines.append(f"relaxed: {r.get('message', r) if isinstance(r, dict) else r}")

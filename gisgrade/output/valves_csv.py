@@ -1,0 +1,18 @@
+"""``valves.csv``: the air valves and drains sited along the designed pipe,
+and ``high_low_points.csv``: the pipe's high and low points with why."""
+from __future__ import annotations
+
+from . import writer
+
+#: valves.csv columns.
+VALVE_COLUMNS = ["station_m", "station", "kind", "reason", "x", "y", "top_m", "axis_m", "ground_m"]
+#: high_low_points.csv columns.
+POINT_COLUMNS = ["station_m", "station", "kind", "elevation_m", "prominence_m", "why"]
+
+
+@writer("valves.csv", "high_low_points.csv", applies=lambda r: r.valves is not None)
+def write_valves(result, folder, display):
+    v = result.valves.assign(station=display.station(result.valves["station_m"].to_numpy(float)))
+    v[VALVE_COLUMNS].to_csv(folder / "valves.csv", index=False, float_format="%.4f")
+    p = result.points.assign(station=display.station(result.points["station_m"].to_numpy(float)))
+    p[POINT_COLUMNS].to_csv(folder / "high_low_points.csv", index=False, float_format="%.4f")
