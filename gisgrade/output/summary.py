@@ -62,8 +62,9 @@ def summarize(result) -> dict:
         out["grade_breaks"] = int(knots.sum())
     if result.points is not None:
         p = result.points
-        out["high_points"] = int((p["kind"] == "high").sum())
-        out["low_points"] = int((p["kind"] == "low").sum())
+        inner = p["why"] != "end"  # the ends are the tank or main the line joins
+        out["high_points"] = int(((p["kind"] == "high") & inner).sum())
+        out["low_points"] = int(((p["kind"] == "low") & inner).sum())
         out["high_low_points"] = [
             {"station_m": float(r.station_m), "kind": r.kind, "elevation_m": float(r.elevation_m),
              "prominence_m": float(r.prominence_m), "why": r.why} for r in p.itertuples()]
@@ -175,8 +176,8 @@ def summary_text(summary: dict) -> str:
                      f"{d.text(summary['excavation_m3'], 'volume', 1)} below the minimum-cover line; "
                      f"pipe length (3D) {m(summary['pipe_length_3d_m'], 1)}")
     if "high_points" in summary:
-        lines.append(f"pipe profile: {summary['grade_breaks']} grade breaks, "
-                     f"{summary['high_points']} high points, {summary['low_points']} low points")
+        lines.append(f"pipe profile: {summary['grade_breaks']} grade breaks; between the ends "
+                     f"{summary['high_points']} high points and {summary['low_points']} low points")
     if "valves" in summary:
         v = summary["valves"]
         lines.append(f"valves: {v['combination']} combination, {v['air-release']} air-release, "
