@@ -256,7 +256,7 @@ def suggest_elements(station, axis, hgl, hgl_upstream, egl, flowing, names, p_mi
     from ..display import Display
     d = display or Display()
     label = lambda s: d.station([s])[0]  # noqa: E731
-    kpa = lambda p: d.text(p, "pressure")  # noqa: E731
+    kpa = lambda p: d.text(p, "pressure", 1)  # noqa: E731
     rho_g = density * G
     lo, hi = _band(axis, p_min, p_max, density)
     H, Hu, E = (np.array(a, dtype=float) for a in (hgl, hgl_upstream, egl))
@@ -301,6 +301,8 @@ def suggest_elements(station, axis, hgl, hgl_upstream, egl, flowing, names, p_mi
             step = apply_elements([el], axis, H, Hu, E, flowing, density).step[0]
         else:  # for the sweep, at the heads that reach that far
             step = arg
+        if kind == "booster":
+            text += f" (head up to {d.text(float(np.max(step)), 'head')} in {names[int(np.argmax(step))]})"
         _shift((H, Hu, E), i, step)
         out.append(Suggestion(kind, i, float(station[i]), setting, step, text))
         start = i
