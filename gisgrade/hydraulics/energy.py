@@ -63,7 +63,7 @@ def pump_power(flow, head, density, efficiency):
 def annual_energy(power, seconds):
     """Energy of ``power`` (W) drawn for ``seconds`` a year: E = P t [J].
 
-    >>> annual_energy(1000.0, 3600.0) / KWH
+    >>> float(annual_energy(1000.0, 3600.0)) / KWH
     1.0
     """
     return _out(np.asarray(power, float) * np.asarray(seconds, float))

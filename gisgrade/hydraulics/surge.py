@@ -165,7 +165,7 @@ def korteweg_wave_speed(bulk_modulus, density, diameter, wall, elastic_modulus, 
     >>> round(float(korteweg_wave_speed(2.19e9, 1000.0, 0.3, 0.01, np.inf)), 1)
     1479.9
     >>> round(float(korteweg_wave_speed(2.19e9, 1000.0, 0.3, 0.01, 207e9, 0.91)))
-    1228
+    1304
     """
     K, rho = np.asarray(bulk_modulus, float), np.asarray(density, float)
     stretch = c1 * K * np.asarray(diameter, float) / (np.asarray(elastic_modulus, float)
