@@ -36,22 +36,12 @@ def stage_operations(project, table, grades) -> Operations:
     surge, notes = stage_surge(project, table, grades)
     energy = stage_energy(project, grades)
     checks = project.checks
+    own = grades.elements
+    resets = (sorted(set(np.searchsorted(grades.station, own.loc[own["kind"] != "booster",
+                                                               "station_m"].to_numpy())))
+              if len(own) else [])
     proposal = suggest_elements(grades.station, grades.axis, grades.hgl, grades.hgl_upstream,
                                 grades.egl, grades.flow.any(axis=1), grades.names,
                                 checks.min_pressure, checks.max_pressure, grades.density,
-                                display=display_of(project))
+                                display=display_of(project), resets=[int(r) for r in resets])
     return Operations(surge, energy, proposal, notes)
-
-
-def suggested_elements_toml(proposal, display=None) -> str:
-    """The suggestions as ``[[pressure_elements]]`` tables to paste into a
-    project file (SI, stations to the millimetre)."""
-    out = []
-    for s in proposal.suggestions:
-        out.append(f"[[pressure_elements]]\nkind = \"{s.kind}\"\nstation = \"{s.station_m:.3f} m\"\n"
-                   f"setting = \"{s.setting / 1e3:g} kPa\"\n")
-    return "\n".join(out)
-
-
-def _finite(v):
-    return None if v is None or not np.isfinite(v) else float(v)

@@ -65,6 +65,14 @@ class Applied:
     step: np.ndarray  #: (m, k) m, the head each element adds (negative: taken) per scenario
 
 
+def _shift_until(arrays, i, step, wall=None):
+    """:func:`_shift`, undone from the downstream side of station ``wall`` on
+    (an element there sets the line downstream of it)."""
+    _shift(arrays, i, step)
+    if wall is not None:  # its upstream side keeps the shift
+        _shift(arrays, wall, -np.asarray(step))
+
+
 def _shift(arrays, i, step):
     """Add ``step`` (k,) to the downstream side of station ``i`` and beyond."""
     hgl, hgl_up, egl = arrays
@@ -229,7 +237,7 @@ def _nice_setting(head, lo_head, hi_head, axis_i, rho_g):
 
 
 def suggest_elements(station, axis, hgl, hgl_upstream, egl, flowing, names, p_min, p_max,
-                     density, display=None):
+                     density, display=None, resets=()):
     """The fewest PRVs and boosters (greedy, each reaching as far as it can)
     that keep every station of every scenario within [p_min, p_max].
 
@@ -248,6 +256,10 @@ def suggest_elements(station, axis, hgl, hgl_upstream, egl, flowing, names, p_mi
         [kg/m³].
     display : gisgrade.display.Display, optional
         Formats stations and pressures in the reasons (default SI).
+    resets : sequence of int
+        Station indices of the project's own PRVs and break tanks: the line
+        downstream of one is its business, so a proposed element's effect
+        ends there (a PRV there is taken to keep acting).
 
     Returns
     -------
@@ -277,6 +289,9 @@ def suggest_elements(station, axis, hgl, hgl_upstream, egl, flowing, names, p_mi
                     reach, arg = prv_reach(H, Hu, lo, hi, i)
                 else:
                     reach, arg = booster_reach(H, Hu, lo, hi, i, flowing)
+                wall = next((r for r in sorted(resets) if r > i), None)
+                if wall is not None and reach > wall:  # the project's element takes over
+                    reach = len(station) if first_violation(H, Hu, lo, hi, wall) is None else wall
                 if arg is not None and reach > j and (best is None or reach >= best[0]):
                     best = (reach, i, kind, arg)
         if best is None:
@@ -303,11 +318,11 @@ def suggest_elements(station, axis, hgl, hgl_upstream, egl, flowing, names, p_mi
             step = arg
         if kind == "booster":
             text += f" (head up to {d.text(float(np.max(step)), 'head')} in {names[int(np.argmax(step))]})"
-        _shift((H, Hu, E), i, step)
+        _shift_until((H, Hu, E), i, step, next((r for r in sorted(resets) if r > i), None))
         out.append(Suggestion(kind, i, float(station[i]), setting, step, text))
         start = i
     solved = not reason and _verified(out, axis, hgl, hgl_upstream, egl, flowing, density,
-                                      lo, hi)
+                                      lo, hi, resets)
     if not reason and not solved:
         reason = "the proposal, applied to the line, still leaves the limits"
     return Proposal(tuple(out), solved, reason)
@@ -322,11 +337,23 @@ def _prv_interval(H, Hu, lo, hi, i, reach):
     return LO, HI
 
 
-def _verified(out, axis, hgl, hgl_up, egl, flowing, density, lo, hi):
+def _verified(out, axis, hgl, hgl_up, egl, flowing, density, lo, hi, resets=()):
     """The proposal (solved boosters, PRVs at their settings) applied to the
-    lines it was made for keeps every station within [lo, hi]."""
+    lines it was made for keeps every station within [lo, hi]. With the
+    project's own resetting elements (``resets``) each proposed step stops at
+    the next of them, as in the sweep."""
     if not out:
         return True
     mine = [Element(s.kind, s.index, setting=s.setting) for s in out]
-    applied = apply_elements(mine, axis, hgl, hgl_up, egl, flowing, density)
-    return first_violation(applied.hgl, applied.hgl_upstream, lo, hi) is None
+    if not resets:
+        applied = apply_elements(mine, axis, hgl, hgl_up, egl, flowing, density)
+        return first_violation(applied.hgl, applied.hgl_upstream, lo, hi) is None
+    H, Hu, E = (np.array(a, dtype=float) for a in (hgl, hgl_up, egl))
+    for rank, el in enumerate(mine):
+        nxt = [r for r in resets if r > el.index] + [m.index for m in mine[rank + 1:]]
+        wall = min(nxt) if nxt else None
+        one = apply_elements([el], axis, H, Hu, E, flowing, density) if wall is None else \
+            apply_elements([el, Element("booster", wall, head=0.0)], axis, H, Hu, E, flowing, density)
+        _shift_until((H, Hu, E), el.index, one.step[0],
+                     next((r for r in sorted(resets) if r > el.index), None))
+    return first_violation(H, Hu, lo, hi) is None
