@@ -34,6 +34,8 @@ REGULAR, VERTEX, CROSSING, END, ZONE = 1, 2, 4, 8, 16
 FITTING, OFFTAKE, SECTION = 32, 64, 128
 #: A pipe joint (one every joint length from each vertex, fitting and section end).
 JOINT = 256
+#: A pressure element ([[pressure_elements]]: reducing valve, booster, break tank).
+ELEMENT = 512
 #: The kinds of station where the pipe may change grade or direction: its
 #: joints, the fittings and vertices (each has a joint), and the ends.
 KNOTS = JOINT | VERTEX | END | FITTING | OFFTAKE | SECTION

@@ -49,6 +49,9 @@ def special_stations(project, line: al.Alignment, crossings=()):
                                   np.asarray(crossings, float) + L / 2])
         anchors = np.concatenate([line.vertex_stations, centred] + [e[0] for e in extra])
         extra.append((np.r_[joint_stations(anchors, line.length, L), centred], al.JOINT))
+    # pressure elements are stations, not joint anchors: a suggested element at
+    # an existing station leaves the laid pipe as it was
+    extra.append((np.array([e.station for e in project.pressure_elements]) - s0, al.ELEMENT))
     return extra, located, line
 
 

@@ -19,6 +19,7 @@ from .design import clearances, stage_design
 from .findings import stage_findings
 from .findings.valves import stage_valves
 from .hydraulics.stage import stage_hydraulics
+from .operations import stage_operations
 from .pipe import stage_pipe
 from .project import Project, load
 from .result import Result, resolve_outdir
@@ -30,7 +31,8 @@ __all__ = ["compute", "compute_ground", "run", "run_ground", "resolve_outdir", "
 log = logging.getLogger("gisgrade")
 
 #: The stages of a whole run, in order (names for timings and progress).
-STAGES = ("alignment", "terrain", "pipe", "design", "hydraulics", "findings", "valves", "summary")
+STAGES = ("alignment", "terrain", "pipe", "design", "hydraulics", "operations", "findings", "valves",
+          "summary")
 #: The stages of the ground profile alone.
 GROUND_STAGES = ("alignment", "terrain", "summary")
 
@@ -75,14 +77,18 @@ def compute(project, *, progress=None) -> Result:
         table, design = stage_design(project, table, crossings)
     with clock("hydraulics"):
         grades = stage_hydraulics(project, table, design.bends)
+    with clock("operations"):
+        ops = stage_operations(project, table, grades)
     with clock("findings"):
-        found = stage_findings(project, table, grades, design.profile.relaxations)
+        found = stage_findings(project, table, grades, design.profile.relaxations, ops.surge)
     with clock("valves"):
         valves = stage_valves(project, table, design.points, grades)
     result = Result(project, line, design.crossings, table, grades, found, design.bends,
                     list(design.profile.relaxations), profile=design.profile,
                     clearances=_clearances(design.crossings, table), points=design.points,
-                    valves=valves, notes=notes + design.notes, timings=clock.timings)
+                    valves=valves, surge=ops.surge, energy=ops.energy,
+                    suggestions=ops.suggestions, notes=notes + design.notes + ops.notes,
+                    timings=clock.timings)
     with clock("summary"):
         _summarize(result)
     return result

@@ -30,7 +30,7 @@ else:  # pragma: no cover
 
 #: Kinds read as a quantity string and converted to SI (``units.SI_UNITS``).
 QUANTITIES = ("length", "flow", "velocity", "pressure", "temperature", "angle", "dimensionless",
-              "volume")
+              "volume", "time", "per_energy", "per_length", "mass_per_energy")
 FRICTION_METHODS = ("darcy-weisbach", "hazen-williams")
 BOUNDARIES = ("source-head", "two-heads", "min-pressure")
 
@@ -100,6 +100,16 @@ class PipeConfig:
     hazen_williams_c: float | None = key("number>0", "Hazen-Williams C", None)
     material: str | None = key("material", "a pipe material giving roughness and C", None)
     pressure_rating: float | None = key("pressure>0", "rated working pressure", None)
+    wall_thickness: float | None = key("length>0", "wall thickness for the wave speed (default: "
+                                       "half the outside less the inside diameter)", None)
+    elastic_modulus: float | None = key("pressure>0", "Young's modulus of the wall (default: the "
+                                        "material's)", None)
+    poisson_ratio: float | None = key("number>=0", "Poisson's ratio of the wall (default: the "
+                                      "material's)", None)
+    wave_speed: float | None = key("velocity>0", "pressure wave speed, given directly (wins over "
+                                   "the modulus)", None)
+    surge_allowance: float | None = key("pressure>=0", "pressure a transient may reach above the "
+                                        "rating (default: none)", None)
 
     def _rules(self, t: _Table) -> PipeConfig:
         cfg = _pipe_data(self, t)
@@ -126,6 +136,12 @@ class PipeSectionConfig:
     hazen_williams_c: float | None = key("number>0", "Hazen-Williams C", None)
     pressure_rating: float | None = key("pressure>0", "rated working pressure", None)
     material: str | None = key("material", "a pipe material giving roughness and C", None)
+    wall_thickness: float | None = key("length>0", "wall thickness for the wave speed", None)
+    elastic_modulus: float | None = key("pressure>0", "Young's modulus of the wall", None)
+    poisson_ratio: float | None = key("number>=0", "Poisson's ratio of the wall", None)
+    wave_speed: float | None = key("velocity>0", "pressure wave speed, given directly", None)
+    surge_allowance: float | None = key("pressure>=0", "pressure a transient may reach above the "
+                                        "rating", None)
     key: str = "sections[0]"
 
     def _rules(self, t: _Table) -> PipeSectionConfig:
@@ -135,17 +151,20 @@ class PipeSectionConfig:
 
 
 def _pipe_data(cfg, t: _Table):
-    """Check the diameters' order; fill roughness and C from the material (an
-    explicit roughness or C wins over the material's value)."""
+    """Check the diameters' order; fill roughness, C, modulus and Poisson's
+    ratio from the material (an explicit value wins over the material's)."""
     inside, outside = cfg.inside_diameter, cfg.outside_diameter
     if inside is not None and outside is not None and outside < inside:
         raise InputError(f"{t.say('outside_diameter')}: smaller than {t.say('inside_diameter')}")
+    if cfg.poisson_ratio is not None and cfg.poisson_ratio >= 0.5:
+        raise InputError(f"{t.say('poisson_ratio')}: must be below 0.5")
     if cfg.material is None:
         return cfg
     from .hydraulics.materials import material
-    mat, c = material(cfg.material), cfg.hazen_williams_c
-    return replace(cfg, roughness=mat.roughness if cfg.roughness is None else cfg.roughness,
-                   hazen_williams_c=mat.hazen_williams_c if c is None else c)
+    mat = material(cfg.material)
+    given = lambda name: getattr(cfg, name) if getattr(cfg, name) is not None else getattr(mat, name)  # noqa: E731
+    return replace(cfg, **{name: given(name) for name in ("roughness", "hazen_williams_c",
+                                                          "elastic_modulus", "poisson_ratio")})
 
 
 @dataclass(frozen=True)
@@ -209,6 +228,9 @@ class ScenarioConfig:
     fire_flow: float = key("flow>=0", "extra demand, not scaled (with multiplier)", 0.0, "0 L/s")
     fire_station: float | None = key("length", "where the fire flow leaves (default: the last "
                                      "station)", None)
+    hours_per_year: float | None = key("time>=0", "hours a year the scenario runs, for the energy "
+                                       "(default: 0; the one design case without [[scenarios]]: "
+                                       "the whole year)", None)
     key: str = "scenarios[0]"
     _one_of = (("flow", "entering at the start"), ("multiplier", "x hydraulics.flow"))
 
@@ -387,6 +409,97 @@ class ValvesConfig:
 
 
 @dataclass(frozen=True)
+class SurgeConfig:
+    """[surge]: the surge screening (Joukowsky; a screening, not a transient analysis)."""
+
+    restraint: str = key("text", "how the pipe is held lengthwise (Korteweg's factor): anchored "
+                         "throughout (1 - nu^2), at its upstream end only (1 - nu/2) or free "
+                         "(expansion joints, 1)", "anchored",
+                         choices=("anchored", "upstream-anchor", "expansion-joints"))
+    velocity_change: float | None = key("velocity>=0", "the velocity change of the fastest event "
+                                        "(default: each scenario's flow stopped)", None)
+    closure_time: float | None = key("time>=0", "how long the fastest valve closes (default: "
+                                     "faster than the wave's return time 2L/a)", None)
+    bulk_modulus: float | None = key("pressure>0", "water's bulk modulus (default: from the "
+                                     "temperature)", None)
+
+
+@dataclass(frozen=True)
+class PressureElementConfig:
+    """[[pressure_elements]]: a reducing valve, in-line booster or break tank at a station."""
+
+    kind: str = key("text", "prv (pressure-reducing valve), booster or break-tank",
+                    choices=("prv", "booster", "break-tank"))
+    station: float = key("length", "station of the element")
+    setting: float | None = key("pressure", "prv: the pressure just downstream; booster: the least "
+                                "pressure it keeps downstream (its head solved)", None)
+    head: float | None = key("length>=0", "booster: a fixed head added", None)
+    level: float | None = key("length", "break-tank: its water level (default: the ground at the "
+                              "station)", None)
+    key: str = "pressure_elements[0]"
+
+    def _rules(self, t: _Table) -> PressureElementConfig:
+        given = {k for k in ("setting", "head", "level") if k in t.raw}
+        allowed = {"prv": {"setting"}, "booster": {"setting", "head"}, "break-tank": {"level"}}
+        extra = sorted(given - allowed[self.kind])
+        if extra:
+            raise InputError(f"{t.key(extra[0])}: not used with {t.key('kind')} = {self.kind!r}")
+        if self.kind == "prv" and self.setting is None:
+            raise t.missing("setting")
+        if self.kind == "booster" and len(given) != 1:
+            raise InputError(f"{t.file.name}: {t.name} needs exactly one of {t.key('head')} (a "
+                             f"fixed head) or {t.key('setting')} (a pressure to keep)")
+        return self
+
+
+@dataclass(frozen=True)
+class EnergyConfig:
+    """[energy]: pumping energy, its cost and what a life-cycle comparison of sizes needs."""
+
+    efficiency: float = key("dimensionless>0", "wire-to-water efficiency of the pumps (a fraction "
+                            "or a percentage)", 0.7, 0.7)
+    tariff: float | None = key("per_energy>=0", "price of energy, currency per kWh (e.g. "
+                               "\"0.15 / kWh\")", None)
+    currency: str = key("text", "the currency's label in the outputs", "", "")
+    emission_factor: float | None = key("mass_per_energy>=0", "emissions per energy (e.g. "
+                                        "\"0.4 kg/kWh\")", None)
+    suction_head: float | None = key("length", "HGL on the suction side of a pump at the source "
+                                     "(the source is pumped)", None)
+    period: float | None = key("time>0", "the life-cycle comparison's period (e.g. \"30 years\")",
+                               None)
+    discount_rate: float | None = key("dimensionless>=0", "discount rate a year for the present "
+                                      "value of energy (e.g. \"5 %\")", None)
+
+    def _rules(self, t: _Table) -> EnergyConfig:
+        if self.efficiency > 1:
+            raise InputError(f"{t.say('efficiency')}: more than 100 %")
+        return self
+
+
+@dataclass(frozen=True)
+class SizeCandidateConfig:
+    """[[size_candidates]]: a pipe size ``gisgrade sizes`` compares."""
+
+    inside_diameter: float = key("length>0", "inside diameter")
+    name: str | None = key("text", "its name in the outputs (default: the inside diameter)", None)
+    outside_diameter: float | None = key("length>0", "outside diameter (default: inside + the "
+                                         "project pipe's wall)", None)
+    material: str | None = key("material", "pipe material (default: the project pipe's)", None)
+    roughness: float | None = key("length>=0", "absolute roughness (default: the material's or "
+                                  "the project pipe's)", None)
+    pressure_rating: float | None = key("pressure>0", "rated working pressure (default: the "
+                                        "project pipe's)", None)
+    cost: float | None = key("per_length>=0", "capital cost per length laid (e.g. \"450 / m\")",
+                             None)
+    key: str = "size_candidates[0]"
+
+    def _rules(self, t: _Table) -> SizeCandidateConfig:
+        if self.outside_diameter is not None and self.outside_diameter < self.inside_diameter:
+            raise InputError(f"{t.say('outside_diameter')}: smaller than {t.say('inside_diameter')}")
+        return self
+
+
+@dataclass(frozen=True)
 class OutputConfig:
     """[output]: where and how results are written."""
 
@@ -420,6 +533,11 @@ class Project:
     fittings: tuple[FittingConfig, ...] = _section(FittingConfig, array=True)
     offtakes: tuple[OfftakeConfig, ...] = _section(OfftakeConfig, array=True)
     scenarios: tuple[ScenarioConfig, ...] = _section(ScenarioConfig, array=True)
+    surge: SurgeConfig = _section(SurgeConfig)
+    pressure_elements: tuple[PressureElementConfig, ...] = _section(PressureElementConfig,
+                                                                     array=True)
+    energy: EnergyConfig = _section(EnergyConfig)
+    size_candidates: tuple[SizeCandidateConfig, ...] = _section(SizeCandidateConfig, array=True)
     output: OutputConfig = _section(OutputConfig)
 
     @property
@@ -668,7 +786,14 @@ def _check_hydraulic_cases(p: Project) -> None:
     hyd = p.hydraulics
     if hyd is None:
         return
+    hours = sum(sc.hours_per_year or 0.0 for sc in p.scenarios)
+    if hours > 8766 * 3600 * (1 + 1e-9):  # a year of 365.25 days
+        raise InputError(f"{p.path.name}: the scenarios' hours_per_year add up to "
+                         f"{hours / 3600:.0f} h, more than a year")
     if hyd.boundary == "two-heads":
+        if p.pressure_elements:
+            raise InputError(f"{p.path.name}: [[pressure_elements]] cannot be used with "
+                             "hydraulics.boundary = \"two-heads\" (the flow would depend on them)")
         if p.scenarios:
             raise InputError(f"{p.path.name}: [[scenarios]] cannot be used with hydraulics.boundary "
                              "= \"two-heads\": the flow is solved from the two heads")
@@ -693,7 +818,7 @@ def _check_hydraulic_cases(p: Project) -> None:
 # --------------------------------------------------------------------------
 
 _NUMBER = r"(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?(?![eE][-+]?\d)"  # "1e3" has no unit
-_UNIT = r"[A-Za-z%°µ][A-Za-z0-9_%°µ*/^.() -]*"
+_UNIT = r"[A-Za-z%°µ/][A-Za-z0-9_%°µ*/^.() -]*"  # "/" first: a price, "0.15 / kWh"
 _TEXT = {"type": "string", "pattern": r"\S"}
 
 

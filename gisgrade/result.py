@@ -32,6 +32,9 @@ class Result:
     clearances: object = None  # design.Clearances
     points: pd.DataFrame | None = None  # the pipe's high and low points, with why
     valves: pd.DataFrame | None = None  # air valves and drains sited
+    surge: object = None  # hydraulics.surge.SurgeSet: the surge screening envelope
+    energy: object = None  # hydraulics.energy.Energy: pumps, power and annual energy
+    suggestions: object = None  # hydraulics.elements.Proposal: pressure elements proposed
     notes: list = field(default_factory=list)  # stage remarks for the summary
     summary: dict = field(default_factory=dict)
     timings: dict = field(default_factory=dict)  # stage name -> seconds

@@ -24,6 +24,10 @@ SI_UNITS = {
     "angle": "radian",
     "dimensionless": "",
     "volume": "m**3",
+    "time": "s",
+    "per_energy": "1/J",  # a price per unit of energy (a tariff, currency per J)
+    "per_length": "1/m",  # a price per unit of length (currency per m)
+    "mass_per_energy": "kg/J",  # an emission factor
 }
 
 #: pint dimensionality strings of the dimensions above.
@@ -36,6 +40,10 @@ _DIMENSIONALITY = {
     "angle": "",
     "dimensionless": "",
     "volume": "[length] ** 3",
+    "time": "[time]",
+    "per_energy": "[time] ** 2 / [mass] / [length] ** 2",
+    "per_length": "1 / [length]",
+    "mass_per_energy": "[time] ** 2 / [length] ** 2",
 }
 
 #: Example strings shown in error messages.
@@ -48,6 +56,10 @@ _EXAMPLES = {
     "angle": '"22.5 deg"',
     "dimensionless": '"0.5 %"',
     "volume": '"10 m3"',
+    "time": '"2 s"',
+    "per_energy": '"0.15 / kWh"',
+    "per_length": '"450 / m"',
+    "mass_per_energy": '"0.4 kg/kWh"',
 }
 
 

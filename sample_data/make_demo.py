@@ -203,7 +203,8 @@ vertical_accuracy = "0.5 m"   # RMSE of the (synthetic) DEM
 inside_diameter = "305 mm"
 outside_diameter = "326 mm"
 friction = "darcy-weisbach"
-roughness = "0.1 mm"
+roughness = "0.1 mm"          # wins over the material's own roughness
+material = "ductile-iron-cement-lined"   # gives the wall's modulus for the wave speed
 pressure_rating = "2.5 MPa"   # invented for the demo
 
 [cover]
@@ -231,19 +232,61 @@ start = "tank"
 flow = "40 L/s"               # average day
 temperature = "12 degC"
 
+[checks]
+# The valley floor lies 45 m below Harrowmere's end, more than the 42 m between
+# 140 and 550 kPa: no reducing valve keeps both within 550 kPa when no water
+# flows. The valley stretch serves no connections, so the (invented) utility
+# allows 750 kPa on this trunk main; the pipe is rated 2.5 MPa.
+max_pressure = "750 kPa"
+
+[surge]
+# the utility's rule (invented): line valves close over at least a minute
+closure_time = "60 s"
+
+[energy]
+# gravity supply: no pumping unless a size needs a booster; prices invented
+efficiency = "70 %"
+tariff = "0.18 / kWh"
+currency = "EUR"
+emission_factor = "0.3 kg/kWh"
+period = "40 years"
+discount_rate = "4 %"
+
 [[scenarios]]
 name = "average day"
 multiplier = 1.0
+hours_per_year = "7300 h"
 
 [[scenarios]]
 name = "peak hour"
 multiplier = 2.0
+hours_per_year = "1450 h"
 
 [[scenarios]]
 name = "max day + fire"
 multiplier = 1.5              # max day: 1.5 x average day (the offtake too)
 fire_flow = "63 L/s"          # not scaled; drawn at the last station (fire_station)
 show_egl = false
+hours_per_year = "10 h"
+
+# `gisgrade sizes project.toml -o sizes` compares these (costs per metre laid, invented)
+[[size_candidates]]
+name = "DN300"
+inside_diameter = "305 mm"
+outside_diameter = "326 mm"
+cost = "310 / m"
+
+[[size_candidates]]
+name = "DN350"
+inside_diameter = "354 mm"
+outside_diameter = "378 mm"
+cost = "365 / m"
+
+[[size_candidates]]
+name = "DN400"
+inside_diameter = "403 mm"
+outside_diameter = "429 mm"
+cost = "425 / m"
 
 [[fittings]]
 # isolation valve below the tank
@@ -255,7 +298,7 @@ kind = "butterfly_valve_open"
 station = "4100 m"
 flow = "6 L/s"
 """
-SOURCE_HEAD = 185.0  # m, top water level of the invented tank
+SOURCE_HEAD = 190.0  # m, top water level of the invented tank
 
 
 def write_scenario(out):

@@ -108,7 +108,7 @@ BAD = {
     "bare number": (lambda p: _edit(p, 'flow = "40 L/s"', "flow = 40"), ["hydraulics.flow"]),
     "wrong dimension": (lambda p: _edit(p, 'minimum = "1.2 m"', 'minimum = "1.2 L/s"'), ["cover.minimum"]),
     "unknown unit": (lambda p: _edit(p, 'roughness = "0.1 mm"', 'roughness = "0.1 mmm"'), ["pipe.roughness", "mmm"]),
-    "missing key": (lambda p: _edit(p, 'source_head = "185.0 m"', ""), ["hydraulics.source_head"]),
+    "missing key": (lambda p: _edit(p, 'source_head = "190.0 m"', ""), ["hydraulics.source_head"]),
     "missing DEM": (lambda p: (p.parent / "dem.tif").unlink(), ["terrain.dem", "dem.tif"]),
     "DEM not a raster": (lambda p: (p.parent / "dem.tif").write_bytes(b"not a tiff"), ["dem.tif"]),
     "centerline of points": (lambda p: _points_file(p.parent / "centerline.geojson"), ["alignment.path", "Point"]),
@@ -118,7 +118,8 @@ BAD = {
     "unknown fitting kind": (lambda p: p.write_text(p.read_text() + '\n[[fittings]]\nstation = "100 m"\n'
                                                     'kind = "butterfly valv"\n'),
                              ["fittings[1].kind", "butterfly_valve_open"]),
-    "unknown material": (lambda p: _edit(p, 'roughness = "0.1 mm"', 'material = "ductile-iron-lined"'),
+    "unknown material": (lambda p: _edit(p, 'material = "ductile-iron-cement-lined"',
+                                         'material = "ductile-iron-lined"'),
                          ["pipe.material", "ductile-iron-cement-lined"]),
     "scenario without flow": (lambda p: p.write_text(p.read_text() + '\n[[scenarios]]\nname = "peak"\n'),
                               ["scenarios[3]", "multiplier"]),

@@ -92,7 +92,7 @@ TODAY = {
     "alignment": "path spacing layer reverse where feature start_station",
     "terrain": "dem vertical_unit method max_gap vertical_accuracy",
     "pipe": "inside_diameter outside_diameter friction roughness hazen_williams_c material "
-            "pressure_rating",
+            "pressure_rating wall_thickness elastic_modulus poisson_ratio wave_speed surge_allowance",
     "cover": "minimum maximum",
     "cover_zones": "path layer minimum maximum minimum_field maximum_field field_unit",
     "crossings": "path bottom_field depth_field size_field size clearance side width_field width "
@@ -102,9 +102,15 @@ TODAY = {
     "valves": "interval grade_change flat_grade flat_run hgl_margin merge_distance",
     "hydraulics": "source_head flow temperature start entrance end boundary end_head "
                   "required_pressure required_at",
-    "scenarios": "name multiplier flow show_egl fire_flow fire_station",
+    "scenarios": "name multiplier flow show_egl fire_flow fire_station hours_per_year",
     "sections": "from to inside_diameter outside_diameter material roughness hazen_williams_c "
-                "pressure_rating",
+                "pressure_rating wall_thickness elastic_modulus poisson_ratio wave_speed "
+                "surge_allowance",
+    "surge": "restraint velocity_change closure_time bulk_modulus",
+    "pressure_elements": "kind station setting head level",
+    "energy": "efficiency tariff currency emission_factor suction_head period discount_rate",
+    "size_candidates": "name inside_diameter outside_diameter material roughness pressure_rating "
+                       "cost",
     "fittings": "station kind k",
     "offtakes": "station flow path flow_field flow_unit layer",
     "checks": "min_pressure max_pressure min_velocity max_velocity",
@@ -125,6 +131,7 @@ README_DEFAULTS = {
     ("valves", "interval"): "500 m", ("valves", "grade_change"): "1 %",
     ("valves", "flat_grade"): "0.1 %", ("valves", "flat_run"): "100 m",
     ("valves", "hgl_margin"): "5 m", ("valves", "merge_distance"): "20 m",
+    ("surge", "restraint"): "anchored", ("energy", "efficiency"): 0.7,
 }
 
 #: A table for every section (two where a section has two shapes or an
@@ -137,7 +144,9 @@ FULL = {
                  "max_gap": "30 m", "vertical_accuracy": "lidar"}],
     "pipe": [{"inside_diameter": "300 mm", "outside_diameter": "320 mm",
               "friction": "hazen-williams", "roughness": "0.1 mm", "hazen_williams_c": 130,
-              "material": "pvc", "pressure_rating": "1.6 MPa"}],
+              "material": "pvc", "pressure_rating": "1.6 MPa", "wall_thickness": "10 mm",
+              "elastic_modulus": "3 GPa", "poisson_ratio": 0.4, "wave_speed": "450 m/s",
+              "surge_allowance": "0.5 MPa"}],
     "cover": [{"minimum": "1.2 m", "maximum": "4 m"}],
     "cover_zones": [{"path": "line.geojson", "layer": "z", "minimum": "1.8 m", "maximum": "5 m",
                      "minimum_field": "a", "maximum_field": "b", "field_unit": "ft"}],
@@ -158,10 +167,24 @@ FULL = {
                    {"source_head": "185 m", "boundary": "two-heads", "end": "tank",
                     "end_head": "150 m"}],  # end_head only with two heads (and no scenarios)
     "scenarios": [{"name": "fire", "multiplier": 1.5, "show_egl": False, "fire_flow": "63 L/s",
-                   "fire_station": "500 m"}, {"name": "peak", "flow": "95 L/s"}],
+                   "fire_station": "500 m", "hours_per_year": "10 h"},
+                  {"name": "peak", "flow": "95 L/s"}],
     "sections": [{"from": "300 m", "to": "580 m", "inside_diameter": "250 mm",
                   "outside_diameter": "274 mm", "roughness": "0.05 mm", "hazen_williams_c": 140,
-                  "pressure_rating": "1 MPa", "material": "hdpe"}],
+                  "pressure_rating": "1 MPa", "material": "hdpe", "wall_thickness": "12 mm",
+                  "elastic_modulus": "1 GPa", "poisson_ratio": 0.46, "wave_speed": "300 m/s",
+                  "surge_allowance": "0.3 MPa"}],
+    "surge": [{"restraint": "expansion-joints", "velocity_change": "1 m/s",
+               "closure_time": "30 s", "bulk_modulus": "2.2 GPa"}],
+    "pressure_elements": [{"kind": "prv", "station": "400 m", "setting": "300 kPa"},
+                          {"kind": "booster", "station": "600 m", "head": "10 m"},
+                          {"kind": "break-tank", "station": "700 m", "level": "150 m"}],
+    "energy": [{"efficiency": "72 %", "tariff": "0.15 / kWh", "currency": "EUR",
+                "emission_factor": "0.4 kg/kWh", "suction_head": "120 m", "period": "30 years",
+                "discount_rate": "5 %"}],
+    "size_candidates": [{"name": "DN250", "inside_diameter": "250 mm",
+                         "outside_diameter": "274 mm", "material": "pvc", "roughness": "0.01 mm",
+                         "pressure_rating": "1 MPa", "cost": "300 / m"}],
     "fittings": [{"station": "100 m", "kind": "gate_valve_open"}, {"station": "200 m", "k": 0.3}],
     "offtakes": [{"station": "250 m", "flow": "10 L/s"},
                  {"path": "line.geojson", "flow_field": "q", "flow_unit": "gpm", "layer": "p"}],
@@ -170,7 +193,8 @@ FULL = {
     "output": [{"dir": "out", "units": "US"}],
 }
 
-ARRAYS = {"cover_zones", "crossings", "scenarios", "sections", "fittings", "offtakes"}
+ARRAYS = {"cover_zones", "crossings", "scenarios", "sections", "fittings", "offtakes",
+          "pressure_elements", "size_candidates"}
 
 
 def validator(**kw):

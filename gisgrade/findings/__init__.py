@@ -68,7 +68,7 @@ class Check:
 REGISTRY: list[Check] = []
 
 #: The modules holding the checks, imported in this order (registration order).
-CHECK_MODULES = ("cover", "pressure", "velocity", "rating", "vapour", "relaxed")
+CHECK_MODULES = ("cover", "pressure", "velocity", "rating", "vapour", "surge", "relaxed")
 
 
 def check(code: str, scope: str = "scenario"):
@@ -96,6 +96,7 @@ class Inputs:
     table: pd.DataFrame
     grades: object = None  #: hydraulics.GradeSet
     relaxations: tuple = ()
+    surge: object = None  #: hydraulics.surge.SurgeSet (None: not screened)
 
     def column(self, name: str, default=np.nan) -> np.ndarray:
         t = self.table
@@ -156,10 +157,11 @@ def table(findings) -> pd.DataFrame:
     return pd.DataFrame(rows, columns=COLUMNS + ["code"])
 
 
-def stage_findings(project, table_, grades=None, relaxations=()) -> pd.DataFrame:
+def stage_findings(project, table_, grades=None, relaxations=(), surge=None) -> pd.DataFrame:
     """The findings stage: every registered check on a run's station table
-    (with the laid pipe), grade set and design relaxations, as a table."""
-    return table(run_checks(Inputs(project, table_, grades, tuple(relaxations))))
+    (with the laid pipe), grade set, design relaxations and surge screening,
+    as a table."""
+    return table(run_checks(Inputs(project, table_, grades, tuple(relaxations), surge)))
 
 
 def _load() -> None:

@@ -33,6 +33,8 @@ class GradeSet:
     density: float  #: kg/m3
     pressure_band: np.ndarray  #: (n,) Pa, +/- the DEM's 95 % band puts on pressure
     cases: pd.DataFrame = field(default_factory=pd.DataFrame)  #: one row per scenario: heads used
+    #: one row per pressure element and scenario: element, kind, station_m, scenario, step_m, flow_m3_s
+    elements: pd.DataFrame = field(default_factory=pd.DataFrame)
 
     def __len__(self) -> int:
         return len(self.names)

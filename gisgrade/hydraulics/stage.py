@@ -70,15 +70,50 @@ def stage_hydraulics(project, table: pd.DataFrame, bends: pd.DataFrame) -> Grade
     # 95 % band sits that much higher or lower: pressure +/- rho g band
     band = table["ground_band_m"].to_numpy() if "ground_band_m" in table else np.zeros(line.n)
     stack = lambda attr: np.stack([getattr(g, attr) for g in lines])  # noqa: E731
+    flow = np.stack([np.append(s.flows, s.flows[-1]) for s in solved])
+    hgl, hgl_up, egl, elements = element_lines(project, table, line, flow, stack("hgl"),
+                                               stack("hgl_upstream"), stack("egl"), names)
     cases = pd.DataFrame([dict(scenario=n, boundary=boundary, inflow_m3_s=float(s.inflow),
                                source_head_m=float(s.head), required_head_m=s.required_head,
                                pump_head_m=s.pump_head, end_head_m=s.end_head)
                           for n, s in zip(names, solved)])
     return GradeSet(
         names=tuple(names), station=line.station, axis=line.axis,
-        flow=np.stack([np.append(s.flows, s.flows[-1]) for s in solved]),
-        velocity=stack("velocity"), hgl=stack("hgl"), egl=stack("egl"),
-        hgl_upstream=stack("hgl_upstream"), density=line.density,
-        pressure_band=line.density * G * np.broadcast_to(band, (line.n,)), cases=cases,
+        flow=flow, velocity=stack("velocity"), hgl=hgl, egl=egl, hgl_upstream=hgl_up,
+        density=line.density, pressure_band=line.density * G * np.broadcast_to(band, (line.n,)),
+        cases=cases, elements=elements,
     )
+
+
+def project_elements(project, table: pd.DataFrame) -> list:
+    """The project's ``[[pressure_elements]]`` as :class:`~.elements.Element`
+    records on the table's stations (a break tank's level defaults to the ground)."""
+    from ..arrays import station_index
+    from .elements import Element
+
+    station = table["station_m"].to_numpy(dtype=float)
+    out = []
+    for e in project.pressure_elements:
+        i = int(station_index(station, e.station, f"{e.key}.station")[0])
+        level = e.level
+        if e.kind == "break-tank" and level is None:
+            level = float(table["ground_m"].to_numpy(dtype=float)[i])
+        out.append(Element(e.kind, i, setting=e.setting, head=e.head, level=level))
+    return out
+
+
+def element_lines(project, table, line, flow, hgl, hgl_up, egl, names):
+    """The grade arrays with the project's pressure elements applied, and one
+    row per element and scenario: ``element, kind, station_m, scenario,
+    step_m, flow_m3_s`` (the head each adds; negative: taken)."""
+    from .elements import apply_elements
+
+    elements = project_elements(project, table)
+    if not elements:
+        return hgl, hgl_up, egl, pd.DataFrame()
+    applied = apply_elements(elements, line.axis, hgl, hgl_up, egl, flow.any(axis=1), line.density)
+    rows = [dict(element=m, kind=e.kind, station_m=float(line.station[e.index]), scenario=name,
+                 step_m=float(applied.step[m, k]), flow_m3_s=float(flow[k, e.index]))
+            for m, e in enumerate(elements) for k, name in enumerate(names)]
+    return applied.hgl, applied.hgl_upstream, applied.egl, pd.DataFrame(rows)
 

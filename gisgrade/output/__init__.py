@@ -37,7 +37,7 @@ WRITERS: list[Writer] = []
 
 #: The modules holding the writers, imported in this order.
 WRITER_MODULES = ("profile_csv", "gradelines_csv", "findings_csv", "fittings_csv", "valves_csv",
-                  "layers", "plot", "summary")
+                  "surge_csv", "layers", "plot", "summary")
 
 
 def writer(*files: str, applies: Callable = lambda result: True):

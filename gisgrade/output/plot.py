@@ -24,6 +24,7 @@ from matplotlib.ticker import FuncFormatter
 from ..cautions import SHORT
 from ..display import ATMOSPHERE, FT, Display
 from . import writer
+from .surge_plot import draw_surge
 
 #: Line styles of our own choosing; scenario lines cycle through SCENARIO_COLOURS.
 GROUND = dict(color="#7a5c3a", lw=1.2)
@@ -95,6 +96,7 @@ def profile_figure(result, display: Display | None = None) -> Figure:
     _crossings_and_bends(ax, result, s, k)
     if hydraulic:
         _grade_lines(ax, axp, result, s, k, d)
+        draw_surge(axp, result, s, lambda v: d.value(v, "pressure"))
     ax.set_ylabel(f"Elevation ({zunit})")
     axp.set_xlabel(f"Station ({d.station_name()})")
     if d.us:  # ticks at round hundreds of feet, labelled 12+00

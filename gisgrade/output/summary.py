@@ -10,6 +10,7 @@ from .. import __version__
 from ..cautions import CAUTIONS
 from ..display import Display
 from . import writer
+from .operations_summary import operations_summary, operations_text
 
 #: A change of grade at a joint larger than this (deg) counts as a grade break.
 GRADE_BREAK_DEG = 0.01
@@ -102,6 +103,7 @@ def summarize(result) -> dict:
             if case.get(key) is not None and np.isfinite(case[key]):
                 row[key] = float(case[key])
         out["scenarios"].append(row)
+    out.update(operations_summary(result))
     return out
 
 
@@ -171,6 +173,7 @@ def summary_text(summary: dict) -> str:
             lines.append(f"  {sc['scenario']}: flow solved between source head "
                          f"{d.text(sc['source_head_m'], 'head')} and end head "
                          f"{d.text(sc['end_head_m'], 'head')}")
+    lines += operations_text(summary, d)
     if "excavation_m3" in summary:
         lines.append(f"earthwork: trench {d.text(summary['trench_volume_m3'], 'volume')}, of which "
                      f"{d.text(summary['excavation_m3'], 'volume', 1)} below the minimum-cover line; "

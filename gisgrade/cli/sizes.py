@@ -1,0 +1,87 @@
+"""``gisgrade sizes``: the whole job per candidate pipe size, compared."""
+from __future__ import annotations
+
+import os
+import shutil
+import tempfile
+from pathlib import Path
+
+import click
+
+from . import caution_help, setup_logging, verbosity
+from .common import guarded
+
+#: The files the command writes.
+FILES = ("sizes.csv", "sizes.png", "sizes.txt")
+
+
+def run_sizes(project_path, candidates_text, outdir, echo=lambda s: None):
+    """Load, run every candidate, compare and write :data:`FILES` into
+    ``outdir`` all at once or not at all; returns the verdict lines."""
+    from ..cautions import CAUTIONS
+    from ..errors import InputError
+    from ..hydraulics.surge import SCREENING
+    from ..pipeline import compute
+    from ..project import load
+    from ..result import resolve_outdir
+    from ..sizes import (candidate_project, candidates_from_project, candidates_from_text,
+                         compare, comparison_figure)
+
+    project = load(project_path)
+    out = resolve_outdir(project, outdir)
+    if candidates_text is not None:
+        candidates = candidates_from_text(project, candidates_text)
+    elif project.size_candidates:
+        candidates = candidates_from_project(project)
+    else:
+        raise InputError(f"{project.path.name}: no candidates: give --candidates \"200 mm, 250 mm\" "
+                         "or [[size_candidates]] tables")
+    if out.exists() and not out.is_dir():
+        raise InputError(f"output folder {out} is a file; give -o a folder")
+    results = []
+    for c in candidates:
+        echo(f"candidate {c.name} ...")
+        results.append(compute(candidate_project(project, c)))
+    table, lines = compare(project, candidates, results)
+    notes = ([f"[[sections]] of the project are not used: each candidate is the pipe along the "
+              f"whole line"] if project.sections else [])
+    text = "\n".join(lines + notes + [SCREENING, "CAUTION: " + CAUTIONS]) + "\n"
+    out.parent.mkdir(parents=True, exist_ok=True)
+    tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}-", dir=out.parent))
+    try:
+        table.to_csv(tmp / "sizes.csv", index=False, float_format="%.6f")
+        comparison_figure(table, project, lines).savefig(tmp / "sizes.png", dpi=120)
+        (tmp / "sizes.txt").write_text(text)
+        out.mkdir(exist_ok=True)
+        for name in FILES:
+            os.replace(tmp / name, out / name)
+    finally:
+        shutil.rmtree(tmp, ignore_errors=True)
+    return lines + notes, out
+
+
+@click.command("sizes", short_help="run the whole job per candidate pipe size and compare them",
+               help=caution_help(
+                   "Run PROJECT once per candidate pipe size (inside diameters given with "
+                   "--candidates, each with the project pipe's wall, or the project's "
+                   "[[size_candidates]] tables) and write sizes.csv (one row per candidate and "
+                   "scenario: head loss, pressures, velocity, surge, pump head, energy and "
+                   "whether every check passes), sizes.png and sizes.txt (which size carries "
+                   "each scenario; with costs, the cheapest that passes).",
+                   'gisgrade sizes project.toml --candidates "250 mm, 300 mm, 400 mm" -o sizes'))
+@click.argument("project", type=click.Path(path_type=Path))
+@click.option("--candidates", default=None,
+              help='inside diameters, e.g. "200 mm, 250 mm, 300 mm" (default: [[size_candidates]])')
+@click.option("-o", "--outdir", type=click.Path(path_type=Path), default=None,
+              help="output folder (default: [output] dir, else gisgrade-out beside PROJECT)")
+@verbosity
+def command(project, candidates, outdir, verbose, quiet):
+    verbose, quiet = setup_logging(verbose, quiet)
+    echo = (lambda s: None) if quiet else (lambda s: click.echo(s, err=True))
+    done, status = guarded(run_sizes, project, candidates, outdir, echo)
+    if status == 0 and not quiet:
+        lines, out = done
+        for line in lines:
+            click.echo(line)
+        click.echo(f"outputs written to {out}")
+    return status

@@ -1,0 +1,114 @@
+"""``gisgrade sizes``: one run per candidate size, compared.
+
+Head loss is checked against Darcy-Weisbach with the ``fluids`` package's
+friction factor (Clamond's Colebrook solution) and IAPWS-95 water; the
+present-worth factor against the engineering-economy formula
+(1 - (1 + i)^-n) / i; the rest is the command's contract (columns, all or
+nothing, exit status 2 on bad input) and the demo's story as
+sample_data/README.md tells it.
+"""
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from conftest import flat_site
+from gisgrade.cli import main
+from gisgrade.sizes import COLUMNS
+
+G = 9.80665
+#: 200 m of source head over flat ground at 100 m: about 980 kPa, within this
+CHECKS = '\n[checks]\nmax_pressure = "1.2 MPa"\n'
+
+COSTS = """
+[energy]
+tariff = "0.2 / kWh"
+currency = "EUR"
+period = "30 years"
+discount_rate = "5 %"
+
+[[size_candidates]]
+name = "small"
+inside_diameter = "150 mm"
+outside_diameter = "170 mm"
+cost = "200 / m"
+
+[[size_candidates]]
+name = "medium"
+inside_diameter = "250 mm"
+cost = "300 / m"
+
+[[size_candidates]]
+name = "large"
+inside_diameter = "400 mm"
+material = "pvc"
+cost = "500 / m"
+"""
+
+
+def test_candidates_from_the_command_line(tmp_path, capsys):
+    import fluids
+    from iapws import IAPWS95
+
+    p = flat_site(tmp_path, CHECKS)
+    out = tmp_path / "sizes"
+    assert main(["sizes", str(p), "--candidates", "200 mm, 300 mm, 400 mm", "-o", str(out)]) == 0
+    table = pd.read_csv(out / "sizes.csv")
+    assert list(table.columns[:len(COLUMNS)]) == COLUMNS
+    assert len(table) == 3 * 2  # candidates x (design, static)
+    assert {p.name for p in out.iterdir()} == {"sizes.csv", "sizes.png", "sizes.txt"}
+    w = IAPWS95(T=288.15, P=0.101325)
+    design = table[table["scenario"] == "design"]
+    for d, loss in zip(design["inside_diameter_m"], design["head_loss_m"]):
+        v = 0.05 / (np.pi * d ** 2 / 4)
+        f = fluids.friction.friction_factor(Re=w.rho * v * d / w.mu, eD=0.1e-3 / d)
+        assert loss == pytest.approx(f * 1000.0 / d * v ** 2 / (2 * G), rel=2e-3)
+    assert np.all(np.diff(design["head_loss_m"]) < 0)  # a bigger pipe loses less head
+    text = (out / "sizes.txt").read_text()
+    assert "screening" in text and "licensed professional engineer" in text
+    assert "smallest size that passes" in capsys.readouterr().out
+
+
+def test_size_candidates_with_costs_name_the_cheapest_that_passes(tmp_path):
+    p = flat_site(tmp_path, COSTS + CHECKS)
+    # 140 kPa floor at 200 m source head over flat ground at 100 m: every size
+    # passes; nothing is pumped, so the life-cycle cost is the capital cost,
+    # cost per metre x the pipe's 3D length
+    p.write_text(p.read_text().replace('[cover]', 'pressure_rating = "1.6 MPa"\n\n[cover]'))
+    out = tmp_path / "sizes"
+    assert main(["sizes", str(p), "-o", str(out), "-q"]) == 0
+    table = pd.read_csv(out / "sizes.csv")
+    assert {"capital_cost", "life_cycle_cost"} <= set(table.columns)
+    first = table.drop_duplicates("candidate").set_index("candidate")
+    assert first.loc["medium", "capital_cost"] == pytest.approx(300 * 1000.0, rel=1e-3)
+    assert first.loc["large", "capital_cost"] == pytest.approx(500 * 1000.0, rel=1e-3)
+    text = (out / "sizes.txt").read_text()
+    passing = table.groupby("candidate")["passes"].all()
+    best = min((n for n in passing.index if passing[n]), key=lambda n: first.loc[n, "life_cycle_cost"])
+    assert f"cheapest size that passes every check, by life-cycle cost" in text
+    assert f": {best} (" in text
+
+
+def test_bad_candidates_exit_2_and_write_nothing(tmp_path, capsys):
+    p = flat_site(tmp_path)
+    out = tmp_path / "sizes"
+    assert main(["sizes", str(p), "--candidates", "200, 300 mm", "-o", str(out)]) == 2
+    assert "--candidates" in capsys.readouterr().err
+    assert main(["sizes", str(p), "-o", str(out)]) == 2  # no candidates at all
+    assert "size_candidates" in capsys.readouterr().err
+    assert not out.exists()
+    assert not [q for q in tmp_path.iterdir() if q.name.startswith(".")]
+
+
+def test_the_demo_story_dn400_carries_the_fire_flow(demo_copy, tmp_path, capsys):
+    # sample_data/README.md: DN300 fails peak hour and the fire flow, DN350
+    # carries peak hour but not the fire flow, DN400 carries every scenario.
+    out = tmp_path / "sizes"
+    assert main(["sizes", str(demo_copy), "-o", str(out), "-q"]) == 0
+    table = pd.read_csv(out / "sizes.csv")
+    ok = table.set_index(["candidate", "scenario"])["passes"]
+    assert not ok["DN300", "peak hour"] and not ok["DN300", "max day + fire"]
+    assert ok["DN350", "peak hour"] and not ok["DN350", "max day + fire"]
+    assert table[table["candidate"] == "DN400"]["passes"].all()
+    assert "max day + fire: carried within every check by DN400" in (out / "sizes.txt").read_text()
