@@ -27,9 +27,10 @@ __all__ = ["write_all", "writer", "output_names", "WRITERS"]
 
 @dataclass(frozen=True)
 class Writer:
-    files: tuple  #: the file names it writes
+    files: tuple  #: the file (and folder) names it writes
     write: Callable  #: ``write(result, folder, display)``
     applies: Callable  #: ``applies(result) -> bool``
+    figure: bool = False  #: draws figures (the costly part): a batch run may skip it
 
 
 #: Every registered writer, in registration order.
@@ -37,13 +38,14 @@ WRITERS: list[Writer] = []
 
 #: The modules holding the writers, imported in this order.
 WRITER_MODULES = ("profile_csv", "gradelines_csv", "findings_csv", "fittings_csv", "valves_csv",
-                  "layers", "plot", "summary")
+                  "layers", "geojson", "kml", "sld", "plot", "summary")
 
 
-def writer(*files: str, applies: Callable = lambda result: True):
-    """Register the decorated ``write(result, folder, display)`` as the writer of ``files``."""
+def writer(*files: str, applies: Callable = lambda result: True, figure: bool = False):
+    """Register the decorated ``write(result, folder, display)`` as the writer of ``files``
+    (a name may be a folder it fills, e.g. ``sheets``); ``figure``: it draws figures."""
     def register(fn):
-        WRITERS[:] = [w for w in WRITERS if w.files != files] + [Writer(files, fn, applies)]
+        WRITERS[:] = [w for w in WRITERS if w.files != files] + [Writer(files, fn, applies, figure)]
         return fn
 
     return register
@@ -97,12 +99,16 @@ def write_all(result, outdir) -> list[Path]:
         outdir.mkdir(exist_ok=True)
         written = []
         for f in sorted(tmp.iterdir()):
+            if f.is_dir() and (outdir / f.name).is_dir():  # a listed folder (sheets/): replaced whole
+                shutil.rmtree(outdir / f.name)
             os.replace(f, outdir / f.name)
             written.append(outdir / f.name)
         for name in names:
             stale = outdir / name
             if stale not in written and stale.is_file():
                 stale.unlink()
+            elif stale not in written and stale.is_dir():
+                shutil.rmtree(stale)
         return written
     finally:
         shutil.rmtree(tmp, ignore_errors=True)
