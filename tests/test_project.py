@@ -125,8 +125,7 @@ README_DEFAULTS = {
     ("valves", "interval"): "500 m", ("valves", "grade_change"): "1 %",
     ("valves", "flat_grade"): "0.1 %", ("valves", "flat_run"): "100 m",
     ("valves", "hgl_margin"): "5 m", ("valves", "merge_distance"): "20 m",
-    ("output", "units"): "SI", ("output", "sheet_length"): "1000 m",
-    ("output", "sheet_overlap"): "50 m", ("output", "paper"): "A3",
+    ("output", "units"): "SI", ("output", "sheet_overlap"): "50 m", ("output", "paper"): "A3",
 }
 
 #: A table for every section (two where a section has two shapes or an

@@ -38,7 +38,8 @@ WRITERS: list[Writer] = []
 
 #: The modules holding the writers, imported in this order.
 WRITER_MODULES = ("profile_csv", "gradelines_csv", "findings_csv", "fittings_csv", "valves_csv",
-                  "layers", "geojson", "kml", "sld", "plot", "summary")
+                  "layers", "geojson", "kml", "sld", "plot", "sheets", "mapfig", "summary",
+                  "report")
 
 
 def writer(*files: str, applies: Callable = lambda result: True, figure: bool = False):

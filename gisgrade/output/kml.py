@@ -64,9 +64,12 @@ def _icon_style(doc, sid, sym):
     _e(_e(st, "LabelStyle"), "scale", "0.8")
 
 
-def _placemark(folder, name, style, geometry, description=None):
+def _placemark(folder, name, style, geometry, description=None, visible=True):
+    """A Placemark, its children in the order of the KML 2.2 schema."""
     pm = _e(folder, "Placemark")
     _e(pm, "name", name)
+    if not visible:
+        _e(pm, "visibility", 0)
     if description:
         _e(pm, "description", description)
     _e(pm, "styleUrl", f"#{style}")
@@ -101,9 +104,7 @@ def _pipe_folder(doc, title, frame, scale, display, visible=True):
         desc = (f"{display.station([s[0]])[0]} to {display.station([s[1]])[0]}: pressure "
                 f"{display.text(p.min(), 'pressure')} to {display.text(p.max(), 'pressure')} "
                 f"({titles[cls]})")
-        pm = _placemark(f, titles[cls], f"p{scale.names.index(cls)}", _LineProxy(xy), desc)
-        if not visible:
-            _e(pm, "visibility", 0)
+        _placemark(f, titles[cls], f"p{scale.names.index(cls)}", _LineProxy(xy), desc, visible)
     return f
 
 

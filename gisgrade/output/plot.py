@@ -424,7 +424,11 @@ def profile_figure(result, display: Display | None = None) -> Figure:
     legend(ax, handles)
     ax.set_xlim(s[0], s[-1])
     if rows:
-        _crossing_details(fig, outer[1], result, d, rows)
+        order = np.argsort(c.station, kind="stable")
+        crossing_details(fig, outer[1], result, d, order[:rows * DETAILS_PER_ROW], DETAILS_PER_ROW)
+        if len(order) > rows * DETAILS_PER_ROW:
+            fig.text(0.99, 0.005, f"{len(order) - rows * DETAILS_PER_ROW} more crossings: see "
+                     "the profile sheets", fontsize=7, ha="right", color="#555555")
     fig.canvas.draw()
     # x is in metres; in US display y is in feet, so convert y back to metres.
     ve = vertical_exaggeration(ax) / (FT if d.us else 1.0)
@@ -435,19 +439,19 @@ def profile_figure(result, display: Display | None = None) -> Figure:
     return fig
 
 
-def _crossing_details(fig, cell, result, d: Display, rows: int) -> None:
-    """A close-up of each crossing in station order, at a modest exaggeration,
-    the required clearance drawn over the feature's footprint only."""
+def crossing_details(fig, cell, result, d: Display, shown, per_row: int, rows=None) -> None:
+    """A close-up of each crossing of ``shown`` (indices), ``per_row`` to a
+    row of ``cell`` (``rows`` of them, default as many as needed), at a
+    modest exaggeration, the required clearance drawn over the footprint only."""
     c, t = result.crossings, result.table
     s = t["station_m"].to_numpy()
     k = d.factor("elevation")
-    order = np.argsort(c.station, kind="stable")
-    shown = order[:rows * DETAILS_PER_ROW]
     reach = c.reach()
     spacing = float(np.median(np.diff(s))) if len(s) > 1 else 10.0
-    sub = cell.subgridspec(rows, DETAILS_PER_ROW, wspace=0.4, hspace=0.9)
-    for r in range(rows):
-        for n, i in enumerate(shown[r * DETAILS_PER_ROW:(r + 1) * DETAILS_PER_ROW]):
+    rows = rows or int(np.ceil(len(shown) / per_row))
+    sub = cell.subgridspec(rows, per_row, wspace=0.4, hspace=0.9)
+    for r in range(int(np.ceil(len(shown) / per_row))):
+        for n, i in enumerate(shown[r * per_row:(r + 1) * per_row]):
             ax = fig.add_subplot(sub[r, n])
             half = max(30.0, 4 * reach[i], 3 * spacing)
             view = (s >= c.station[i] - half - spacing) & (s <= c.station[i] + half + spacing)
@@ -478,9 +482,6 @@ def _crossing_details(fig, cell, result, d: Display, rows: int) -> None:
             if n == 0:
                 ax.set_ylabel(d.label("elevation", "Elevation"), fontsize=6.5)
             ax.grid(True, lw=0.3, color="#cccccc")
-    if len(order) > len(shown):
-        fig.text(0.99, 0.005, f"{len(order) - len(shown)} more crossings: see the profile sheets",
-                 fontsize=7, ha="right", color="#555555")
 
 
 def plot_profile(result, path: Path, display: Display | None = None) -> None:
