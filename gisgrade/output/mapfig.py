@@ -188,7 +188,7 @@ def map_figure(result, display: Display | None = None) -> Figure:
         present = set(pp["pressure_class"])
         for name, title, colour in zip(scale.names, scale.titles(d), scale.colours):
             handles.append(Patch(facecolor=colour, edgecolor="#555555" if name in present else "none",
-                                 label=title + ("" if name in present else " (nowhere)")))
+                                 label=title + ("" if name in present else ": nowhere on this line")))
     _marks(ax, layers, handles)
     for i, word in ((0, "start"), (-1, "end")):
         ax.annotate(f"{word} {d.station([t['station_m'].iloc[i]], 0)[0]}", xy[i], xytext=(6, 6),

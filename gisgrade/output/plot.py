@@ -219,15 +219,16 @@ def _surge(ax, result, d, s, w, colours) -> list:
     return handles
 
 
-def _labels(ax, x, z, texts, lo, hi, colour="#1f1f1f", top=0.90):
+def _labels(ax, x, z, texts, lo, hi, colour="#1f1f1f", top=0.90, turn=0.8):
     """Labels of features at (x, z), staggered in levels near the top of
-    ``ax`` with a leader to each feature, so neighbours never collide."""
+    ``ax`` with a leader to each feature, so neighbours never collide; those
+    beyond ``turn`` of the way along read leftwards."""
     order = np.argsort(x)
     levels = stagger(np.asarray(x, float)[order], hi - lo)
     for j, lev in zip(order, levels):
         ax.annotate(texts[j], (x[j], z[j]), xytext=(x[j], top - 0.07 * lev),
                     textcoords=ax.get_xaxis_transform(), fontsize=6.5, color=colour,
-                    ha="left" if x[j] < lo + 0.8 * (hi - lo) else "right", va="center",
+                    ha="left" if x[j] < lo + turn * (hi - lo) else "right", va="center",
                     arrowprops=dict(arrowstyle="-", lw=0.4, color="#777777"),
                     bbox=dict(boxstyle="square,pad=0.1", fc="white", ec="none", alpha=0.8),
                     annotation_clip=True, zorder=9)
@@ -261,7 +262,7 @@ def _crossings(ax, result, d, lo, hi, detail) -> list:
         texts = [f"{n} {d.station([st], 2)[0]}: clearance {d.text(a, 'length')} "
                  f"(required {d.text(r, 'length')})" for n, st, a, r in
                  zip(texts, c.station[inside], ach, c.clearance[inside])]
-    _labels(ax, c.station[inside], c.bottom[inside] * k, texts, lo, hi)
+    _labels(ax, c.station[inside], c.bottom[inside] * k, texts, lo, hi, turn=0.55 if detail else 0.8)
     return [Line2D([], [], marker="v", ls="", color=OUTLINE, ms=4, label="crossed feature (bottom)"),
             Patch(facecolor="none", edgecolor="#d55e00", ls="--", label="required clearance")]
 
@@ -306,7 +307,7 @@ def _points(ax, result, d, lo, hi, detail) -> list:
         if detail and inside.any():
             _labels(ax, st[inside], at(st[inside], "ground_m"),
                     [f"offtake {d.text(v, 'flow')}" for v in q[q > 0][inside]], lo, hi,
-                    colour="#0072b2", top=0.62)
+                    colour="#0072b2", top=0.62, turn=0.7)
     return handles
 
 

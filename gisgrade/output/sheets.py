@@ -49,6 +49,8 @@ SI_VERTICAL = (10, 20, 25, 50, 100, 200, 250, 500, 1000, 2000, 2500, 5000, 10000
 #: US engineer's scales, 1 in = n ft (*common practice*).
 US_HORIZONTAL = (10, 20, 30, 40, 50, 60, 100, 200, 300, 400, 500, 1000, 2000, 5000)
 US_VERTICAL = (1, 2, 4, 5, 10, 20, 40, 50, 100, 200, 500, 1000)
+#: Most profile sheets a run draws (a guard against a mistyped sheet_length).
+MAX_SHEETS = 200
 #: Crossing close-ups per page (rows, per row).
 DETAIL_ROWS, DETAIL_COLUMNS = 3, 4
 
@@ -157,18 +159,19 @@ class Layout:
         return [left / self.width, bottom / self.height, width / self.width, height / self.height]
 
 
-def elevation_range(result, lo, hi) -> tuple[float, float]:
-    """Lowest and highest elevation (m) drawn between stations lo and hi."""
+def elevation_range(result, lo, hi, lines: bool = False) -> tuple[float, float]:
+    """Lowest and highest elevation (m) of the ground, pipe and crossings
+    between stations lo and hi (with ``lines``: the grade lines too)."""
     t, g = result.table, result.grades
     s = t["station_m"].to_numpy()
     w = (s >= lo) & (s <= hi)
     band = t["ground_band_m"].to_numpy()[w] if "ground_band_m" in t else 0.0
     ground = t["ground_m"].to_numpy()[w]
     parts = [ground + band, ground - band, t["invert_m"].to_numpy()[w]]
-    if g is not None:
-        parts += [g.hgl[:, w], g.egl[:, w]]
     surge = getattr(result, "surge", None)
-    if surge is not None and getattr(surge, "head_max", None) is not None:
+    if lines and g is not None:
+        parts += [g.hgl[:, w], g.egl[:, w]]
+    if lines and surge is not None and getattr(surge, "head_max", None) is not None:
         parts += [np.asarray(surge.head_max)[:, w], np.asarray(surge.head_min)[:, w]]
     c = result.crossings
     inside = (c.station >= lo) & (c.station <= hi)
@@ -179,12 +182,35 @@ def elevation_range(result, lo, hi) -> tuple[float, float]:
 
 
 def sheet_scales(result, ranges, layout: Layout, d: Display) -> Scales:
-    """One horizontal and one vertical scale for every sheet."""
+    """One horizontal and one vertical scale for every sheet: the vertical
+    one fits the ground, pipe and crossings of the tallest sheet with room
+    above for labels (grade lines beyond it are noted at the sheet's top)."""
     longest = max(c - a for a, _, c in ranges)
     h = pick_scale(longest, layout.axes_width, d.us, False)
     tallest = max(np.subtract(*elevation_range(result, a, c)[::-1]) for a, _, c in ranges)
-    v = pick_scale(tallest * 1.12 + 0.5, layout.profile_height, d.us, True)
+    v = pick_scale(tallest * HEADROOM + 1.0, layout.profile_height, d.us, True)
     return Scales(h, min(v, h), d.us)
+
+
+#: The drawn elevation range over the ground, pipe and crossings' (labels above them).
+HEADROOM = 1.6
+
+
+def _lines_above(ax, result, d: Display, lo, hi) -> list[str]:
+    """The grade lines that run above the sheet, with their heads at its ends."""
+    g = result.grades
+    if g is None:
+        return []
+    s = result.table["station_m"].to_numpy()
+    k = d.factor("elevation")
+    top = ax.get_ylim()[1]
+    notes = []
+    for i, name in enumerate(g.names):
+        a, b = np.interp([lo, hi], s, g.hgl[i]) * k
+        if min(a, b) > top:
+            notes.append(f"{'static HGL' if name == 'static' else 'HGL ' + name}: "
+                         f"{d.number(a / k, 'elevation')} to {d.text(b / k, 'elevation')}")
+    return notes
 
 
 def major_interval(scales: Scales, d: Display) -> float:
@@ -225,7 +251,7 @@ def _data_band(ax, result, d: Display, lo, hi, interval):
             va="center", rotation=90)
 
 
-def _title_block(fig, layout: Layout, result, d: Display, scales: Scales, page: str,
+def _title_block(fig, layout: Layout, result, d: Display, scales: Scales | None, page: str,
                  what: str, paper: str) -> None:
     """The title block: a ruled strip along the foot of the sheet."""
     from .layers import result_name
@@ -245,13 +271,17 @@ def _title_block(fig, layout: Layout, result, d: Display, scales: Scales, page: 
     ax.text(cells[0] + pad, 0.36, what, fontsize=8.5, va="center")
     ax.text(cells[0] + pad, 0.13, page, fontsize=11, weight="bold", va="center")
     # scales and units, with a graphic scale that stays true if the print is resized
-    words = scales.words().replace(", vertical", "\nvertical").replace(" (", "\n(")
-    ax.text(cells[1] + pad, 0.92, words + f"\nat 100 % on {paper} landscape", fontsize=7.5,
-            va="top", linespacing=1.35)
+    if scales is not None:
+        words = scales.words().replace(", vertical", "\nvertical").replace(" (", "\n(")
+        ax.text(cells[1] + pad, 0.92, words + f"\nat 100 % on {paper} landscape", fontsize=7.5,
+                va="top", linespacing=1.35)
+        _scale_bar(ax, layout, scales, d, cells[1] + pad, 0.30)
+    else:
+        ax.text(cells[1] + pad, 0.92, "close-ups: not to scale\n(elevations exaggerated)",
+                fontsize=7.5, va="top", linespacing=1.35)
     ax.text(cells[1] + pad, 0.12, f"units: elevation {d.unit('elevation')}, pressure "
             f"{d.unit('pressure')}, flow {d.unit('flow')}; stations {d.station_name()}",
             fontsize=6.5, va="center")
-    _scale_bar(ax, layout, scales, d, cells[1] + pad, 0.30)
     # scenarios
     g = result.grades
     ax.text(cells[2] + pad, 0.90, "Scenarios", fontsize=8, weight="bold", va="center")
@@ -287,13 +317,17 @@ def _scale_bar(ax, layout: Layout, scales: Scales, d: Display, x0: float, y: flo
     ax.text(x0 + frac, y + 0.08, f"{length:g} {unit}", fontsize=6, ha="center")
 
 
-def _findings_list(ax, result, d: Display, lo, hi) -> None:
-    """The findings whose range touches this sheet, most serious first."""
+def _findings_list(ax, result, d: Display, lo, hi, above=()) -> None:
+    """The grade lines above the sheet, and the findings whose range touches
+    this sheet, most serious first."""
     from ..findings import by_severity, messages
 
     ax.set_axis_off()
+    head = ("Above this sheet (not drawn):\n" + "\n".join(f"  {a}" for a in above) + "\n\n"
+            if above else "")
     f = result.findings
     if f is None:
+        ax.text(0, 1, head, fontsize=6.2, va="top", transform=ax.transAxes)
         return
     f = by_severity(f[(f["to_station_m"] >= lo) & (f["from_station_m"] <= hi)])
     lines = [f"{r.severity.upper()} {r.scenario}: {m}" for r, m in
@@ -301,7 +335,7 @@ def _findings_list(ax, result, d: Display, lo, hi) -> None:
     text = "\n".join(textwrap.fill(x, 46, subsequent_indent="  ") for x in lines[:8])
     if len(lines) > 8:
         text += f"\n... {len(lines) - 8} more in findings.csv"
-    ax.text(0, 1, "Findings on this sheet\n" + (text or "none"), fontsize=6.2, va="top",
+    ax.text(0, 1, head + "Findings on this sheet\n" + (text or "none"), fontsize=6.2, va="top",
             linespacing=1.25, transform=ax.transAxes)
 
 
@@ -317,12 +351,13 @@ def sheet_figure(result, d: Display, scales: Scales, layout: Layout, sheet, numb
     ax.set_xlim(start, start + span_m)
     zlo, zhi = elevation_range(result, start, end)
     span_z = layout.profile_height * INCH * scales.vertical  # m of elevation on the axes
-    mid = (zlo + zhi) / 2
     step = 1.0 if not d.us else 5 * FT
-    z0 = np.floor((mid - span_z / 2) / step) * step
-    if z0 > zlo:
-        z0 = np.floor(zlo / step) * step
+    lines_lo, lines_hi = elevation_range(result, start, end, lines=True)
+    z0 = np.floor((zlo - 0.1 * span_z) / step) * step  # ground low on the sheet, room above
+    if lines_hi - lines_lo < 0.9 * span_z:  # the grade lines fit too: centre everything
+        z0 = np.floor(((lines_lo + lines_hi) / 2 - span_z / 2) / step) * step
     ax.set_ylim(z0 * d.factor("elevation"), (z0 + span_z) * d.factor("elevation"))
+    above = _lines_above(ax, result, d, start, end)
     ax.tick_params(labelbottom=False)
     if own > start:  # the overlap repeated from the sheet before, and the match line
         ax.axvspan(start, own, color="#000000", alpha=0.05, lw=0)
@@ -359,13 +394,13 @@ def sheet_figure(result, d: Display, scales: Scales, layout: Layout, sheet, numb
     lst = fig.add_axes(layout.rect(layout.width - layout.margin - layout.key_width + 0.15,
                                    bottom - layout.band_height - 0.3, layout.key_width - 0.15,
                                    layout.strip_height + layout.band_height + 0.3))
-    _findings_list(lst, result, d, start, end)
+    _findings_list(lst, result, d, start, end, above)
     what = f"stations {d.station([start])[0]} to {d.station([end])[0]}"
     _title_block(fig, layout, result, d, scales, f"Sheet {number} of {total}", what, paper)
     return fig
 
 
-def crossing_pages(result, d: Display, layout: Layout, scales: Scales, first: int, total: int,
+def crossing_pages(result, d: Display, layout: Layout, first: int, total: int,
                    paper) -> list[Figure]:
     """Pages of crossing close-ups after the sheets, in station order."""
     c = result.crossings
@@ -382,7 +417,7 @@ def crossing_pages(result, d: Display, layout: Layout, scales: Scales, first: in
         crossing_details(fig, grid[0], result, d, shown, DETAIL_COLUMNS, DETAIL_ROWS)
         what = (f"crossing close-ups {d.station([c.station[shown[0]]])[0]} to "
                 f"{d.station([c.station[shown[-1]]])[0]}")
-        _title_block(fig, layout, result, d, scales, f"Sheet {first + p} of {total}", what, paper)
+        _title_block(fig, layout, result, d, None, f"Sheet {first + p} of {total}", what, paper)
         pages.append(fig)
     return pages
 
@@ -406,12 +441,17 @@ def sheets(result, d: Display) -> list[Figure]:
     s = result.table["station_m"].to_numpy()
     length = out.sheet_length or auto_sheet_length(layout, d, out.sheet_overlap)
     ranges = sheet_ranges(float(s[0]), float(s[-1]), length, out.sheet_overlap)
+    if len(ranges) > MAX_SHEETS:
+        from ..errors import InputError
+
+        raise InputError(f"output.sheet_length = {d.text(length, 'length')} gives {len(ranges)} "
+                         f"profile sheets (at most {MAX_SHEETS}); give a longer sheet_length")
     scales = sheet_scales(result, ranges, layout, d)
     n_cross = int(np.ceil(len(result.crossings) / (DETAIL_ROWS * DETAIL_COLUMNS)))
     total = len(ranges) + n_cross
     figs = [sheet_figure(result, d, scales, layout, r, i + 1, total, out.paper)
             for i, r in enumerate(ranges)]
-    return figs + crossing_pages(result, d, layout, scales, len(ranges) + 1, total, out.paper)
+    return figs + crossing_pages(result, d, layout, len(ranges) + 1, total, out.paper)
 
 
 @writer("sheets", applies=has_pipe, figure=True)
@@ -423,4 +463,5 @@ def write_sheets(result, folder: Path, display: Display) -> None:
                                                         "Creator": f"gisgrade {__version__}"}) as pdf:
         for i, fig in enumerate(figs):
             pdf.savefig(fig)
-            fig.savefig(out / f"sheet_{i + 1:02d}.svg")
+            with matplotlib.rc_context({"svg.fonttype": "none"}):  # SVG text stays text: searchable
+                fig.savefig(out / f"sheet_{i + 1:02d}.svg")
