@@ -64,6 +64,10 @@ def test_every_layer_opens_with_its_crs_geometry_and_plain_fields(demo_si):
     assert len(per) == len(pp) * 4 and set(per["scenario"]) == scenarios
     assert set(layers["valves"]["kind"]) <= {"combination", "air-release", "air-vacuum", "drain"}
     assert len(layers["findings_points"]) == len(pd.read_csv(out / "findings.csv"))
+    import pyogrio  # every layer carries the cautions (house rule) in its metadata
+
+    meta = pyogrio.read_info(out / "layers.gpkg", layer="pipe_pieces")["layer_metadata"]
+    assert "licensed professional engineer" in meta["DESCRIPTION"]
 
 
 def test_pipe_pressure_layer_against_the_grade_lines(demo_si):
@@ -195,6 +199,7 @@ def test_geojson_files_are_rfc7946_with_simplestyle(demo_si):
     for f in files:
         doc = json.loads(f.read_text())
         assert doc["type"] == "FeatureCollection" and "crs" not in doc  # RFC 7946 s. 4
+        assert "licensed professional engineer" in doc["description"]  # a foreign member (s. 6.1)
         for feat in doc["features"]:
             coords = np.asarray(feat["geometry"]["coordinates"], float).reshape(-1, 2)
             assert (np.abs(coords[:, 0]) <= 180).all() and (np.abs(coords[:, 1]) <= 90).all()

@@ -62,8 +62,11 @@ def wgs84_layers(result, display) -> dict:
 
 @writer("geojson")
 def write_geojson(result, folder: Path, display) -> None:
+    from ..cautions import CAUTIONS
+
     out = folder / "geojson"
     out.mkdir()
-    for name, gdf in wgs84_layers(result, display).items():
+    for name, gdf in wgs84_layers(result, display).items():  # the cautions as its description
         gdf.to_file(out / f"{name}.geojson", driver="GeoJSON", engine="pyogrio",
-                    layer_options={"RFC7946": "YES", "WRITE_NAME": "NO"})
+                    layer_options={"RFC7946": "YES", "WRITE_NAME": "NO",
+                                   "DESCRIPTION": f"gisgrade {name}. CAUTION: {CAUTIONS}"})

@@ -291,7 +291,10 @@ def geodataframes(result, display, crs=None) -> dict:
 
 @writer("layers.gpkg")
 def write_layers(result, folder: Path, display) -> None:
+    from ..cautions import CAUTIONS
+
     path = folder / "layers.gpkg"
     for i, (name, gdf) in enumerate(geodataframes(result, display).items()):
         gdf.to_file(path, layer=name, driver="GPKG", engine="pyogrio",
-                    mode="w" if i == 0 else "a", geometry_type=GEOMETRY[name])
+                    mode="w" if i == 0 else "a", geometry_type=GEOMETRY[name],
+                    layer_metadata={"DESCRIPTION": f"gisgrade {name}. CAUTION: {CAUTIONS}"})
