@@ -384,13 +384,17 @@ def draw_pressure(axp, result, d: Display, lo=None, hi=None) -> list:
     return handles
 
 
-def legend(ax, handles, **kw) -> None:
-    seen, unique = set(), []
+def unique(handles) -> list:
+    """Legend handles with each label once, in first-seen order."""
+    first = {}
     for h in handles:
-        if h.get_label() not in seen:
-            seen.add(h.get_label())
-            unique.append(h)
-    ax.legend(handles=unique, loc="upper left", bbox_to_anchor=(1.005, 1.0), fontsize=7,
+        first.setdefault(h.get_label(), h)
+    return list(first.values())
+
+
+def legend(ax, handles, **kw) -> None:
+    """The legend of ``handles`` beside ``ax``, on its right."""
+    ax.legend(handles=unique(handles), loc="upper left", bbox_to_anchor=(1.005, 1.0), fontsize=7,
               framealpha=0.95, **kw)
 
 

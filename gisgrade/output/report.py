@@ -190,16 +190,28 @@ def _same(a, b) -> bool:
 
 
 def _shown(v, f, d: Display) -> str:
+    """A value in force as a person reads it (display units; radians as
+    degrees, ratios as percent, kelvin as degC, unit factors as metres)."""
     kind = f.metadata["kind"]
-    if isinstance(v, (int, float)) and not isinstance(v, bool) and kind in KINDS:
-        return d.text(v, KINDS[kind], 3 if kind == "length" and abs(v) < 1 else None)
-    if kind == "angle" and isinstance(v, float):
-        return f"{np.degrees(v):.4g} deg"
-    if kind == "temperature" and isinstance(v, float):
-        return f"{v - 273.15:.4g} degC"
-    if isinstance(v, tuple):
+    if isinstance(v, (tuple, list)):
         return ", ".join(_shown(x, f, d) for x in v)
-    return str(v)
+    if isinstance(v, bool) or not isinstance(v, (int, float)):
+        return str(v)
+    if kind == "length" and abs(v) < 0.05 and v:  # roughness and the like: mm or in
+        return f"{d.value(v, 'diameter'):.4g} {d.unit('diameter')}"
+    if kind in KINDS:
+        return d.text(v, KINDS[kind])
+    if kind in ("angle", "angles"):
+        return f"{np.degrees(v):.4g} deg"
+    if kind == "dimensionless":
+        return f"{100 * v:.4g} %"
+    if kind == "temperature":
+        return f"{v - 273.15:.4g} degC"
+    if kind == "accuracy":
+        return f"{d.text(v, 'length')} RMSE"
+    if kind == "unit":
+        return f"1 unit = {v:g} m"
+    return f"{v:g}"
 
 
 def report_html(result, folder: Path, d: Display) -> str:

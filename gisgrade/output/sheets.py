@@ -36,7 +36,8 @@ from .. import __version__
 from ..cautions import CAUTIONS
 from ..display import FT, Display
 from . import has_pipe, writer
-from .plot import (crossing_details, draw_pressure, draw_profile, scenario_colours, station_axis)
+from .plot import (crossing_details, draw_pressure, draw_profile, scenario_colours, station_axis,
+                   unique)
 
 #: Landscape paper (width, height) in inches (ISO 216; ANSI/ASME Y14.1).
 PAPER = {"A4": (11.69, 8.27), "A3": (16.54, 11.69), "A1": (33.11, 23.39),
@@ -385,12 +386,8 @@ def sheet_figure(result, d: Display, scales: Scales, layout: Layout, sheet, numb
                                    layout.profile_bottom, layout.key_width - 0.15,
                                    layout.profile_height))
     key.set_axis_off()
-    seen, unique = set(), []
-    for h in handles:
-        if h.get_label() not in seen:
-            seen.add(h.get_label())
-            unique.append(h)
-    key.legend(handles=unique, loc="upper left", fontsize=6.3, frameon=False, borderaxespad=0)
+    key.legend(handles=unique(handles), loc="upper left", fontsize=6.3, frameon=False,
+               borderaxespad=0)
     lst = fig.add_axes(layout.rect(layout.width - layout.margin - layout.key_width + 0.15,
                                    bottom - layout.band_height - 0.3, layout.key_width - 0.15,
                                    layout.strip_height + layout.band_height + 0.3))
