@@ -126,11 +126,11 @@ def _summarize(result: Result) -> None:
     result.summary = summarize(result)
 
 
-def run(project, outdir=None, *, write: bool = True) -> Result:
+def run(project, outdir=None, *, write: bool = True, figures: bool = True) -> Result:
     """:func:`compute`, then (with ``write``) :meth:`Result.write` to ``outdir``."""
     result = compute(project)
     if write:
-        result.write(outdir)
+        result.write(outdir, figures=figures)
     return result
 
 

@@ -149,10 +149,12 @@ def state_plane_site(tmp_path):
 def test_layers_stay_in_the_centerlines_state_plane_feet_or_output_crs(state_plane_site, tmp_path):
     import pyproj
 
-    from gisgrade.cli import main
+    import gisgrade
 
     project, sp = state_plane_site
-    assert main(["run", str(project), "-o", str(tmp_path / "a"), "-q"]) == 0
+    gisgrade.run(project, tmp_path / "a", figures=False)  # layers only: no figure is needed
+    assert not (tmp_path / "a" / "profile.png").exists() and not (tmp_path / "a" / "sheets").exists()
+    assert "not drawn in this run" in (tmp_path / "a" / "report.html").read_text()
     layers = read_layers(tmp_path / "a" / "layers.gpkg")
     assert layers["route"].crs == pyproj.CRS(STATE_PLANE)
     # the route's vertices are the input's, back from the working CRS (pyproj round trip)
@@ -162,7 +164,7 @@ def test_layers_stay_in_the_centerlines_state_plane_feet_or_output_crs(state_pla
     st = layers["stations"]
     np.testing.assert_allclose(st["cover_ft"], st["cover_m"] / FT, rtol=1e-12)
     project.write_text(project.read_text() + f'crs = "{UTM11}"\n')
-    assert main(["run", str(project), "-o", str(tmp_path / "b"), "-q"]) == 0
+    gisgrade.run(project, tmp_path / "b", figures=False)
     b = read_layers(tmp_path / "b" / "layers.gpkg")["valves"]
     a = read_layers(tmp_path / "a" / "layers.gpkg")["valves"]
     assert b.crs == pyproj.CRS(UTM11)

@@ -69,8 +69,9 @@ def output_names() -> tuple[str, ...]:
     return tuple(f for w in _load() for f in w.files)
 
 
-def write_all(result, outdir) -> list[Path]:
+def write_all(result, outdir, figures: bool = True) -> list[Path]:
     """Write every output of ``result`` into ``outdir``; return the paths.
+    ``figures=False`` skips the writers registered with ``figure=True``.
 
     Refuses (InputError, nothing written) an OUTDIR that is a file, cannot be
     made, or holds an input under an output's name.
@@ -95,7 +96,7 @@ def write_all(result, outdir) -> list[Path]:
     display = display_of(result.project)
     try:
         for w in WRITERS:
-            if w.applies(result):
+            if w.applies(result) and (figures or not w.figure):
                 w.write(result, tmp, display)
         outdir.mkdir(exist_ok=True)
         written = []
