@@ -502,3 +502,30 @@ def test_report_renders_in_chromium_with_its_figures_and_key_numbers(demo_us, tm
         p = g[g["scenario"] == name]["pressure_kpa"] * 1e3 / PSI
         assert f"{p.max():.1f} psi" in dom, name
     assert "licensed professional engineer" in dom and "not achievable" in dom
+
+
+def test_surge_and_energy_are_shown_when_a_run_has_them(demo_si, tmp_path):
+    # The names another stage puts on a Result (surge: names, head_max, head_min as
+    # scenario x station arrays; summary["energy"]: a list of plain dicts) are
+    # drawn and reported when present. The envelope is the given heads +/- 20 m.
+    from types import SimpleNamespace
+
+    import gisgrade
+    from gisgrade.output.plot import profile_figure
+    from gisgrade.output.report import report_html
+
+    r = gisgrade.compute(demo_si[0])
+    hgl = r.grades.hgl[:1]
+    r.surge = SimpleNamespace(names=("average day",), head_max=hgl + 20.0, head_min=hgl - 20.0,
+                              wave_speed=1100.0)
+    r.summary = dict(r.summary, energy=[{"scenario": "average day", "pump_kw": 12.5,
+                                         "annual_mwh": 61.3}])
+    ax = profile_figure(r).axes[0]
+    labels = [t.get_text() for t in ax.get_legend().get_texts()]
+    assert "surge envelope average day (screening)" in labels
+    tops = [ln for ln in ax.get_lines() if len(ln.get_ydata()) == hgl.shape[1]
+            and np.allclose(ln.get_ydata(), hgl[0] + 20.0)]
+    assert tops, "the envelope's upper line is the given head_max"
+    html = report_html(r, tmp_path, gisgrade.display.Display())
+    assert "<h2>Energy</h2>" in html and "61.3" in html and "12.5" in html
+    assert "Surge results are screening only" in html
