@@ -31,9 +31,9 @@ PRESSURE_TOLERANCE = 1e-3
 #: Columns of the findings table written to ``findings.csv``.
 COLUMNS = ["scenario", "check", "severity", "from_station_m", "to_station_m",
            "worst_station_m", "worst_value", "unit", "limit", "message"]
-#: What the table holds beside them: the check's code and the message as a
-#: template whose quantities are SI tokens (:func:`gisgrade.display.token`),
-#: rendered in the reader's units when written (``message`` is it in SI).
+# The table holds beside them the check's code and ``template``: the message
+# with its quantities as SI tokens (gisgrade.display.token), rendered in the
+# reader's units when written (``message`` is it rendered in SI).
 
 #: When a check runs, in table order: once on the laid pipe, once per
 #: scenario, once on the design rules.

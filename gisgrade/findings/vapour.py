@@ -29,13 +29,12 @@ def column_separation_findings(station, pressure_abs, p_vapour, scenario: str,
     """
     p = np.asarray(pressure_abs, dtype=float)
     deficit = (p_vapour - p) / (density * G)
-    rows = ranges(
+    vapour = token(p_vapour, "pressure", 1).replace("{", "{{").replace("}", "}}")  # kept by format
+    return ranges(
         station, deficit, p < p_vapour, code="column-separation", check="column separation",
         severity="critical", unit="m", limit=0.0, scenario=scenario, worst="max",
-        text="HGL {value} below the vapour-pressure line (absolute pressure "
-             + token(p_vapour, "pressure", 1).replace("{", "{{").replace("}", "}}") + "): column separation: the flow cannot be "
-             "carried as computed")
-    return rows
+        text=f"HGL {{value}} below the vapour-pressure line (absolute pressure {vapour}): "
+             "column separation: the flow cannot be carried as computed")
 
 
 @check("column-separation")

@@ -135,7 +135,8 @@ def inputs_section(result, d: Display) -> str:
             return e(path)
         st = path.stat()
         when = datetime.datetime.fromtimestamp(st.st_mtime).date().isoformat()
-        return f"{e(path)} <span class=\"sub\">({st.st_size / 1e6:.2f} MB, modified {when})</span>"
+        size = f"{st.st_size / 1e6:.2f} MB" if st.st_size >= 1e5 else f"{st.st_size / 1e3:.1f} kB"
+        return f"{e(path)} <span class=\"sub\">({size}, modified {when})</span>"
 
     rows = [["project file", about(p.path), "every setting below"],
             ["centerline", about(p.alignment.path),
@@ -197,6 +198,8 @@ def _shown(v, f, d: Display) -> str:
         return ", ".join(_shown(x, f, d) for x in v)
     if isinstance(v, bool) or not isinstance(v, (int, float)):
         return str(v)
+    if kind == "length" and "diameter" in f.name:
+        return d.text(v, "diameter")
     if kind == "length" and abs(v) < 0.05 and v:  # roughness and the like: mm or in
         return f"{d.value(v, 'diameter'):.4g} {d.unit('diameter')}"
     if kind in KINDS:
