@@ -17,8 +17,9 @@ def compute(project, *, progress=None):
     return _compute(project, progress=progress)
 
 
-def run(project, outdir=None, *, write=True):
-    """Compute a project and write its outputs; see :func:`gisgrade.pipeline.run`."""
+def run(project, outdir=None, *, write=True, figures=True):
+    """Compute a project and write its outputs (``figures=False``: all but the
+    figures); see :func:`gisgrade.pipeline.run`."""
     from .pipeline import run as _run
 
-    return _run(project, outdir, write=write)
+    return _run(project, outdir, write=write, figures=figures)

@@ -406,9 +406,11 @@ def read_alignment(path: Path, *, layer=None, reverse=False, where=None, feature
         raise InputError(f"{key}: {path.name}: coordinates do not transform to {work.name}")
     line = LineString(coords)
     length = float(line.length)
-    notes.append(
-        f"length {length:.2f} m in {work.name} vs {geodesic:.2f} m geodesic "
-        f"({(length - geodesic) / geodesic * 100:+.3f} %)"
+    from .display import token
+
+    notes.append(  # quantities as tokens: the summary shows them in the reader's units
+        f"length {token(length, 'length', 2)} in {work.name} vs {token(geodesic, 'length', 2)} "
+        f"geodesic ({(length - geodesic) / geodesic * 100:+.3f} %)"
     )
     return Alignment(line, work, src, length, geodesic, start_station, tuple(notes))
 

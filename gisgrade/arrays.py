@@ -38,7 +38,9 @@ def station_index(station, x, key: str) -> np.ndarray:
     i = np.where(np.abs(station[i - 1] - x) <= np.abs(station[i] - x), i - 1, i)
     off = np.abs(station[i] - x) > STATION_TOLERANCE
     if off.any():
-        bad = float(x[np.flatnonzero(off)[0]])
-        raise InputError(f"{key}: station {bad:g} m is not on the line (stations "
-                         f"{station[0]:g} to {station[-1]:g} m)")
+        from .display import current
+
+        bad, d = float(x[np.flatnonzero(off)[0]]), current()  # in the reader's units
+        raise InputError(f"{key}: station {d.text(bad, 'length')} is not on the line (stations "
+                         f"{d.number(station[0], 'length')} to {d.text(station[-1], 'length')})")
     return i

@@ -8,6 +8,9 @@ messages, plots) is formatted here, in SI or US customary units
 """
 from __future__ import annotations
 
+import contextvars
+import re
+from contextlib import contextmanager
 from dataclasses import dataclass
 
 import numpy as np
@@ -15,6 +18,7 @@ import numpy as np
 FT = 0.3048  #: international foot, m (NIST SP 811)
 PSI = 6894.757293168361  #: pound-force per square inch, Pa (NIST SP 811)
 GALLON = 3.785411784e-3  #: US liquid gallon, m3 (NIST Handbook 44)
+HP = 745.69987158227022  #: horsepower (550 ft lbf/s), W (NIST SP 811)
 ATMOSPHERE = 101325.0  #: standard atmosphere, Pa (ISO 2533)
 
 #: Per system and kind of quantity: (unit label, (multiplier, divisor) from SI, decimals);
@@ -24,15 +28,47 @@ UNITS = {
         "length": ("m", (1.0, 1.0), 2), "elevation": ("m", (1.0, 1.0), 2),
         "pressure": ("kPa", (1.0, 1e3), 0), "flow": ("L/s", (1e3, 1.0), 1),
         "velocity": ("m/s", (1.0, 1.0), 2), "volume": ("m3", (1.0, 1.0), 0),
-        "head": ("m", (1.0, 1.0), 2),
+        "head": ("m", (1.0, 1.0), 2), "diameter": ("mm", (1e3, 1.0), 0),
+        "angle": ("deg", (1.0, 1.0), 2), "grade": ("%", (1.0, 1.0), 2),
+        "power": ("kW", (1.0, 1e3), 1), "energy": ("MWh", (1.0, 3.6e9), 1),
     },
     "US": {
         "length": ("ft", (1.0, FT), 1), "elevation": ("ft", (1.0, FT), 2),
         "pressure": ("psi", (1.0, PSI), 1), "flow": ("gpm", (60.0, GALLON), 0),
         "velocity": ("ft/s", (1.0, FT), 2), "volume": ("yd3", (1.0, (3 * FT) ** 3), 0),
-        "head": ("ft", (1.0, FT), 2),
+        "head": ("ft", (1.0, FT), 2), "diameter": ("in", (1.0, 0.0254), 1),
+        "angle": ("deg", (1.0, 1.0), 2), "grade": ("%", (1.0, 1.0), 2),
+        "power": ("hp", (1.0, HP), 1), "energy": ("MWh", (1.0, 3.6e9), 1),
     },
 }
+
+#: The unit labels the tables and findings use for SI values, with the kind
+#: of quantity and the factor to SI base units (``kPa`` values are Pa / 1e3).
+SI_LABELS = {"m": ("length", 1.0), "kPa": ("pressure", 1e3), "Pa": ("pressure", 1.0),
+             "m/s": ("velocity", 1.0), "m3/s": ("flow", 1.0), "L/s": ("flow", 1e-3),
+             "m3": ("volume", 1.0), "deg": ("angle", 1.0), "%": ("grade", 1.0)}
+
+#: Column-name suffixes of SI columns in the CSV tables, their kind, the
+#: factor to SI base units and the suffix of the US column beside them.
+SUFFIXES = {"_kpa": ("pressure", 1e3, "_psi"), "_m3_s": ("flow", 1.0, "_gpm"),
+            "_m_s": ("velocity", 1.0, "_ft_s"), "_m3": ("volume", 1.0, "_yd3"),
+            "_m": ("length", 1.0, "_ft")}
+
+#: A quantity token in a message template: ``{kind:si}`` or ``{kind.decimals:si}``
+#: (``{station:1250.0}`` for a station label); see :meth:`Display.render`.
+TOKEN = re.compile(r"\{([a-z]+)(?:\.(\d))?:([-+0-9.eEinfa]+)\}")
+
+
+def token(si: float, kind: str, decimals: int | None = None) -> str:
+    """A quantity in a message template, rendered later in the reader's units.
+
+    >>> token(140e3, "pressure")
+    '{pressure:140000.0}'
+    >>> Display("US").render("pressure " + token(96527.0, "pressure") + " at " + token(381.0, "station"))
+    'pressure 14.0 psi at 12+50.00'
+    """
+    d = "" if decimals is None else f".{decimals}"
+    return f"{{{kind}{d}:{float(si)!r}}}"
 
 
 @dataclass(frozen=True)
@@ -90,6 +126,79 @@ class Display:
 
     def station_name(self) -> str:
         return "hundreds ft + ft" if self.us else "km + m"
+
+    def si_unit(self, kind: str) -> str:
+        """The SI unit label of ``kind`` (what the CSV columns hold)."""
+        return UNITS["SI"][kind][0]
+
+    def render(self, template: str) -> str:
+        """A message template with its quantity tokens (:func:`token`) in
+        display units: ``{pressure:140000.0}`` becomes "140 kPa" or "20.3 psi".
+
+        >>> Display().render("cover {length:1.0}, short of {length.1:1.2}")
+        'cover 1.00 m, short of 1.2 m'
+        """
+        def one(m):
+            kind, decimals, si = m.group(1), m.group(2), float(m.group(3))
+            if kind == "station":
+                return self.station([si])[0]
+            return self.text(si, kind, None if decimals is None else int(decimals))
+
+        return TOKEN.sub(one, str(template))
+
+    def label(self, kind: str, name: str) -> str:
+        """An axis or column heading with its unit: "Pressure (psi)"."""
+        return f"{name} ({self.unit(kind)})"
+
+    def dual(self, frame, columns=None):
+        """``frame`` with a US column beside each SI column (``pressure_kpa`` ->
+        ``pressure_psi``, ``_m`` -> ``_ft``, ``_m3_s`` -> ``_gpm``, ``_m_s`` ->
+        ``_ft_s``) when the display is US; unchanged in SI. ``columns``: the
+        SI columns to convert (default: every column with such a suffix).
+
+        >>> import pandas as pd
+        >>> Display("US").dual(pd.DataFrame({"cover_m": [0.3048]})).round(6).to_dict("list")
+        {'cover_m': [0.3048], 'cover_ft': [1.0]}
+        """
+        if not self.us:
+            return frame
+        out = {}
+        for col in frame.columns:
+            out[col] = frame[col]
+            hit = next((s for s in SUFFIXES if str(col).endswith(s)), None)
+            if hit and (columns is None or col in columns):
+                kind, base, us = SUFFIXES[hit]
+                out[col[: -len(hit)] + us] = self.value(frame[col] * base, kind)
+        import pandas as pd
+
+        return pd.DataFrame(out, index=frame.index)
+
+    def of_label(self, value, label: str):
+        """``value`` given in the SI unit ``label`` (:data:`SI_LABELS`) as
+        ``(display value, display unit)``; a label not listed is kept as is."""
+        if label not in SI_LABELS:
+            return value, label
+        kind, base = SI_LABELS[label]
+        return self.value(value * base, kind), self.unit(kind)
+
+
+_CURRENT = contextvars.ContextVar("gisgrade_display", default=None)
+
+
+def current() -> "Display":
+    """The display of the run in progress (SI outside a run): for messages,
+    such as input errors, raised where no :class:`Display` is passed."""
+    return _CURRENT.get() or Display()
+
+
+@contextmanager
+def using(display: "Display"):
+    """Make ``display`` the :func:`current` one inside the block."""
+    reset = _CURRENT.set(display)
+    try:
+        yield display
+    finally:
+        _CURRENT.reset(reset)
 
 
 def display_of(project) -> Display:

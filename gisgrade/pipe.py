@@ -90,8 +90,11 @@ def _offtake_layers(layers, extra, line):
         flows.append(q * o.flow_factor)
         if len(st):
             k = int(np.argmax(offset))
+            from .display import token
+
             notes.append(f"{o.key}: {len(st)} offtake points from {o.path.name} snapped to the "
-                         f"line; farthest {offset[k]:.1f} m away (station {st[k] + s0:.1f} m)")
+                         f"line; farthest {token(offset[k], 'length', 1)} away (station "
+                         f"{token(st[k] + s0, 'station')})")
     st, q = np.concatenate(stations), np.concatenate(flows)
     extra.append((st, al.OFFTAKE))
     line = replace(line, notes=line.notes + tuple(notes))

@@ -16,6 +16,7 @@ from contextlib import contextmanager
 
 from .alignment import stage_alignment
 from .design import clearances, stage_design
+from .display import display_of, using
 from .findings import stage_findings
 from .findings.valves import stage_valves
 from .hydraulics.stage import stage_hydraulics
@@ -63,9 +64,15 @@ def compute(project, *, progress=None) -> Result:
     """Every stage on a project (a path or a loaded :class:`Project`); writes nothing.
 
     ``progress(stage, done, total)``, if given, is called as each stage
-    starts (and with ``stage=None`` at the end).
+    starts (and with ``stage=None`` at the end). Messages raised on the way
+    (input errors) give their quantities in the project's display units.
     """
     project = _project(project)
+    with using(display_of(project)):
+        return _compute(project, progress)
+
+
+def _compute(project, progress) -> Result:
     clock = _Clock(STAGES, progress)
     with clock("alignment"):
         line, crossings, table = stage_alignment(project)
@@ -98,6 +105,11 @@ def compute_ground(project, *, progress=None) -> Result:
     """Only the alignment and terrain stages: the ground profile for screening
     a route before any pipe data exist (the ``profile`` command)."""
     project = _project(project, ground_only=True)
+    with using(display_of(project)):
+        return _compute_ground(project, progress)
+
+
+def _compute_ground(project, progress) -> Result:
     clock = _Clock(GROUND_STAGES, progress)
     with clock("alignment"):
         line, crossings, table = stage_alignment(project)
@@ -120,11 +132,11 @@ def _summarize(result: Result) -> None:
     result.summary = summarize(result)
 
 
-def run(project, outdir=None, *, write: bool = True) -> Result:
+def run(project, outdir=None, *, write: bool = True, figures: bool = True) -> Result:
     """:func:`compute`, then (with ``write``) :meth:`Result.write` to ``outdir``."""
     result = compute(project)
     if write:
-        result.write(outdir)
+        result.write(outdir, figures=figures)
     return result
 
 

@@ -504,7 +504,31 @@ class OutputConfig:
     """[output]: where and how results are written."""
 
     dir: Path | None = key("dir", "output folder (-o on the command line wins)", None)
-    units: str = key("text", "units of station labels and the plot", "SI", choices=("SI", "US"))
+    units: str = key("text", "units of what a person reads (console, summary, messages, "
+                     "figures, report): SI, or US (psi, ft, gpm, ft/s)", "SI", choices=("SI", "US"))
+    name: str | None = key("text", "project name for titles, sheets and the report (default: "
+                           "the project file's folder and name)", None)
+    crs: str | None = key("text", "CRS of the map layers, e.g. \"EPSG:2229\" (default: the "
+                          "centerline's; GeoJSON and KML are always WGS 84)", None)
+    sheet_length: float | None = key("length>0", "length of line on one profile sheet (default: "
+                                     "what the paper holds at 1:5000, or 1 in = 400 ft in US)", None)
+    sheet_overlap: float = key("length>=0", "line repeated from the sheet before", 50.0, "50 m")
+    paper: str = key("text", "profile sheet paper, landscape", "A3",
+                     choices=("A3", "A4", "A1", "tabloid", "letter", "arch-d"))
+
+    def _rules(self, t: _Table) -> OutputConfig:
+        if self.crs is not None:
+            import pyproj
+
+            try:
+                pyproj.CRS.from_user_input(self.crs)
+            except pyproj.exceptions.CRSError:
+                raise InputError(f"{t.say('crs')}: not a coordinate reference system pyproj "
+                                 "knows (e.g. \"EPSG:2229\")") from None
+        if self.sheet_length is not None and self.sheet_overlap >= self.sheet_length / 2:
+            raise InputError(f"{t.say('sheet_overlap')}: must be less than half of "
+                             f"output.sheet_length")
+        return self
 
 
 def _section(cls, need: str = "optional", array: bool = False):

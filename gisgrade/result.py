@@ -49,13 +49,14 @@ class Result:
         """One row per scenario: the boundary and the heads used, solved or required."""
         return None if self.grades is None else self.grades.cases
 
-    def write(self, outdir=None) -> list[Path]:
+    def write(self, outdir=None, figures: bool = True) -> list[Path]:
         """Write every output into ``outdir`` (default: the project's
         ``[output] dir``, else ``gisgrade-out`` beside the project file), all
-        at once or not at all; returns the paths written."""
+        at once or not at all; returns the paths written. ``figures=False``
+        leaves out the figures (profile.png, sheets/, map.png), the costly part."""
         from .output import write_all
 
-        return write_all(self, resolve_outdir(self.project, outdir))
+        return write_all(self, resolve_outdir(self.project, outdir), figures=figures)
 
 
 def resolve_outdir(project, outdir=None) -> Path:

@@ -730,8 +730,10 @@ def stage_terrain(project, line, table):
     notes = []
     if rmse is None:
         kind, rmse = default_vertical_accuracy(ground.cell_size)
-        notes.append(f"terrain.vertical_accuracy not given: {rmse:g} m RMSE assumed for a {kind} "
-                     f"DEM ({ground.cell_size:.2f} m cells)")
+        from .display import token
+
+        notes.append(f"terrain.vertical_accuracy not given: {token(rmse, 'length')} RMSE assumed "
+                     f"for a {kind} DEM ({token(ground.cell_size, 'length')} cells)")
     names = np.array([Path(str(p)).name for p in cfg.dem] + ["bridged"], dtype=object)
     table = table.assign(ground_m=ground.z, ground_bridged=ground.bridged,
                          ground_band_m=accuracy_95(rmse), ground_source=names[ground.source])

@@ -122,3 +122,29 @@ path = "x.geojson"
 bottom_field = "bottom"
 clearance = "0.3 m"
 """
+
+
+def _demo_run(folder, extra=""):
+    """The bundled demo copied to ``folder``, ``extra`` appended to its project
+    file, run once by the command line; returns (project file, output folder)."""
+    from gisgrade.cli import main
+
+    dst = folder / "demo"
+    shutil.copytree(DEMO, dst)
+    project = dst / "project.toml"
+    project.write_text(project.read_text() + extra)
+    out = folder / "out"
+    assert main(["run", str(project), "-o", str(out), "-q"]) == 0
+    return project, out
+
+
+@pytest.fixture(scope="session")
+def demo_si(tmp_path_factory):
+    """The demo written once for the session in SI display units: (project, outdir)."""
+    return _demo_run(tmp_path_factory.mktemp("demo-si"))
+
+
+@pytest.fixture(scope="session")
+def demo_us(tmp_path_factory):
+    """The demo written once for the session with ``[output] units = "US"``."""
+    return _demo_run(tmp_path_factory.mktemp("demo-us"), '\n[output]\nunits = "US"\n')

@@ -16,7 +16,8 @@ from gisgrade.cli import main
 from conftest import DEMO, write_dem, write_lines
 
 OUTPUTS = {"profile.csv", "gradelines.csv", "findings.csv", "fittings.csv", "layers.gpkg",
-           "profile.png", "summary.json", "summary.txt"}
+           "profile.png", "summary.json", "summary.txt", "valves.csv", "high_low_points.csv",
+           "geojson", "layers.kml", "styles", "sheets", "map.png", "report.html"}
 
 
 def digest(folder):
@@ -58,11 +59,10 @@ def test_demo_writes_every_output(tmp_path, capsys):
     assert "CAUTION" in text
 
 
-def test_demo_layers_are_readable(tmp_path):
+def test_demo_layers_are_readable(demo_si):
     import pyogrio
 
-    out = tmp_path / "o"
-    assert main(["demo", "-o", str(out), "-q"]) == 0
+    out = demo_si[1]
     names = {row[0] for row in pyogrio.list_layers(out / "layers.gpkg")}
     assert {"pipe_pieces", "crossings", "stations"} <= names
     crossings = pyogrio.read_dataframe(out / "layers.gpkg", layer="crossings")
@@ -223,12 +223,10 @@ def test_a_crossing_layer_that_misses_the_line_is_noted(demo_copy):
     assert any("crossings[0]: no feature of crossings.geojson" in n for n in r.summary["notes"])
 
 
-def test_us_display_labels_stations_in_feet(demo_copy, tmp_path):
+def test_us_display_labels_stations_in_feet(demo_us):
     import re
 
-    demo_copy.write_text(demo_copy.read_text() + '\n[output]\nunits = "US"\n')
-    out = tmp_path / "us"
-    assert main(["run", str(demo_copy), "-o", str(out), "-q"]) == 0
+    out = demo_us[1]
     prof = pd.read_csv(out / "profile.csv")
     # last station in feet (1 ft = 0.3048 m, NIST SP 811), written hundreds + feet
     feet = prof["station_m"].iloc[-1] / 0.3048

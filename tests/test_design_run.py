@@ -159,7 +159,7 @@ clearance = "0.3 m"
     # 98.8 + 0.05 s (exact), so its bottom is lowest over the feature at the
     # downhill edge, 497 m: clearance 98.8 + 0.05 x 497 - 0.32 - 121.2 = 2.13 m.
     xing = skewed_at_500({"bottom": 121.0, "height": 0.2, "width": 3.0, "name": "duct bank"})
-    r = run(plane_site(tmp_path, extra, xing, 0.05), tmp_path / "o")
+    r = run(plane_site(tmp_path, extra, xing, 0.05), tmp_path / "o", figures=False)
     st, top = r.table["station_m"].to_numpy(), r.table["top_m"].to_numpy()
     np.testing.assert_allclose(top, 98.8 + 0.05 * st, atol=1e-6)
     layer = pyogrio.read_dataframe(tmp_path / "o" / "layers.gpkg", layer="crossings")
@@ -204,7 +204,7 @@ clearance = "0.3 m"
                                                      {"bottom": 95.0, "name": "culvert"})])
     write_lines(tmp_path / "x2.geojson", [[(X0 + 850, Y - 20), (X0 + 850, Y + 20)]],
                 props=[{"bottom": 94.8, "name": "tunnel"}])
-    r = run(project, tmp_path / "o")
+    r = run(project, tmp_path / "o", figures=False)
     prof = pd.read_csv(tmp_path / "o" / "profile.csv").set_index("station_m")
     # Limits on the top of pipe (exact arithmetic): the minimum-cover line
     # 100 - 1.2 everywhere; under the culvert its bottom - clearance; over the
@@ -255,7 +255,7 @@ def test_ground_bridged_exactly_where_the_stencil_meets_nodata(tmp_path):
     # 500595 < X0 + s < 500615, i.e. 495 < s < 515: 500, 505, 510 (5 m spacing).
     # The gap between valid stations 495 and 515 is 20 m, within the default
     # max_gap of 3 cells (30 m), so it is bridged: flat ground, bridged exactly.
-    r = run(nodata_site(tmp_path, [60]), tmp_path / "o")
+    r = run(nodata_site(tmp_path, [60]), tmp_path / "o", figures=False)
     prof = pd.read_csv(tmp_path / "o" / "profile.csv")
     s = prof["station_m"].to_numpy()
     inside = s[(s > 495.0) & (s < 515.0)]  # 500, 505, 510 and the pipe joints between

@@ -32,7 +32,7 @@ def test_compute_writes_nothing(tmp_path, monkeypatch):
     assert tree(tmp_path) == before  # not beside the project, not in the working folder
     assert result.grades is not None
     assert set(np.arange(0.0, 1000.1, 5.0)) <= set(result.table["station_m"])
-    written = result.write(tmp_path / "out")  # writing is its own, explicit step
+    written = result.write(tmp_path / "out", figures=False)  # writing is its own, explicit step
     assert {p.name for p in written} >= {"profile.csv", "gradelines.csv", "summary.json"}
 
 
@@ -92,12 +92,19 @@ def test_a_new_writer_is_one_registered_function(tmp_path):
     def stations(result, folder, display):
         (folder / "stations.txt").write_text("\n".join(display.station(result.table["station_m"])))
 
+    @output.writer("sketch.txt", figure=True)  # a figure writer: left out with figures=False
+    def sketch(result, folder, display):
+        (folder / "sketch.txt").write_text("a figure")
+
     try:
-        written = result.write(tmp_path / "out")
+        written = result.write(tmp_path / "out", figures=False)
         assert (tmp_path / "out" / "stations.txt") in written
         assert (tmp_path / "out" / "stations.txt").read_text().splitlines()[-1] == "1+000.00"
+        assert not (tmp_path / "out" / "sketch.txt").exists()
+        assert not (tmp_path / "out" / "profile.png").exists()
     finally:
-        output.WRITERS[:] = [w for w in output.WRITERS if w.files != ("stations.txt",)]
+        output.WRITERS[:] = [w for w in output.WRITERS if w.files not in (("stations.txt",),
+                                                                          ("sketch.txt",))]
 
 
 def test_findings_table_order_follows_the_scopes(tmp_path):

@@ -114,7 +114,7 @@ TODAY = {
     "fittings": "station kind k",
     "offtakes": "station flow path flow_field flow_unit layer",
     "checks": "min_pressure max_pressure min_velocity max_velocity",
-    "output": "dir units",
+    "output": "dir units name crs sheet_length sheet_overlap paper",
 }
 
 #: Defaults the README's project-file block states: those it calls the
@@ -132,6 +132,7 @@ README_DEFAULTS = {
     ("valves", "flat_grade"): "0.1 %", ("valves", "flat_run"): "100 m",
     ("valves", "hgl_margin"): "5 m", ("valves", "merge_distance"): "20 m",
     ("surge", "restraint"): "anchored", ("energy", "efficiency"): 0.7,
+    ("output", "units"): "SI", ("output", "sheet_overlap"): "50 m", ("output", "paper"): "A3",
 }
 
 #: A table for every section (two where a section has two shapes or an
@@ -190,7 +191,8 @@ FULL = {
                  {"path": "line.geojson", "flow_field": "q", "flow_unit": "gpm", "layer": "p"}],
     "checks": [{"min_pressure": "20 psi", "max_pressure": "80 psi", "min_velocity": "0.3 m/s",
                 "max_velocity": "10 ft/s"}],
-    "output": [{"dir": "out", "units": "US"}],
+    "output": [{"dir": "out", "units": "US", "name": "Test main", "crs": "EPSG:2229",
+                "sheet_length": "2000 ft", "sheet_overlap": "100 ft", "paper": "tabloid"}],
 }
 
 ARRAYS = {"cover_zones", "crossings", "scenarios", "sections", "fittings", "offtakes",

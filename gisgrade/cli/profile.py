@@ -13,7 +13,8 @@ from .common import compute_and_write
                                      "pipe data exist",
                help=caution_help(
                    "Station the centerline and sample the ground along it; write profile.csv, "
-                   "layers.gpkg (stations and crossings), profile.png and summary files. Only "
+                   "the layers (route, stations and crossings), profile.png, map.png, "
+                   "report.html and summary files. Only "
                    "[alignment] and [terrain] are needed in PROJECT.",
                    "gisgrade profile project.toml -o ground"))
 @click.argument("project", type=click.Path(path_type=Path))

@@ -11,8 +11,10 @@ from .common import compute_and_write
 
 @click.command("run", short_help="run every stage on a project file and write the outputs",
                help=caution_help(
-                   "Run every stage on PROJECT (TOML) and write profile.csv, gradelines.csv, "
-                   "findings.csv, fittings.csv, layers.gpkg, profile.png and summary files.",
+                   "Run every stage on PROJECT (TOML) and write the tables (profile.csv, "
+                   "gradelines.csv, findings.csv, ...), the layers (layers.gpkg, geojson/, "
+                   "layers.kml, styles/), profile.png, sheets/, map.png, report.html and the "
+                   "summary files.",
                    "gisgrade run project.toml -o out"))
 @click.argument("project", type=click.Path(path_type=Path))
 @click.option("-o", "--outdir", type=click.Path(path_type=Path), default=None,

@@ -31,6 +31,9 @@ PRESSURE_TOLERANCE = 1e-3
 #: Columns of the findings table written to ``findings.csv``.
 COLUMNS = ["scenario", "check", "severity", "from_station_m", "to_station_m",
            "worst_station_m", "worst_value", "unit", "limit", "message"]
+# The table holds beside them the check's code and ``template``: the message
+# with its quantities as SI tokens (gisgrade.display.token), rendered in the
+# reader's units when written (``message`` is it rendered in SI).
 
 #: When a check runs, in table order: once on the laid pipe, once per
 #: scenario, once on the design rules.
@@ -54,7 +57,7 @@ class Finding:
     worst_value: float  #: in ``unit``
     unit: str
     limit: float  #: in ``unit``
-    message: str
+    message: str  #: a template: quantities as SI tokens, see :meth:`Display.render`
 
 
 @dataclass(frozen=True)
@@ -111,16 +114,47 @@ class Inputs:
         return self.column("top_m")
 
 
+class Quantity:
+    """A value in the SI unit label ``unit`` that formats as a template token
+    (``f"{Quantity(140, 'kPa')}"`` is ``{pressure:140000.0}``; a format spec
+    such as ``.1f`` sets the decimals), so a message is written once and read
+    in either system. A unit with no display kind formats as a plain number."""
+
+    def __init__(self, value, unit: str):
+        self.value, self.unit = float(value), unit
+
+    def __format__(self, spec: str) -> str:
+        from ..display import SI_LABELS, token
+
+        decimals = int(spec[1:-1]) if spec.startswith(".") and spec.endswith("f") else None
+        if self.unit not in SI_LABELS:
+            return format(self.value, spec)
+        kind, base = SI_LABELS[self.unit]
+        return token(self.value * base, kind, decimals)
+
+
+def station_token(station_m: float) -> str:
+    """A station in a message template (rendered as ``1+250.00`` or ``41+01.05``)."""
+    from ..display import token
+
+    return token(station_m, "station")
+
+
 def ranges(station, value, mask, *, code, check, severity, unit, limit, scenario,
            worst="min", text="{check}") -> list[Finding]:
     """One :class:`Finding` per run of ``mask``, reporting the worst ``value`` in it
-    (``worst`` "min" or "max"); ``text`` is formatted with ``check``, ``value`` and ``limit``.
+    (``worst`` "min" or "max"); ``text`` is formatted with ``check``, ``value``,
+    ``limit`` and ``excess`` (``|value - limit|``), the quantities as template
+    tokens in ``unit`` (:class:`Quantity`; the unit is not written in ``text``).
 
+    >>> from gisgrade.display import Display
     >>> f = ranges(np.array([0.0, 10.0, 20.0]), np.array([5.0, 2.0, 9.0]),
     ...            np.array([True, True, False]), code="x", check="low x", severity="note",
     ...            unit="m", limit=6.0, scenario="s", text="{value:.0f} below {limit:.0f}")
     >>> [(r.from_station_m, r.to_station_m, r.worst_station_m, r.message) for r in f]
-    [(0.0, 10.0, 10.0, '2 below 6')]
+    [(0.0, 10.0, 10.0, '{length.0:2.0} below {length.0:6.0}')]
+    >>> Display().render(f[0].message), Display("US").render(f[0].message)
+    ('2 m below 6 m', '7 ft below 20 ft')
     """
     out = []
     for a, b in runs(mask):
@@ -130,7 +164,9 @@ def ranges(station, value, mask, *, code, check, severity, unit, limit, scenario
             code=code, check=check, severity=severity, scenario=scenario,
             from_station_m=float(station[a]), to_station_m=float(station[b]),
             worst_station_m=float(station[k]), worst_value=float(value[k]), unit=unit,
-            limit=float(limit), message=text.format(check=check, value=value[k], limit=limit),
+            limit=float(limit), message=text.format(
+                check=check, value=Quantity(value[k], unit), limit=Quantity(limit, unit),
+                excess=Quantity(abs(value[k] - limit), unit)),
         ))
     return out
 
@@ -152,9 +188,27 @@ def run_checks(inputs: Inputs) -> list[Finding]:
 
 
 def table(findings) -> pd.DataFrame:
-    """The findings as a table: :data:`COLUMNS` and ``code``."""
+    """The findings as a table: :data:`COLUMNS`, ``code`` and ``template``
+    (the message with its quantities as SI tokens; ``message`` is it in SI)."""
+    from ..display import Display
+
     rows = [asdict(f) if isinstance(f, Finding) else f for f in findings]
-    return pd.DataFrame(rows, columns=COLUMNS + ["code"])
+    out = pd.DataFrame(rows, columns=COLUMNS + ["code"])
+    out["template"] = out["message"].astype(object)
+    out["message"] = [Display().render(m) for m in out["template"]]
+    return out
+
+
+def messages(frame: pd.DataFrame, display) -> list[str]:
+    """The findings' messages in ``display``'s units."""
+    col = "template" if "template" in frame else "message"
+    return [display.render(m) for m in frame[col]]
+
+
+def by_severity(frame: pd.DataFrame) -> pd.DataFrame:
+    """The findings most serious first (:data:`SEVERITIES`), in table order within each."""
+    rank = frame["severity"].map({s: i for i, s in enumerate(SEVERITIES)}).fillna(len(SEVERITIES))
+    return frame.assign(_rank=rank).sort_values("_rank", kind="stable").drop(columns="_rank")
 
 
 def stage_findings(project, table_, grades=None, relaxations=(), surge=None) -> pd.DataFrame:

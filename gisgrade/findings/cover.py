@@ -5,7 +5,7 @@ from dataclasses import replace
 
 import numpy as np
 
-from . import check, ranges
+from . import Quantity, check, ranges
 
 #: Cover short of the minimum by more than this (m) is a finding.
 COVER_TOLERANCE = 1e-6
@@ -16,8 +16,9 @@ def cover_findings(station, cover, min_cover):
     (``min_cover`` per station), the limit and message at the worst station.
 
     >>> f = cover_findings(np.array([0.0, 5.0, 10.0]), np.array([1.5, 1.0, 1.5]), 1.2)
-    >>> f[0].message
-    'cover 1.00 m, 0.20 m short of the 1.20 m minimum'
+    >>> from gisgrade.display import Display
+    >>> Display().render(f[0].message), Display("US").render(f[0].message)
+    ('cover 1.00 m, 0.20 m short of the 1.20 m minimum', 'cover 3.3 ft, 0.7 ft short of the 3.9 ft minimum')
     """
     min_cover = np.broadcast_to(np.asarray(min_cover, dtype=float), np.shape(cover))
     rows = ranges(station, cover, cover < min_cover - COVER_TOLERANCE, code="cover",
@@ -25,9 +26,10 @@ def cover_findings(station, cover, min_cover):
     out = []
     for row in rows:  # the limit and message at the worst station (zones vary it)
         k = int(np.searchsorted(station, row.worst_station_m))
+        c, lim = Quantity(cover[k], "m"), Quantity(min_cover[k], "m")
+        short = Quantity(min_cover[k] - cover[k], "m")
         out.append(replace(row, limit=float(min_cover[k]), message=(
-            f"cover {cover[k]:.2f} m, {min_cover[k] - cover[k]:.2f} m short of "
-            f"the {min_cover[k]:.2f} m minimum")))
+            f"cover {c}, {short} short of the {lim} minimum")))
     return out
 
 

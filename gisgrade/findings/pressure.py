@@ -17,7 +17,7 @@ def sub_atmospheric(inputs, i):
     hgl = g.hgl_low[i]
     return ranges(inputs.station, top - hgl, hgl < top, code="sub-atmospheric",
                   check="sub-atmospheric", severity="critical", unit="m", limit=0.0,
-                  scenario=g.names[i], worst="max", text="HGL {value:.2f} m below the top of pipe")
+                  scenario=g.names[i], worst="max", text="HGL {value} below the top of pipe")
 
 
 @check("low-pressure")
@@ -27,7 +27,7 @@ def low_pressure(inputs, i):
     low = (p < limit - PRESSURE_TOLERANCE) & (g.hgl_low[i] >= inputs.top)
     return ranges(inputs.station, p / 1e3, low, code="low-pressure", check="low pressure",
                   severity="warning", unit="kPa", limit=limit / 1e3, scenario=g.names[i],
-                  text="pressure {value:.0f} kPa below {limit:.0f} kPa")
+                  text="pressure {value} below the {limit} minimum")
 
 
 @check("high-pressure")
@@ -37,4 +37,4 @@ def high_pressure(inputs, i):
     return ranges(inputs.station, p / 1e3, p > limit + PRESSURE_TOLERANCE, code="high-pressure",
                   check="high pressure", severity="warning", unit="kPa", limit=limit / 1e3,
                   scenario=g.names[i], worst="max",
-                  text="pressure {value:.0f} kPa above {limit:.0f} kPa")
+                  text="pressure {value} above the {limit} maximum")

@@ -11,8 +11,9 @@ def rating_findings(station, pressure, rating, scenario: str):
     one value per station; NaN where none is given), one finding per run.
 
     >>> f = rating_findings(np.array([0.0, 10.0]), np.array([1.1e6, 0.9e6]), np.full(2, 1e6), "s")
-    >>> [(r.worst_station_m, r.message) for r in f]
-    [(0.0, "pressure 1100 kPa above the pipe's rating 1000 kPa")]
+    >>> from gisgrade.display import Display
+    >>> [(r.worst_station_m, Display("US").render(r.message)) for r in f]
+    [(0.0, "pressure 159.5 psi above the pipe's rating 145.0 psi")]
     """
     rating = np.asarray(rating, dtype=float)
     out = []
@@ -20,7 +21,7 @@ def rating_findings(station, pressure, rating, scenario: str):
         over = (rating == r) & (pressure > r + PRESSURE_TOLERANCE)
         out += ranges(station, pressure / 1e3, over, code="rating", check="rating",
                       severity="critical", unit="kPa", limit=r / 1e3, scenario=scenario,
-                      worst="max", text="pressure {value:.0f} kPa above the pipe's rating {limit:.0f} kPa")
+                      worst="max", text="pressure {value} above the pipe's rating {limit}")
     return out
 
 

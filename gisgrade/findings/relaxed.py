@@ -3,7 +3,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from . import Finding, check
+from . import Finding, Quantity, check, station_token
 
 #: How far each design rule is broken at a station, from station-table
 #: columns, so a relaxation's worst station can be found (rules not listed
@@ -32,8 +32,28 @@ def relaxation_findings(relaxations, table=None) -> list[Finding]:
         out.append(Finding(code="rule-relaxed", check=f"rule relaxed: {r.rule}", severity="critical",
                            scenario="design", from_station_m=float(r.station_from),
                            to_station_m=float(r.station_to), worst_station_m=worst,
-                           worst_value=float(r.amount), unit=r.unit, limit=0.0, message=r.message))
+                           worst_value=float(r.amount), unit=r.unit, limit=0.0,
+                           message=relaxation_template(r)))
     return out
+
+
+def relaxation_template(r) -> str:
+    """The relaxation's message as a template in the reader's units: the
+    amount (m, or rad as degrees, m/m as percent) and stations as tokens,
+    then the designer's reason (the text after the station in its message).
+
+    >>> from gisgrade.design.rules import Relaxation
+    >>> from gisgrade.display import Display
+    >>> r = Relaxation("max cover", 300.0, 310.0, 0.5, "m", "max cover gave way ... m: why")
+    >>> Display("US").render(relaxation_template(r))
+    'max cover gave way by up to 1.6 ft from 9+84.25 to 10+17.06: why'
+    """
+    amount = {"rad": Quantity(np.degrees(r.amount), "deg"),
+              "m/m": Quantity(100.0 * r.amount, "%")}.get(r.unit, Quantity(r.amount, r.unit))
+    why = r.message.split(" m: ", 1)[1] if " m: " in r.message else r.message
+    where = (f"at {station_token(r.station_from)}" if r.station_to == r.station_from else
+             f"from {station_token(r.station_from)} to {station_token(r.station_to)}")
+    return f"{r.rule} gave way by up to {amount} {where}: {why}"
 
 
 @check("rule-relaxed", scope="rules")

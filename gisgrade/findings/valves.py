@@ -30,6 +30,7 @@ import numpy as np
 import pandas as pd
 
 from ..arrays import runs
+from ..display import token
 from ..project import ValvesConfig
 
 #: Columns of the valve table.
@@ -75,7 +76,8 @@ def site_valves(station, top, highs, lows, grades=(), names=(), knots=None,
         for a, b in runs(margin < rules.hgl_margin):
             i = a + int(np.argmin(margin[a:b + 1]))
             if i not in ends:
-                out.append((i, "air-vacuum", f"HGL {margin[i]:.2f} m above the pipe in {name}", 1))
+                out.append((i, "air-vacuum", f"HGL {token(margin[i], 'length')} above the pipe in "
+                                             f"{name}", 1))
     g = np.diff(z) / np.diff(s)
     out += _slope_changes(s, g, knots, rules)
     out += _runs(s, g, knots, rules, [o[0] for o in out if o[1] != "drain"])

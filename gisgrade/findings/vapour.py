@@ -8,24 +8,32 @@ import numpy as np
 from ..hydraulics.atmosphere import atmospheric_pressure
 from ..hydraulics.friction import G
 from ..hydraulics.water import vapour_pressure
+from ..display import token
 from . import check, ranges
 
 
-def column_separation_findings(station, pressure_abs, p_vapour, scenario: str):
+def column_separation_findings(station, pressure_abs, p_vapour, scenario: str,
+                               density: float = 999.1):
     """Stations where the absolute pressure (Pa) falls below the vapour
     pressure (Pa). ``pressure_abs`` is gauge plus atmospheric pressure at the
     same point (the top of the pipe, where vapour forms first).
 
+    The worst value is how far the HGL falls below the vapour-pressure
+    line, as head (m): (p_vapour - p_abs) / (rho g), so a pressure the water
+    cannot hold (an "absolute pressure" below zero) is never printed.
+
     >>> rows = column_separation_findings(np.array([0.0, 10.0, 20.0]),
-    ...                                   np.array([50e3, 1e3, 3e3]), 1.7e3, "fire")
-    >>> [(r.check, r.worst_station_m, r.worst_value) for r in rows]
-    [('column separation', 10.0, 1.0)]
+    ...                                   np.array([50e3, 1e3, 3e3]), 1.7e3, "fire", 1000.0)
+    >>> [(r.check, r.worst_station_m, round(r.worst_value, 4)) for r in rows]
+    [('column separation', 10.0, 0.0714)]
     """
     p = np.asarray(pressure_abs, dtype=float)
+    deficit = (p_vapour - p) / (density * G)
+    vapour = token(p_vapour, "pressure", 1).replace("{", "{{").replace("}", "}}")  # kept by format
     return ranges(
-        station, p / 1e3, p < p_vapour, code="column-separation", check="column separation",
-        severity="critical", unit="kPa", limit=p_vapour / 1e3, scenario=scenario,
-        text="absolute pressure {value:.1f} kPa below the vapour pressure {limit:.1f} kPa: "
+        station, deficit, p < p_vapour, code="column-separation", check="column separation",
+        severity="critical", unit="m", limit=0.0, scenario=scenario, worst="max",
+        text=f"HGL {{value}} below the vapour-pressure line (absolute pressure {vapour}): "
              "column separation: the flow cannot be carried as computed")
 
 
@@ -37,4 +45,4 @@ def column_separation(inputs, i):
     g, top = inputs.grades, inputs.top
     absolute = g.density * G * (g.hgl_low[i] - top) + atmospheric_pressure(top)
     p_vapour = float(vapour_pressure(inputs.project.hydraulics.temperature))
-    return column_separation_findings(inputs.station, absolute, p_vapour, g.names[i])
+    return column_separation_findings(inputs.station, absolute, p_vapour, g.names[i], g.density)

@@ -83,7 +83,10 @@ class HydraulicLine:
         out_at, out_q = self.demands(case)
         taken = float(np.sum(out_q))
         if taken > inflow * (1 + 1e-12) + 1e-15:  # every offtake counts, the last station's too
-            raise InputError(f"scenario {case.name!r}: the offtakes take {taken * 1e3:.3f} L/s, more "
-                             f"than the {inflow * 1e3:.3f} L/s entering ({case.inflow_key}; the "
-                             "offtakes scale with it)")
+            from ..display import current
+
+            d = current()  # in the reader's units
+            raise InputError(f"scenario {case.name!r}: the offtakes take {d.text(taken, 'flow', 3)}, "
+                             f"more than the {d.text(inflow, 'flow', 3)} entering ({case.inflow_key}; "
+                             "the offtakes scale with it)")
         return np.maximum(segment_flows(self.station, inflow, out_at, out_q), 0.0)

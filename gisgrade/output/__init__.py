@@ -27,9 +27,10 @@ __all__ = ["write_all", "writer", "output_names", "WRITERS"]
 
 @dataclass(frozen=True)
 class Writer:
-    files: tuple  #: the file names it writes
+    files: tuple  #: the file (and folder) names it writes
     write: Callable  #: ``write(result, folder, display)``
     applies: Callable  #: ``applies(result) -> bool``
+    figure: bool = False  #: draws figures (the costly part): a batch run may skip it
 
 
 #: Every registered writer, in registration order.
@@ -37,13 +38,15 @@ WRITERS: list[Writer] = []
 
 #: The modules holding the writers, imported in this order.
 WRITER_MODULES = ("profile_csv", "gradelines_csv", "findings_csv", "fittings_csv", "valves_csv",
-                  "surge_csv", "layers", "plot", "summary")
+                  "surge_csv", "layers", "geojson", "kml", "sld", "plot", "sheets", "mapfig",
+                  "summary", "report")
 
 
-def writer(*files: str, applies: Callable = lambda result: True):
-    """Register the decorated ``write(result, folder, display)`` as the writer of ``files``."""
+def writer(*files: str, applies: Callable = lambda result: True, figure: bool = False):
+    """Register the decorated ``write(result, folder, display)`` as the writer of ``files``
+    (a name may be a folder it fills, e.g. ``sheets``); ``figure``: it draws figures."""
     def register(fn):
-        WRITERS[:] = [w for w in WRITERS if w.files != files] + [Writer(files, fn, applies)]
+        WRITERS[:] = [w for w in WRITERS if w.files != files] + [Writer(files, fn, applies, figure)]
         return fn
 
     return register
@@ -66,8 +69,9 @@ def output_names() -> tuple[str, ...]:
     return tuple(f for w in _load() for f in w.files)
 
 
-def write_all(result, outdir) -> list[Path]:
+def write_all(result, outdir, figures: bool = True) -> list[Path]:
     """Write every output of ``result`` into ``outdir``; return the paths.
+    ``figures=False`` skips the writers registered with ``figure=True``.
 
     Refuses (InputError, nothing written) an OUTDIR that is a file, cannot be
     made, or holds an input under an output's name.
@@ -92,17 +96,21 @@ def write_all(result, outdir) -> list[Path]:
     display = display_of(result.project)
     try:
         for w in WRITERS:
-            if w.applies(result):
+            if w.applies(result) and (figures or not w.figure):
                 w.write(result, tmp, display)
         outdir.mkdir(exist_ok=True)
         written = []
         for f in sorted(tmp.iterdir()):
+            if f.is_dir() and (outdir / f.name).is_dir():  # a listed folder (sheets/): replaced whole
+                shutil.rmtree(outdir / f.name)
             os.replace(f, outdir / f.name)
             written.append(outdir / f.name)
         for name in names:
             stale = outdir / name
             if stale not in written and stale.is_file():
                 stale.unlink()
+            elif stale not in written and stale.is_dir():
+                shutil.rmtree(stale)
         return written
     finally:
         shutil.rmtree(tmp, ignore_errors=True)

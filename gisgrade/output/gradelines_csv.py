@@ -11,5 +11,5 @@ COLUMNS = ["scenario", "station_m", "flow_m3_s", "velocity_m_s", "hgl_m", "egl_m
 
 @writer("gradelines.csv", applies=has_pipe)
 def write_gradelines(result, folder, display):
-    grades = result.gradelines[COLUMNS].round({"station_m": STATION_DECIMALS})
+    grades = display.dual(result.gradelines[COLUMNS]).round({"station_m": STATION_DECIMALS})
     grades.to_csv(folder / "gradelines.csv", index=False, float_format="%.6f")

@@ -1,136 +1,300 @@
-"""Map layers in one GeoPackage (``layers.gpkg``), in the working CRS.
+"""Map layers in one GeoPackage (``layers.gpkg``).
 
-- ``pipe_pieces``: one line per pair of consecutive stations, carrying the
-  lowest and highest pressure of each scenario and a display colour (hex) for
-  the first flow scenario's lowest pressure, from the perceptual, colour-vision
-  friendly *cividis* colormap (Nuñez et al. 2018);
-- ``crossings``: one point per crossing with required and achieved clearance;
-- ``fittings``: one point per fitting: bends (vertical, horizontal,
-  combined) and the given fittings, with their K;
-- ``valves``: one point per air valve or drain, with its kind and reason;
-- ``stations``: one point per station with ground, pipe and cover.
+Every layer a run has, built once here (in the working CRS) and written by
+this module to the GeoPackage, and by :mod:`.geojson` and :mod:`.kml` to
+WGS 84; :mod:`.sld` styles them. Field names are plain identifiers
+(lower case, digits and ``_``); values in SI with the unit in the name
+(``_m``, ``_kpa``, ``_m3_s``, ``_m_s``), a US column beside each with
+``[output] units = "US"``; kinds are words; scenarios are a field's value,
+never part of a field name.
 
-The ground-only run (``gisgrade profile``) writes ``crossings`` and
-``stations`` without the pipe columns.
+- ``route``: the whole centerline, one line;
+- ``pipe_pieces``: a line per pair of consecutive stations with the pipe,
+  and the governing pressure over every scenario (``pressure_kpa``, its
+  ``scenario``, ``pressure_class`` and ``colour`` from the shared scale,
+  :mod:`.style`);
+- ``pipe_pressure``: the same pieces once per scenario (``scenario`` field):
+  lowest and highest pressure, HGL, velocity, flow, class and colour;
+- ``stations``, ``crossings``, ``fittings``, ``valves``, ``offtakes``,
+  ``high_low_points``: points;
+- ``findings_points`` (at each finding's worst station) and
+  ``findings_lines`` (the route over its station range).
+
+Layers are written in the centerline's CRS, or ``[output] crs``. The
+ground-only run (``gisgrade profile``) writes ``route``, ``stations`` and
+``crossings`` without the pipe fields.
 """
 from __future__ import annotations
 
+import weakref
 from pathlib import Path
 
 import numpy as np
 import pandas as pd
 import shapely
+import shapely.ops
 
+from .. import alignment as al
 from . import writer
+from .style import governing_pressure, scale_of
 
-#: Colormap for pressure colours on the pipe pieces.
-PRESSURE_CMAP = "cividis"
+#: Station kinds: bit flag -> word (``stations.kind`` lists the words).
+KIND_WORDS = ((al.VERTEX, "vertex"), (al.CROSSING, "crossing"), (al.END, "end"),
+              (al.ZONE, "cover zone edge"), (al.FITTING, "fitting"), (al.OFFTAKE, "offtake"),
+              (al.SECTION, "section change"))
+
+#: Every layer's geometry type, in writing order.
+GEOMETRY = {"route": "LineString", "pipe_pieces": "LineString", "pipe_pressure": "LineString",
+            "findings_lines": "LineString", "stations": "Point", "crossings": "Point",
+            "fittings": "Point", "valves": "Point", "offtakes": "Point",
+            "high_low_points": "Point", "findings_points": "Point"}
+
+_CACHE: "weakref.WeakKeyDictionary" = weakref.WeakKeyDictionary()
 
 
-def pressure_colours(values: np.ndarray, vmin: float, vmax: float) -> np.ndarray:
-    """Hex colours (``#rrggbb``) for ``values`` on the pressure colormap.
+def kind_words(kind) -> np.ndarray:
+    """Station kind bit flags as words ("regular" when none is set).
 
-    >>> pressure_colours(np.array([0.0, 1.0]), 0.0, 1.0).tolist()
-    ['#00224e', '#fee838']
+    >>> kind_words(np.array([al.REGULAR, al.VERTEX | al.CROSSING])).tolist()
+    ['regular', 'vertex, crossing']
     """
-    import matplotlib
-
-    cmap = matplotlib.colormaps[PRESSURE_CMAP]
-    span = vmax - vmin if vmax > vmin else 1.0
-    rgba = cmap(np.clip((values - vmin) / span, 0.0, 1.0))
-    rgb = np.round(rgba[:, :3] * 255).astype(int)
-    return np.array([f"#{r:02x}{g:02x}{b:02x}" for r, g, b in rgb], dtype=object)
+    kind = np.asarray(kind, dtype=np.int64)
+    parts = [np.where(kind & flag, word, "") for flag, word in KIND_WORDS]
+    joined = [", ".join(w for w in ws if w) for ws in zip(*parts)] if parts else []
+    return np.asarray([j or "regular" for j in joined], dtype=object)
 
 
-def pipe_pieces(result) -> "pd.DataFrame":
-    """Attributes and geometry of the pipe pieces between stations."""
-    t, g = result.table, result.grades
-    s = t["station_m"].to_numpy()
+def _pieces_geometry(t) -> np.ndarray:
     xy = t[["x", "y"]].to_numpy()
-    geom = shapely.linestrings(np.stack([xy[:-1], xy[1:]], axis=1))
+    return shapely.linestrings(np.stack([xy[:-1], xy[1:]], axis=1))
+
+
+def pipe_pieces(result) -> pd.DataFrame:
+    """Lines between stations with the pipe and the governing pressure of
+    all scenarios: the pressure furthest outside the limits, else the lowest."""
+    t, g = result.table, result.grades
+    scale = scale_of(result)
+    s = t["station_m"].to_numpy()
     cover = t["cover_m"].to_numpy()
-    data = {
-        "from_station_m": s[:-1], "to_station_m": s[1:],
-        "length_m": np.diff(s),
+    lo = np.minimum(g.pressure_low[:, :-1], g.pressure_low[:, 1:])  # (k, n-1)
+    hi = np.maximum(g.pressure_high[:, :-1], g.pressure_high[:, 1:])
+    gov = governing_pressure(lo, hi, scale)
+    # the scenario whose pressure is worst: furthest below the minimum, else above the maximum
+    badness = np.where(gov < scale.min_pressure, scale.min_pressure - gov,
+                       np.where(gov > scale.max_pressure, gov - scale.max_pressure,
+                                -np.abs(gov - scale.min_pressure) * 1e-9))
+    k = np.argmax(badness, axis=0)
+    cols = np.arange(len(s) - 1)
+    p = gov[k, cols]
+    frame = pd.DataFrame({
+        "from_station_m": s[:-1], "to_station_m": s[1:], "length_m": np.diff(s),
         "grade_pct": np.diff(t["top_m"].to_numpy()) / np.diff(s) * 100.0,
         "cover_min_m": np.minimum(cover[:-1], cover[1:]),
-    }
-    for i, name in enumerate(g.names):
-        p = g.pressure[i] / 1e3
-        data[f"{name}_pmin_kpa"] = np.minimum(p[:-1], p[1:])
-        data[f"{name}_pmax_kpa"] = np.maximum(p[:-1], p[1:])
-    first_flow = g.names[(g.flowing or [0])[0]]
-    pmin = data[f"{first_flow}_pmin_kpa"]
-    data["colour_scenario"] = first_flow
-    data["colour"] = pressure_colours(pmin, float(pmin.min()), float(pmin.max()))
-    frame = pd.DataFrame(data)
-    frame["geometry"] = geom
+        "inside_diameter_m": t["inside_diameter_m"].to_numpy()[:-1],
+        "pressure_kpa": p / 1e3, "scenario": np.asarray(g.names, dtype=object)[k],
+        "pressure_min_kpa": lo.min(axis=0) / 1e3, "pressure_max_kpa": hi.max(axis=0) / 1e3,
+        "pressure_class": scale.name(p), "colour": scale.colour(p),
+    })
+    frame["geometry"] = _pieces_geometry(t)
     return frame
 
 
-def crossing_points(result) -> "pd.DataFrame":
-    c = result.crossings
-    t = result.table
-    station = c.station
+def pipe_pressure(result) -> pd.DataFrame:
+    """The pipe pieces once per scenario (``scenario`` a field)."""
+    t, g = result.table, result.grades
+    scale = scale_of(result)
+    s = t["station_m"].to_numpy()
+    n, k = len(s) - 1, len(g)
+    lo = np.minimum(g.pressure_low[:, :-1], g.pressure_low[:, 1:])
+    hi = np.maximum(g.pressure_high[:, :-1], g.pressure_high[:, 1:])
+    p = governing_pressure(lo, hi, scale).ravel()
     frame = pd.DataFrame({
-        "station_m": station, "name": c.name.astype(str), "layer": c.layer.astype(str),
-        "side": c.side.astype(str), "angle_deg": c.angle_deg, "bottom_m": c.bottom,
-        "size_m": c.size, "clearance_required_m": c.clearance,
-        "ground_m": np.interp(station, t["station_m"], t["ground_m"]),
+        "scenario": np.repeat(np.asarray(g.names, dtype=object), n),
+        "from_station_m": np.tile(s[:-1], k), "to_station_m": np.tile(s[1:], k),
+        "pressure_kpa": p / 1e3, "pressure_min_kpa": lo.ravel() / 1e3,
+        "pressure_max_kpa": hi.ravel() / 1e3, "hgl_m": g.hgl[:, :-1].ravel(),
+        "velocity_m_s": g.velocity[:, :-1].ravel(), "flow_m3_s": g.flow[:, :-1].ravel(),
+        "pressure_class": scale.name(p), "colour": scale.colour(p),
+    })
+    frame["geometry"] = np.tile(_pieces_geometry(t), k)
+    return frame
+
+
+def route(result) -> pd.DataFrame:
+    line, t = result.alignment, result.table
+    s = t["station_m"].to_numpy()
+    row = {"name": result_name(result), "length_m": line.length,
+           "geodesic_length_m": line.geodesic_length, "first_station_m": s[0],
+           "last_station_m": s[-1]}
+    if "inside_diameter_m" in t:
+        row["inside_diameter_m"] = float(t["inside_diameter_m"].iloc[0])
+        row["outside_diameter_m"] = float(t["outside_diameter_m"].iloc[0])
+    frame = pd.DataFrame([row])
+    frame["geometry"] = [line.line]
+    return frame
+
+
+def result_name(result) -> str:
+    """The project's name: ``[output] name``, else its folder and file."""
+    p = result.project
+    return p.output.name or f"{p.path.parent.name}/{p.path.stem}"
+
+
+def station_points(result, display) -> pd.DataFrame:
+    t = result.table
+    cols = [c for c in ("station_m", "ground_m", "ground_band_m", "top_m", "axis_m",
+                        "invert_m", "cover_m", "min_cover_m") if c in t.columns]
+    frame = t[cols].copy()
+    frame.insert(1, "station", display.station(t["station_m"].to_numpy()))
+    frame["kind"] = kind_words(t["kind"].to_numpy())
+    if "ground_bridged" in t:
+        frame["ground_bridged"] = t["ground_bridged"].astype(bool)
+    frame["geometry"] = shapely.points(t["x"].to_numpy(), t["y"].to_numpy())
+    return frame
+
+
+def crossing_points(result, display) -> pd.DataFrame:
+    c, t = result.crossings, result.table
+    frame = pd.DataFrame({
+        "station_m": c.station, "station": display.station(c.station),
+        "name": c.name.astype(str), "layer": c.layer.astype(str), "side": c.side.astype(str),
+        "angle_deg": c.angle_deg, "bottom_m": c.bottom, "size_m": c.size,
+        "clearance_required_m": c.clearance,
+        "ground_m": np.interp(c.station, t["station_m"], t["ground_m"]) if len(t) else c.station,
     })
     if result.clearances is not None:  # at the point of the footprint where clearance is least
         frame["governing_station_m"] = result.clearances.station
         frame["top_of_pipe_m"] = result.clearances.top
         frame["clearance_achieved_m"] = result.clearances.achieved
+        frame["clearance_met"] = result.clearances.achieved >= c.clearance - 1e-6
     frame["geometry"] = shapely.points(c.x, c.y)
     return frame
 
 
-def fittings_points(result, display) -> "pd.DataFrame":
+def _points(frame, xy_from) -> pd.DataFrame:
+    out = frame.drop(columns=[c for c in ("x", "y") if c in frame]).copy()
+    out["geometry"] = shapely.points(xy_from["x"].to_numpy(float), xy_from["y"].to_numpy(float))
+    return out
+
+
+def fittings_points(result, display) -> pd.DataFrame:
     from .fittings_csv import fittings_listing
 
     f = fittings_listing(result, display)
-    frame = f.drop(columns=["x", "y"]).copy()
-    frame["geometry"] = shapely.points(f["x"].to_numpy(float), f["y"].to_numpy(float))
-    return frame
+    return _points(f.rename(columns={"k": "loss_coefficient"}), f)
 
 
-def valve_points(result) -> "pd.DataFrame":
+def valve_points(result, display) -> pd.DataFrame:
     v = result.valves
-    frame = v.drop(columns=["x", "y"]).copy()
-    frame["geometry"] = shapely.points(v["x"].to_numpy(float), v["y"].to_numpy(float))
-    return frame
+    frame = v.assign(station=display.station(v["station_m"].to_numpy(float)),
+                     reason=[display.render(r) for r in v["reason"]])
+    return _points(frame[["station_m", "station", "kind", "reason", "top_m", "axis_m",
+                          "ground_m", "x", "y"]], v)
 
 
-def station_points(result) -> "pd.DataFrame":
+def _at(result, station) -> tuple[np.ndarray, np.ndarray]:
     t = result.table
-    cols = [c for c in ("station_m", "ground_m", "ground_band_m", "ground_bridged", "top_m",
-                        "axis_m", "invert_m", "cover_m", "kind") if c in t.columns]
-    frame = t[cols].copy()
-    frame["geometry"] = shapely.points(t["x"].to_numpy(), t["y"].to_numpy())
+    s = t["station_m"].to_numpy()
+    return np.interp(station, s, t["x"].to_numpy()), np.interp(station, s, t["y"].to_numpy())
+
+
+def offtake_points(result, display) -> pd.DataFrame:
+    t = result.table
+    q = t["offtake_m3_s"].to_numpy() if "offtake_m3_s" in t else np.zeros(len(t))
+    at = q > 0
+    s = t["station_m"].to_numpy()[at]
+    frame = pd.DataFrame({"station_m": s, "station": display.station(s), "flow_m3_s": q[at],
+                          "ground_m": t["ground_m"].to_numpy()[at]})
+    frame["geometry"] = shapely.points(t["x"].to_numpy()[at], t["y"].to_numpy()[at])
     return frame
 
 
-@writer("layers.gpkg")
-def write_layers(result, folder: Path, display=None) -> None:
-    import geopandas as gpd
+def high_low_points(result, display) -> pd.DataFrame:
+    p = result.points
+    x, y = _at(result, p["station_m"].to_numpy(float))
+    frame = p.assign(station=display.station(p["station_m"].to_numpy(float)))[
+        ["station_m", "station", "kind", "elevation_m", "prominence_m", "why"]].copy()
+    frame["geometry"] = shapely.points(x, y)
+    return frame
 
-    from ..display import display_of
 
-    display = display or display_of(result.project)
-    path = folder / "layers.gpkg"
-    crs = result.alignment.crs
-    layers = {}
+def finding_frames(result, display) -> tuple[pd.DataFrame, pd.DataFrame]:
+    """The findings as points at the worst station and as the route over the range."""
+    from ..findings import by_severity, messages
+
+    f = by_severity(result.findings)
+    base = pd.DataFrame({
+        "severity": f["severity"].to_numpy(object), "check": f["check"].to_numpy(object),
+        "code": f["code"].to_numpy(object), "scenario": f["scenario"].to_numpy(object),
+        "from_station_m": f["from_station_m"].to_numpy(float),
+        "to_station_m": f["to_station_m"].to_numpy(float),
+        "worst_station_m": f["worst_station_m"].to_numpy(float),
+        "station": display.station(f["worst_station_m"].to_numpy(float)),
+        "worst_value": f["worst_value"].to_numpy(float), "unit": f["unit"].to_numpy(object),
+        "message": messages(f, display),
+    })
+    x, y = _at(result, base["worst_station_m"].to_numpy())
+    points = base.assign(geometry=shapely.points(x, y))
+    line, s0 = result.alignment.line, result.alignment.start_station
+    pieces = [shapely.ops.substring(line, a - s0, b - s0)
+              for a, b in zip(base["from_station_m"], base["to_station_m"])]
+    is_line = np.array([g.geom_type == "LineString" and g.length > 0 for g in pieces], bool)
+    lines = base[is_line].assign(geometry=[g for g, k in zip(pieces, is_line) if k])
+    return points, lines
+
+
+def layer_frames(result, display) -> dict[str, pd.DataFrame]:
+    """Every layer of ``result`` (attributes and a ``geometry`` column in the
+    working CRS), in :data:`GEOMETRY` order; cached per result and display."""
+    key = display.system
+    cached = _CACHE.setdefault(result, {})
+    if key in cached:
+        return cached[key]
+    layers = {"route": route(result)}
     if result.grades is not None:
         layers["pipe_pieces"] = pipe_pieces(result)
+        layers["pipe_pressure"] = pipe_pressure(result)
+    if result.findings is not None:
+        layers["findings_points"], layers["findings_lines"] = finding_frames(result, display)
+    layers["stations"] = station_points(result, display)
+    layers["crossings"] = crossing_points(result, display)
     if result.bends is not None:
         layers["fittings"] = fittings_points(result, display)
     if result.valves is not None:
-        layers["valves"] = valve_points(result)
-    layers["crossings"] = crossing_points(result)
-    layers["stations"] = station_points(result)
-    for i, (name, frame) in enumerate(layers.items()):
-        gdf = gpd.GeoDataFrame(frame, geometry="geometry", crs=crs)
-        kind = "LineString" if name == "pipe_pieces" else "Point"  # declared even when empty
+        layers["valves"] = valve_points(result, display)
+    if result.grades is not None:
+        layers["offtakes"] = offtake_points(result, display)
+    if result.points is not None:
+        layers["high_low_points"] = high_low_points(result, display)
+    order = [n for n in GEOMETRY if n in layers]
+    cached[key] = {n: display.dual(layers[n].drop(columns="geometry")).assign(
+        geometry=layers[n]["geometry"].to_numpy()) for n in order}
+    return cached[key]
+
+
+def output_crs(result):
+    """The CRS the GeoPackage is written in: ``[output] crs``, else the centerline's."""
+    import pyproj
+
+    crs = result.project.output.crs
+    return pyproj.CRS.from_user_input(crs) if crs else result.alignment.source_crs
+
+
+def geodataframes(result, display, crs=None) -> dict:
+    """:func:`layer_frames` as GeoDataFrames in ``crs`` (default :func:`output_crs`)."""
+    import geopandas as gpd
+
+    target = output_crs(result) if crs is None else crs
+    return {name: gpd.GeoDataFrame(frame, geometry="geometry", crs=result.alignment.crs)
+            .to_crs(target) for name, frame in layer_frames(result, display).items()}
+
+
+@writer("layers.gpkg")
+def write_layers(result, folder: Path, display) -> None:
+    from ..cautions import CAUTIONS
+
+    path = folder / "layers.gpkg"
+    for i, (name, gdf) in enumerate(geodataframes(result, display).items()):
         gdf.to_file(path, layer=name, driver="GPKG", engine="pyogrio",
-                    mode="w" if i == 0 else "a", geometry_type=kind)
+                    mode="w" if i == 0 else "a", geometry_type=GEOMETRY[name],
+                    layer_metadata={"DESCRIPTION": f"gisgrade {name}. CAUTION: {CAUTIONS}"})

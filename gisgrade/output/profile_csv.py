@@ -20,4 +20,5 @@ def write_profile(result, folder, display):
     columns = [c for c in COLUMNS + EXTRA_COLUMNS if c in table.columns]  # ground only: no pipe
     profile = table[columns].copy()
     profile["station"] = display.station(table["station_m"])
+    profile = display.dual(profile)  # US: a column in feet beside each in metres
     profile.to_csv(folder / "profile.csv", index=False, float_format=f"%.{STATION_DECIMALS}f")

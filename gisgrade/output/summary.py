@@ -34,7 +34,8 @@ def summarize(result) -> dict:
         "ground_max_m": float(t["ground_m"].max()),
         "ground_bridged_stations": int(t["ground_bridged"].sum()) if "ground_bridged" in t else 0,
         "ground_band_95_m": float(t["ground_band_m"].iloc[0]) if "ground_band_m" in t else None,
-        "notes": list(line.notes) + list(result.notes),
+        "notes": [Display().render(n) for n in (*line.notes, *result.notes)],
+        "note_templates": list(line.notes) + list(result.notes),
         "crossings": [
             {"name": str(n), "station_m": float(st), "angle_deg": _num(a),
              "bottom_m": float(b), "clearance_required_m": float(c)}
@@ -74,6 +75,7 @@ def summarize(result) -> dict:
         out["valves"] = {k: int(kinds.get(k, 0)) for k in ("combination", "air-release", "air-vacuum", "drain")}
     if result.findings is not None:
         out["findings"] = int(len(result.findings))
+        out["findings_list"] = findings_list(result.findings)
         sep = result.findings[result.findings["check"] == "column separation"]["scenario"]
         out["column_separation"] = list(dict.fromkeys(sep))
     g = result.grades
@@ -104,6 +106,29 @@ def summarize(result) -> dict:
                 row[key] = float(case[key])
         out["scenarios"].append(row)
     out.update(operations_summary(result))
+    return out
+
+
+def findings_list(frame) -> list[dict]:
+    """The findings most serious first, as plain dicts: severity, check,
+    scenario, stations (m), the message in SI and as its template."""
+    from ..findings import by_severity
+
+    cols = ["severity", "check", "scenario", "from_station_m", "to_station_m", "worst_station_m",
+            "message", "template"]
+    rows = by_severity(frame)
+    return [{k: (float(v) if k.endswith("_m") else str(v)) for k, v in zip(cols, r)}
+            for r in rows[[c for c in cols if c in rows]].itertuples(index=False)]
+
+
+def findings_lines(summary: dict, d: Display) -> list[str]:
+    """One line per finding, most serious first, in ``d``'s units."""
+    out = []
+    for f in summary.get("findings_list", []):
+        where = (d.station([f["from_station_m"]])[0] if f["from_station_m"] == f["to_station_m"]
+                 else f"{d.station([f['from_station_m']])[0]} to {d.station([f['to_station_m']])[0]}")
+        out.append(f"  {f['severity'].upper()}: {f['scenario']}: {f['check']} {where}: "
+                   f"{d.render(f.get('template', f['message']))}")
     return out
 
 
@@ -147,7 +172,7 @@ def summary_text(summary: dict) -> str:
                      f"{m(summary['cover_max_m'])}")
     if summary.get("ground_bridged_stations"):
         lines.append(f"ground bridged over nodata at {summary['ground_bridged_stations']} stations")
-    lines += [f"note: {n}" for n in summary["notes"]]
+    lines += [f"note: {d.render(n)}" for n in summary.get("note_templates", summary["notes"])]
     for c in summary["crossings"]:
         achieved = (f"clearance {m(c['clearance_achieved_m'])} (required "
                     f"{m(c['clearance_required_m'])})" if "clearance_achieved_m" in c
@@ -191,8 +216,7 @@ def summary_text(summary: dict) -> str:
                  if any(planes.values()) else "")
         lines.append(f"findings: {summary['findings']}; bends: {summary['bends']}{split}; "
                      f"rules relaxed: {len(summary['relaxations'])}")
-    for r in summary.get("relaxations", []):
-        lines.append(f"relaxed: {r.get('message', r) if isinstance(r, dict) else r}")
+        lines += findings_lines(summary, d)
     if summary.get("column_separation"):
         lines.append(f"COLUMN SEPARATION in {', '.join(summary['column_separation'])}: the pressure "
                      "falls below the vapour pressure; the flow cannot be carried as computed")

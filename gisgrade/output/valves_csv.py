@@ -12,7 +12,8 @@ POINT_COLUMNS = ["station_m", "station", "kind", "elevation_m", "prominence_m", 
 
 @writer("valves.csv", "high_low_points.csv", applies=lambda r: r.valves is not None)
 def write_valves(result, folder, display):
-    v = result.valves.assign(station=display.station(result.valves["station_m"].to_numpy(float)))
-    v[VALVE_COLUMNS].to_csv(folder / "valves.csv", index=False, float_format="%.4f")
+    v = result.valves.assign(station=display.station(result.valves["station_m"].to_numpy(float)),
+                             reason=[display.render(r) for r in result.valves["reason"]])
+    display.dual(v[VALVE_COLUMNS]).to_csv(folder / "valves.csv", index=False, float_format="%.4f")
     p = result.points.assign(station=display.station(result.points["station_m"].to_numpy(float)))
-    p[POINT_COLUMNS].to_csv(folder / "high_low_points.csv", index=False, float_format="%.4f")
+    display.dual(p[POINT_COLUMNS]).to_csv(folder / "high_low_points.csv", index=False, float_format="%.4f")
