@@ -203,20 +203,25 @@ def _grade_lines(ax, result, d, s, w) -> list:
 
 
 def _surge(ax, result, d, s, w, colours) -> list:
-    """The surge envelope (highest and lowest head) of each scenario screened, when present."""
+    """The surge envelope (highest and lowest head) of the scenario with the
+    largest head change, when a screening was made: two thin dotted lines,
+    so the grade lines stay readable (every scenario's envelope is in
+    surge.csv and the report)."""
     surge = getattr(result, "surge", None)
     if surge is None or getattr(surge, "head_max", None) is None:
         return []
+    change = np.nanmax(np.asarray(surge.head_max) - np.asarray(surge.head_min), axis=1)
+    if not np.any(change > 0):
+        return []
+    i = int(np.nanargmax(change))
+    name = surge.names[i]
     k = d.factor("elevation")
-    handles = []
-    for i, name in enumerate(surge.names):
-        c = colours.get(name, "#555555")
-        hi, lo = np.asarray(surge.head_max)[i, w] * k, np.asarray(surge.head_min)[i, w] * k
-        ax.fill_between(s, lo, hi, color=c, alpha=0.10, lw=0)
-        ax.plot(s, hi, color=c, lw=0.7, ls=(0, (1, 2)))
-        ax.plot(s, lo, color=c, lw=0.7, ls=(0, (1, 2)))
-        handles.append(Patch(facecolor=c, alpha=0.25, label=f"surge envelope {name} (screening)"))
-    return handles
+    c = colours.get(name, "#555555")
+    hi, lo = np.asarray(surge.head_max)[i, w] * k, np.asarray(surge.head_min)[i, w] * k
+    ax.plot(s, hi, color=c, lw=0.8, ls=(0, (1, 2)))
+    ax.plot(s, lo, color=c, lw=0.8, ls=(0, (1, 2)))
+    return [Line2D([], [], color=c, lw=0.8, ls=(0, (1, 2)),
+                   label=f"surge envelope, {name} (screening)")]
 
 
 def _labels(ax, x, z, texts, lo, hi, colour="#1f1f1f", top=0.90, turn=0.8):
@@ -392,9 +397,16 @@ def unique(handles) -> list:
     return list(first.values())
 
 
+#: Entries a legend column holds before a second column starts.
+LEGEND_ROWS = 14
+
+
 def legend(ax, handles, **kw) -> None:
-    """The legend of ``handles`` beside ``ax``, on its right."""
-    ax.legend(handles=unique(handles), loc="upper left", bbox_to_anchor=(1.005, 1.0), fontsize=7,
+    """The legend of ``handles`` beside ``ax``, on its right (in two columns
+    when it would run past the axes)."""
+    handles = unique(handles)
+    kw.setdefault("ncol", 2 if len(handles) > LEGEND_ROWS else 1)
+    ax.legend(handles=handles, loc="upper left", bbox_to_anchor=(1.005, 1.0), fontsize=7,
               framealpha=0.95, **kw)
 
 
