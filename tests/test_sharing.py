@@ -527,7 +527,7 @@ def test_surge_and_energy_are_shown_when_a_run_has_them(demo_si, tmp_path):
                                          "annual_mwh": 61.3}])
     ax = profile_figure(r).axes[0]
     labels = [t.get_text() for t in ax.get_legend().get_texts()]
-    assert "surge envelope average day (screening)" in labels
+    assert "surge envelope, average day (screening)" in labels
     tops = [ln for ln in ax.get_lines() if len(ln.get_ydata()) == hgl.shape[1]
             and np.allclose(ln.get_ydata(), hgl[0] + 20.0)]
     assert tops, "the envelope's upper line is the given head_max"
