@@ -406,6 +406,8 @@ class ValvesConfig:
     hgl_margin: float = key("length>=0", "the HGL this close above the pipe needs an air-vacuum "
                             "valve", 5.0, "5 m")
     merge_distance: float = key("length>=0", "valves closer than this are one", 20.0, "20 m")
+    slope_window: float = key("length>=0", "grade breaks closer than this are one change of slope",
+                              50.0, "50 m")
 
 
 @dataclass(frozen=True)

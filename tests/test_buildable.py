@@ -253,9 +253,15 @@ def test_long_runs_get_valves_at_the_interval(grade, kind):
 
 
 def test_ends_of_a_long_near_horizontal_run():
+    # air gathers where the pipe leaves a level run downhill (a convex knee), not
+    # where it falls into one (concave: 600 m here)
     top = np.where(S < 600, 100 - 0.01 * S, np.where(S < 1400, 94.0, 94.0 - 0.01 * (S - 1400)))
     got = site_valves(S, top, [0], [len(S) - 1], rules=ValveRules(interval=1e9, flat_run=100.0))
-    assert kinds(got) == [(600.0, "combination"), (1400.0, "combination")]
+    assert kinds(got) == [(1400.0, "combination")]
+    # a level run between two rises: its start is convex (the rise turns level)
+    up = np.where(S < 600, 100 + 0.01 * S, np.where(S < 1400, 106.0, 106.0 + 0.01 * (S - 1400)))
+    got = site_valves(S, up, [len(S) - 1], [0], rules=ValveRules(interval=1e9, flat_run=100.0))
+    assert kinds(got) == [(600.0, "combination")]
 
 
 def test_valves_close_together_merge_into_one_combination():
@@ -279,3 +285,12 @@ def test_demo_valves_follow_the_designed_high_and_low_points():
     # no stretch longer than the interval without an air valve
     air = np.sort(np.r_[0.0, v.loc[v["kind"] != "drain", "station_m"], r.table["station_m"].iloc[-1]])
     assert np.diff(air).max() <= 500.0 + 1e-6
+
+
+def test_hgl_near_the_pipe_at_the_end_still_gets_a_valve_inside_the_line():
+    # the HGL closest to the pipe at the last station (a fire flow drawn down
+    # at the line's end): the valve goes at the closest point inside the line
+    top = np.full(S.shape, 100.0) + 0.001 * S
+    hgl = 125 - 0.012 * S  # within 5 m of the pipe from 1538 m, 1 m below it at the end
+    got = site_valves(S, top, [], [], grades=[hgl], names=["fire"], rules=WIDE)
+    assert kinds(got) == [(1990.0, "air-vacuum")]

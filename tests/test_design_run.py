@@ -183,10 +183,12 @@ def test_a_relaxed_rule_is_found_at_its_worst_station(tmp_path):
     # by 10.3 - 4 = 6.3 m (exact arithmetic).
     rows = r.findings[r.findings["check"] == "rule relaxed: max cover"]
     assert len(rows) == 1
-    # worst on the full pipe length centred on the crossing (497 to 503 m: its
-    # joints equidistant from the feature), which is straight and level there
-    assert 497.0 - 1e-9 <= rows["worst_station_m"].iloc[0] <= 503.0 + 1e-9
-    assert rows["worst_value"].iloc[0] == pytest.approx(6.3, abs=1e-6)
+    # worst on the dip's bottom, the pipe lengths at the crossing (491 to 509 m:
+    # the length centred on it, 497 to 503 m, and one either side), by at least
+    # the crossing's own need and at most a little more: the bottom length may
+    # tilt by its bends (standard angles), a few decimetres over a joint
+    assert 491.0 - 1e-9 <= rows["worst_station_m"].iloc[0] <= 509.0 + 1e-9
+    assert 6.3 - 1e-6 <= rows["worst_value"].iloc[0] <= 6.3 + 0.5
 
 
 def test_written_tables_limits_reasons_summary_earthwork(tmp_path):

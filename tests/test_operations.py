@@ -408,3 +408,31 @@ def test_a_bigger_pipe_loses_less_head_and_energy(tmp_path):
         assert r.summary["energy_year"]["annual_cost"] == pytest.approx(0.2 * kwh, rel=1e-6)
         energy[d_mm] = (loss, pump["annual_energy_kwh"])
     assert energy[350][0] < energy[250][0] and energy[350][1] < energy[250][1]
+
+
+def test_the_down_surge_stops_at_the_vapour_pressure_line():
+    # Physics (any fluid-transients text: the column separates at the vapour
+    # pressure, so the pressure cannot fall lower): the demo's fire flow would be
+    # driven tens of metres below it by Joukowsky alone; the envelope stops at
+    # the vapour-pressure line at the top of the pipe (vapour pressure from the
+    # water correlations, checked against IAPWS elsewhere; the standard
+    # atmosphere at that elevation), and the check reports by how much it would
+    # have fallen.
+    import gisgrade
+    from gisgrade.cli.demo import demo_project
+    from gisgrade.hydraulics.atmosphere import atmospheric_pressure
+    from gisgrade.hydraulics.water import vapour_pressure
+
+    r = gisgrade.compute(demo_project())
+    s, g = r.surge, r.grades
+    top = r.table["top_m"].to_numpy()
+    rho_g = g.density * 9.80665
+    line = top + (vapour_pressure(r.project.hydraulics.temperature) - atmospheric_pressure(top)) / rho_g
+    assert (s.head_min >= line - 1e-9).all()
+    i = s.names.index("max day + fire")
+    free = g.hgl_low[i] - s.head_change[i]  # Joukowsky alone
+    np.testing.assert_allclose(s.vapour_deficit[i], np.maximum(line - free, 0.0), atol=1e-9)
+    assert s.vapour_deficit[i].max() > 10.0
+    rows = r.findings[r.findings["code"] == "surge-column-separation"]
+    assert (rows["scenario"] == "max day + fire").any()
+    assert "-4" not in r.summary.get("surge_note", "")

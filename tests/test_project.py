@@ -99,7 +99,7 @@ TODAY = {
                  "field_unit layer",
     "design": "joint_length max_joint_deflection bend_angles min_grade max_grade trench_width "
               "grade_break_cost high_point_tolerance curve_joints",
-    "valves": "interval grade_change flat_grade flat_run hgl_margin merge_distance",
+    "valves": "interval grade_change flat_grade flat_run hgl_margin merge_distance slope_window",
     "hydraulics": "source_head flow temperature start entrance end boundary end_head "
                   "required_pressure required_at",
     "scenarios": "name multiplier flow show_egl fire_flow fire_station hours_per_year",
@@ -131,6 +131,7 @@ README_DEFAULTS = {
     ("valves", "interval"): "500 m", ("valves", "grade_change"): "1 %",
     ("valves", "flat_grade"): "0.1 %", ("valves", "flat_run"): "100 m",
     ("valves", "hgl_margin"): "5 m", ("valves", "merge_distance"): "20 m",
+    ("valves", "slope_window"): "50 m",
     ("surge", "restraint"): "anchored", ("energy", "efficiency"): 0.7,
     ("output", "units"): "SI", ("output", "sheet_overlap"): "50 m", ("output", "paper"): "A3",
 }
@@ -160,7 +161,8 @@ FULL = {
                 "trench_width": "0.9 m", "grade_break_cost": "5 m3", "high_point_tolerance": "0.5 m",
                 "curve_joints": 2}],
     "valves": [{"interval": "0.25 mi", "grade_change": "2 %", "flat_grade": "0.2 %",
-                "flat_run": "300 ft", "hgl_margin": "3 m", "merge_distance": "10 m"}],
+                "flat_run": "300 ft", "hgl_margin": "3 m", "merge_distance": "10 m",
+                "slope_window": "40 m"}],
     "hydraulics": [{"source_head": "185 m", "flow": "60 L/s", "temperature": "12 degC",
                     "start": "tank", "entrance": "rounded", "end": "tank",
                     "boundary": "min-pressure", "required_pressure": "200 kPa",

@@ -58,7 +58,7 @@ UPPER_RULES = PRIORITY[:3]
 #: it (max cover is elastic there): far above excavation and bend costs, so
 #: the dip is as small as the rules above max cover allow, fittings included
 #: (as in the least-violation solve, where bends are nearly free).
-MAX_COVER_COST = 1e6
+MAX_COVER_COST = 1e3
 #: Weight of excavation (per m of depth at a mean station) in that solve.
 EXCAVATION_WEIGHT = 1e-3
 
@@ -390,6 +390,19 @@ def _build(P: _Problem, ghat, bends, mg_dir, mode, caps, strict=False, stage=2, 
     if k:
         add_rows(np.r_[np.arange(k), np.arange(k)], np.r_[P.cj, np.minimum(P.cj + 1, n - 1)],
                  np.r_[P.csign * (1 - P.ct), P.csign * P.ct], P.csign * P.crhs, "crossing clearance", 1.0)
+        if r.grade_break_cost > 0 and not least and n > 1 and r.knots is not None:
+            # the pipe length under (over) a crossing laid level where it can be: its
+            # grade costs as much as a grade break of the same size (a judgement)
+            j = np.unique(np.minimum(P.cj, n - 2))
+            q = len(j)
+            u = nv + np.arange(q)
+            cost.append(np.full(q, r.grade_break_cost))
+            lo.append(np.zeros(q))
+            hi.append(np.full(q, np.inf))
+            nv += q
+            for sgn in (1.0, -1.0):
+                add_rows(np.tile(np.arange(q), 3), np.r_[j, j + 1, u],
+                         np.r_[-sgn / h[j], sgn / h[j], -np.ones(q)], np.zeros(q))
 
     # grades g_j = (z_{j+1} - z_j) / h_j:  d_j g_j <= b_j
     seg = np.arange(n - 1)

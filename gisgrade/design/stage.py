@@ -21,6 +21,11 @@ from .points import high_low_points
 from .profile import design_profile
 from .rules import DesignRules, trench_width
 
+#: Largest default high-point tolerance (m). A DEM's stated accuracy is its
+#: absolute error; its error between points a few pipe lengths apart (what makes
+#: a spurious high point) is smaller, and a coarse DEM's 95 % band of metres
+#: would design out real hills (common practice: ripples are decimetres).
+HIGH_POINT_TOLERANCE_CAP = 0.5
 #: A grade break's cost ([design] grade_break_cost) is stated per this change of grade (1 %).
 GRADE_BREAK_UNIT = 0.01
 
@@ -50,8 +55,9 @@ def rules_for(project, table: pd.DataFrame, allowance=None) -> DesignRules:
     cfg = project.design
     od = table["outside_diameter_m"].to_numpy(dtype=float)
     tolerance = cfg.high_point_tolerance
-    if tolerance is None and "ground_band_m" in table:  # what the DEM cannot resolve
-        tolerance = float(np.nanmax(table["ground_band_m"].to_numpy(dtype=float)))
+    if tolerance is None and "ground_band_m" in table:  # what the DEM cannot resolve ...
+        band = float(np.nanmax(table["ground_band_m"].to_numpy(dtype=float)))
+        tolerance = min(band, HIGH_POINT_TOLERANCE_CAP)  # ... over a few pipe lengths
     return DesignRules(
         min_cover=table["min_cover_m"].to_numpy(),
         max_cover=table["max_cover_m"].to_numpy(),  # inf where there is no limit

@@ -8,9 +8,6 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..hydraulics.atmosphere import atmospheric_pressure
-from ..hydraulics.friction import G
-from ..hydraulics.water import vapour_pressure
 from . import PRESSURE_TOLERANCE, check, ranges
 
 
@@ -49,19 +46,16 @@ def surge_rating(inputs, i):
 
 @check("surge-column-separation")
 def surge_column_separation(inputs, i):
-    """The envelope's minimum at the top of the pipe, plus the standard
-    atmosphere there, below the water's vapour pressure."""
+    """Where the down-surge would take the head at the top of the pipe below
+    the vapour-pressure line (absolute pressure = the water's vapour pressure,
+    with the standard atmosphere at that elevation)."""
     s = inputs.surge
     if s is None:
         return []
-    top = inputs.top
-    rho_g = inputs.grades.density * G
-    absolute = rho_g * (s.head_min[i] - top) + atmospheric_pressure(top)
-    p_vapour = float(vapour_pressure(inputs.project.hydraulics.temperature))
-    # as for steady column separation: how far the down-surge head falls below
-    # the vapour-pressure line (a head), never an absolute pressure below zero
-    deficit = (p_vapour - absolute) / rho_g
-    return ranges(inputs.station, deficit, absolute < p_vapour,
+    # how far the down-surge head would fall below the vapour-pressure line (a
+    # head; the envelope itself stops at that line)
+    deficit = s.vapour_deficit[i]
+    return ranges(inputs.station, deficit, deficit > 0,
                   code="surge-column-separation", check="surge column separation",
                   severity="warning", unit="m", limit=0.0, scenario=s.names[i], worst="max",
                   text="down-surge head {value} below the vapour-pressure line: the column "

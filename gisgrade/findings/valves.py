@@ -8,16 +8,18 @@ against the current edition before citing a clause):
    pressure, admits and exhausts air on draining and filling);
 2. where the HGL of any scenario comes within ``hgl_margin`` of the top of
    the pipe (a high point relative to the HGL; it may go sub-atmospheric):
-   an **air-vacuum** valve at the closest point;
+   an **air-vacuum** valve at the closest point inside the line (not at an
+   end station, even where the stretch reaches it);
 3. an increase in downward slope: **air-vacuum**; a decrease in upward
    slope: **air-release**, where the grade changes by at least
-   ``grade_change`` (grade breaks within ``merge_distance`` count as one);
+   ``grade_change`` (grade breaks within ``slope_window`` count as one);
 4. along long runs, so that no stretch between air valves (or the line's
    ends) exceeds ``interval``: **air-release** on ascending runs,
    **air-vacuum** on descending runs, **combination** on near-horizontal runs
    (flatter than ``flat_grade``);
-5. both ends of a near-horizontal run longer than ``flat_run``:
-   **combination**;
+5. the ends of a near-horizontal run longer than ``flat_run`` where the
+   pipe turns convex (it rises into the run, or falls away from it): air
+   gathers there, not at a concave end: **combination**;
 6. every low point: a **drain** (blow-off).
 
 Points at the line's ends are served by what the line connects to (a tank
@@ -74,9 +76,11 @@ def site_valves(station, top, highs, lows, grades=(), names=(), knots=None,
     for hgl, name in zip(np.atleast_2d(grades) if len(grades) else [], names):
         margin = hgl - z
         for a, b in runs(margin < rules.hgl_margin):
+            a, b = max(a, 1), min(b, n - 2)  # the closest point inside the line
+            if a > b:
+                continue
             i = a + int(np.argmin(margin[a:b + 1]))
-            if i not in ends:
-                out.append((i, "air-vacuum", f"HGL {token(margin[i], 'length')} above the pipe in "
+            out.append((i, "air-vacuum", f"HGL {token(margin[i], 'length')} above the pipe in "
                                              f"{name}", 1))
     g = np.diff(z) / np.diff(s)
     out += _slope_changes(s, g, knots, rules)
@@ -85,12 +89,13 @@ def site_valves(station, top, highs, lows, grades=(), names=(), knots=None,
 
 
 def _slope_changes(s, g, knots, rules):
-    """Rule 3: grade breaks (clusters within merge_distance) where the descent
-    steepens or the ascent flattens by at least grade_change."""
+    """Rule 3: grade breaks (those within slope_window of each other count as
+    one slope change) where the descent steepens or the ascent flattens by at
+    least grade_change."""
     inner = np.flatnonzero(np.abs(np.diff(g)) > 1e-9) + 1  # stations where the grade changes
     if not len(inner):
         return []
-    new = np.r_[True, np.diff(s[inner]) > rules.merge_distance]
+    new = np.r_[True, np.diff(s[inner]) > max(rules.slope_window, rules.merge_distance)]
     cluster = np.cumsum(new) - 1
     out = []
     for c in range(cluster[-1] + 1):  # clusters of breaks: few
@@ -115,8 +120,12 @@ def _runs(s, g, knots, rules, placed):
     out = []
     for a, b in zip(np.r_[0, change], np.r_[change, len(g)]):  # runs: few
         if cls[a] == 0 and s[b] - s[a] >= rules.flat_run:
-            for i, where in ((a, "start"), (b, "end")):
-                if 0 < i < len(s) - 1:
+            # the convex ends, where air gathers: not where the pipe falls into the
+            # run or rises out of it (concave)
+            sag_start = a > 0 and cls[a - 1] == -1
+            sag_end = b < len(g) and cls[b] == 1
+            for i, where, sag in ((a, "start", sag_start), (b, "end", sag_end)):
+                if 0 < i < len(s) - 1 and not sag:
                     out.append((i, "combination", f"{where} of a near-horizontal run", 3))
     kinds = {1: ("air-release", "long ascending run"), -1: ("air-vacuum", "long descending run"),
              0: ("combination", "long near-horizontal run")}

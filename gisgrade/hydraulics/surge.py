@@ -268,6 +268,7 @@ class SurgeSet:
     restraint: str
     velocity_change: float | None  #: m/s given, or None: each scenario's flow stopped
     allowance: np.ndarray  #: (n,) Pa a transient may reach above the rating (0: none given)
+    vapour_deficit: np.ndarray = None  #: (k, n) m the down-surge would fall below the vapour line
 
 
 def stage_surge(project, table, grades):
@@ -318,10 +319,20 @@ def stage_surge(project, table, grades):
     hgl_high = np.maximum(grades.hgl, grades.hgl_upstream)
     head_max, head_min = envelope(hgl_high, grades.hgl_low, dh)
     rho_g = grades.density * G
+    # the head cannot fall below the vapour-pressure line at the top of the
+    # pipe: there the column separates (a finding), and the envelope stops
+    from .atmosphere import atmospheric_pressure
+    from .water import vapour_pressure
+
+    top = table["top_m"].to_numpy(dtype=float) if "top_m" in table else grades.axis
+    vapour_line = top + (float(vapour_pressure(T)) - atmospheric_pressure(top)) / rho_g
+    deficit = np.maximum(vapour_line - head_min, 0.0)
+    head_min = np.maximum(head_min, vapour_line)
     return SurgeSet(names=grades.names, station=station, wave_speed=a, head_change=dh,
                     head_max=head_max, head_min=head_min,
                     pressure_max=rho_g * (head_max - grades.axis),
                     pressure_min=rho_g * (head_min - grades.axis), return_time=t_return,
                     factor=factor, restraint=cfg.restraint,
                     velocity_change=cfg.velocity_change,
-                    allowance=np.nan_to_num(per_station("surge_allowance"))), []
+                    allowance=np.nan_to_num(per_station("surge_allowance")),
+                    vapour_deficit=deficit), []

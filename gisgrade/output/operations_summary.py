@@ -35,7 +35,9 @@ def operations_summary(result) -> dict:
                          "pressure_max_station_m": float(s[i]),
                          "pressure_min_kpa": float(surge.pressure_min[k, j] / 1e3),
                          "pressure_min_station_m": float(s[j]),
-                         "above_rating": bool(over.any())})
+                         "above_rating": bool(over.any()),
+                         "column_separates": bool(surge.vapour_deficit is not None
+                                                  and (surge.vapour_deficit[k] > 0).any())})
         out["surge"] = rows
         out["wave_speeds"] = [{"from_station_m": a, "to_station_m": b, "wave_speed_m_s": v}
                               for a, b, v in _runs(s, surge.wave_speed)]
@@ -87,10 +89,11 @@ def operations_text(summary: dict, d: Display) -> list[str]:
     for sc in summary.get("surge", []):
         if sc["head_change_max_m"] <= 0:
             continue
+        low = ("down to the vapour pressure (the column separates)"
+               if sc.get("column_separates") else d.text(sc['pressure_min_kpa'] * 1e3, 'pressure'))
         lines.append(f"surge ({sc['scenario']}): head change up to "
                      f"{d.text(sc['head_change_max_m'], 'head')}, pressure "
-                     f"{d.text(sc['pressure_min_kpa'] * 1e3, 'pressure')} at "
-                     f"{at(sc['pressure_min_station_m'])} to "
+                     f"{low} at {at(sc['pressure_min_station_m'])} to "
                      f"{d.text(sc['pressure_max_kpa'] * 1e3, 'pressure')} at "
                      f"{at(sc['pressure_max_station_m'])}"
                      + ("; ABOVE THE RATING" if sc["above_rating"] else ""))
