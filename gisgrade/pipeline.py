@@ -11,6 +11,8 @@ Python API (:func:`gisgrade.compute`, :func:`gisgrade.run`) call
 from __future__ import annotations
 
 import logging
+
+import numpy as np
 import time
 from contextlib import contextmanager
 
@@ -115,6 +117,9 @@ def _compute_ground(project, progress) -> Result:
         line, crossings, table = stage_alignment(project)
     with clock("terrain"):
         table, notes = stage_terrain(project, line, table)
+        # a feature given by its depth below ground has its bottom once the ground is known
+        st, gr = table["station_m"].to_numpy(), table["ground_m"].to_numpy()
+        crossings = crossings.resolve(lambda x: np.interp(x, st, gr))
     result = Result(project, line, crossings, table, notes=notes, timings=clock.timings)
     with clock("summary"):
         _summarize(result)

@@ -548,6 +548,7 @@ def sample_ground(
     vertical_unit="m",
     method: str = "bilinear",
     max_gap: float | None = None,
+    spacing: float | None = None,
     key: str = "terrain.dem",
 ) -> GroundProfile:
     """Ground elevation [m] at stations (x, y) from one or several DEM files.
@@ -573,7 +574,10 @@ def sample_ground(
     method : "bilinear" or "bicubic"
     max_gap : float, optional
         Longest nodata run bridged linearly [m], measured between the valid
-        stations either side. Default: 3 cells of the finest DEM listed.
+        stations either side. Default: 3 cells of the finest DEM listed, and
+        at least 2 cells plus 2 ``spacing`` (what one missing cell takes away).
+    spacing : float, optional
+        The station spacing [m], for the default ``max_gap``.
     key : str
         Project-file key named in error messages.
 
@@ -660,8 +664,8 @@ def sample_ground(
             z[todo[ok]] = vals[ok]
             source[todo[ok]] = i
 
-    if max_gap is None:
-        max_gap = DEFAULT_MAX_GAP_CELLS * finest
+    if max_gap is None:  # a few cells, and at least what one missing cell takes away
+        max_gap = max(DEFAULT_MAX_GAP_CELLS * finest, 2 * finest + 2 * (spacing or 0.0))
     max_gap = float(max_gap)
 
     invalid = np.isnan(z)
@@ -724,7 +728,7 @@ def stage_terrain(project, line, table):
     ground = sample_ground(
         list(cfg.dem), table["x"].to_numpy(), table["y"].to_numpy(), line.crs,
         station=table["station_m"].to_numpy(), vertical_unit=cfg.vertical_unit,
-        method=cfg.method, max_gap=cfg.max_gap,
+        method=cfg.method, max_gap=cfg.max_gap, spacing=project.alignment.spacing,
     )
     rmse = cfg.vertical_accuracy
     notes = []

@@ -294,3 +294,13 @@ def test_hgl_near_the_pipe_at_the_end_still_gets_a_valve_inside_the_line():
     hgl = 125 - 0.012 * S  # within 5 m of the pipe from 1538 m, 1 m below it at the end
     got = site_valves(S, top, [], [], grades=[hgl], names=["fire"], rules=WIDE)
     assert kinds(got) == [(1990.0, "air-vacuum")]
+
+
+def test_a_turn_beyond_three_stiff_joints_is_taken_by_more_joints_not_a_big_bend(tmp_path):
+    # 1 deg joints, curve_joints 3 (3 deg): a 5 deg turn needs a fitting or more
+    # joints; the smallest standard bend (11.25 deg) would turn 6.25 deg too far,
+    # so five joints of 1 deg take it (exact arithmetic)
+    r = gisgrade.compute(turn_site(tmp_path, 5.0, '\n[design]\nmax_joint_deflection = "1 deg"\n'))
+    assert len(r.bends) == 0
+    share = r.table["plan_share_deg"].to_numpy()
+    assert share.sum() == pytest.approx(5.0) and np.count_nonzero(share) == 5

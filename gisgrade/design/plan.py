@@ -71,6 +71,8 @@ def fewest_fittings(turn: float, angles, capacity: float, max_count: int = 3) ->
     [22.5]
     >>> deg(fewest_fittings(np.radians(8), std, np.radians(9)))
     []
+    >>> deg(fewest_fittings(np.radians(5), std, np.radians(3)))  # joints beyond their reach
+    []
     """
     turn = abs(float(turn))
     if turn <= capacity + 1e-12:
@@ -83,9 +85,12 @@ def fewest_fittings(turn: float, angles, capacity: float, max_count: int = 3) ->
                 best = (miss, combo)
         if best is not None:
             return best[1]
-    # nothing within the joints' reach: the closest total of the most fittings
-    combos = [c for k in range(1, max_count + 1) for c in combinations_with_replacement(sorted(angles), k)]
-    return min(combos, key=lambda c: (abs(turn - sum(c)), len(c)))
+    # nothing within the joints' reach: what leaves the joints least to do,
+    # no fitting at all included (a 5 deg turn on 1 deg joints is five joints,
+    # not an 11.25 deg bend turned back by seven), then the fewest fittings
+    combos = [()] + [c for k in range(1, max_count + 1)
+                     for c in combinations_with_replacement(sorted(angles), k)]
+    return min(combos, key=lambda c: (round(abs(turn - sum(c)), 12), len(c)))
 
 
 def vertical_allowance(delta, share):
@@ -115,7 +120,7 @@ class PlanDesign:
     """How each vertex's plan turn is taken."""
 
     turn: np.ndarray  #: (n,) rad, signed plan turn at each station (vertices only)
-    share: np.ndarray  #: (n,) rad, the plan turn each station's joint takes
+    share: np.ndarray  #: (n,) rad, the plan turn each station's joint takes (+ left, - right)
     allowance: np.ndarray  #: (n,) rad left for a change of grade at each station's joint
     fittings: pd.DataFrame  #: one row per horizontal fitting: station index, angle (rad), direction
 
@@ -146,7 +151,7 @@ def plan_design(station, x, y, knots, delta: float, angles, curve_joints: int = 
         k = int(np.ceil(abs(rest) / delta - 1e-9)) if delta > 0 else 0
         if k:
             near = knot_idx[np.argsort(np.abs(s[knot_idx] - s[v]), kind="stable")[:k]]
-            share[near] += abs(rest) / k
+            share[near] += np.sign(turn[v]) * rest / k  # + left; against a fitting's turn: -
     allowance = vertical_allowance(delta, share)
     fittings = pd.DataFrame(rows, columns=["index", "angle", "direction", "combo"])
     return PlanDesign(turn, share, allowance, fittings)

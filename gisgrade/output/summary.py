@@ -224,7 +224,23 @@ def summary_text(summary: dict) -> str:
     return "\n".join(lines)
 
 
+def json_safe(obj):
+    """``obj`` with every NaN or infinite number as null (JSON, RFC 8259, has none).
+
+    >>> json_safe({"a": [1.0, float("nan")], "b": float("inf")})
+    {'a': [1.0, None], 'b': None}
+    """
+    if isinstance(obj, dict):
+        return {k: json_safe(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [json_safe(v) for v in obj]
+    if isinstance(obj, float) and not np.isfinite(obj):
+        return None
+    return obj
+
+
 @writer("summary.json", "summary.txt")
 def write_summary(result, folder: Path, display=None) -> None:
-    (folder / "summary.json").write_text(json.dumps(result.summary, indent=2) + "\n")
+    (folder / "summary.json").write_text(
+        json.dumps(json_safe(result.summary), indent=2, allow_nan=False) + "\n")
     (folder / "summary.txt").write_text(summary_text(result.summary) + "\n")
