@@ -234,7 +234,10 @@ class RoutesResult:
         import pandas as pd
 
         rows = [r for o in self.outcomes for r in o.rows]
-        return pd.DataFrame(rows, columns=list(COLUMNS))
+        table = pd.DataFrame(rows, columns=list(COLUMNS))
+        numeric = [c for c in COLUMNS if c not in ("route", "scenario", "status")]
+        table[numeric] = table[numeric].apply(pd.to_numeric)  # failed rows: NaN, not None
+        return table
 
     @property
     def failed(self) -> list[str]:
@@ -243,13 +246,14 @@ class RoutesResult:
     def write(self, outdir) -> list[Path]:
         """Write ``routes.csv``, ``routes.gpkg``, ``routes.png`` and each route's
         outputs under ``<route>/``, all at once into ``outdir`` (swapped in whole)."""
+        from .display import display_of
         from .output.atomic import atomic_folder
         from .output.csv import write_csv
 
         project = self.project
         inputs = [project.path, *project.input_paths()]
         with atomic_folder(outdir, inputs=inputs) as tmp:
-            write_csv(self.table, tmp / "routes.csv")
+            write_csv(display_of(project).dual(self.table), tmp / "routes.csv")
             self._write_layers(tmp / "routes.gpkg")
             self._write_figure(tmp / "routes.png")
             for o, folder in zip(self.outcomes, self.folders):

@@ -78,6 +78,9 @@ def command(project, outdir, workers, scheduler, figures, verbose, quiet):
 
 
 def _summary(result) -> str:
+    from ..display import display_of
+
+    d = display_of(result.project)
     t = result.table
     ok = t[t["status"] == "ok"]
     lines = [f"{len(result.outcomes)} routes, {len(result.outcomes) - len(result.failed)} ran, "
@@ -87,7 +90,7 @@ def _summary(result) -> str:
             lines.append(f"  {o.name}: {o.error}")
         else:
             first = ok[ok["route"] == o.name].iloc[0]
-            lines.append(f"  {o.name}: {first['length_m']:.0f} m, lowest pressure "
-                         f"{first['min_pressure_kpa']:.0f} kPa ({first['scenario']}), "
-                         f"{int(first['findings'])} findings")
+            lines.append(f"  {o.name}: {d.text(first['length_m'], 'length', 0)}, lowest "
+                         f"pressure {d.text(first['min_pressure_kpa'] * 1e3, 'pressure')} "
+                         f"({first['scenario']}), {int(first['findings'])} findings")
     return "\n".join(lines)
