@@ -282,7 +282,7 @@ class RoutesResult:
             gdf = gpd.GeoDataFrame(pd.concat([p.to_crs(crs) for p in parts], ignore_index=True),
                                    geometry="geometry", crs=crs)
             gdf = gdf[["route", *[c for c in gdf.columns if c != "route"]]]
-            gdf.to_file(path, layer=name, driver="GPKG", engine="pyogrio",
+            gdf.to_file(path, layer=name, driver="GPKG", engine="pyogrio", use_arrow=True,
                         mode="w" if first else "a", geometry_type=GEOMETRY[name],
                         layer_metadata={"DESCRIPTION": f"gisgrade {name}, every route. "
                                                        f"CAUTION: {CAUTIONS}"})

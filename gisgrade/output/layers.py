@@ -295,6 +295,6 @@ def write_layers(result, folder: Path, display) -> None:
 
     path = folder / "layers.gpkg"
     for i, (name, gdf) in enumerate(geodataframes(result, display).items()):
-        gdf.to_file(path, layer=name, driver="GPKG", engine="pyogrio",
+        gdf.to_file(path, layer=name, driver="GPKG", engine="pyogrio", use_arrow=True,
                     mode="w" if i == 0 else "a", geometry_type=GEOMETRY[name],
                     layer_metadata={"DESCRIPTION": f"gisgrade {name}. CAUTION: {CAUTIONS}"})
