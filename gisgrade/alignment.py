@@ -674,10 +674,17 @@ def format_station(station_m, units: str = "SI", decimals: int = 2) -> np.ndarra
     scale = 10 ** decimals
     ticks = np.round(np.abs(value) * scale).astype(np.int64)
     major, minor = np.divmod(ticks, unit * scale)
+    if s.size == 0:
+        return np.asarray([], dtype=object)
+    # built a column at a time (numpy.strings), not a string a station
+    strs = np.strings
     sign = np.where((value < 0) & (ticks > 0), "-", "")
-    width += decimals + (1 if decimals else 0)
-    out = [f"{sg}{M}+{m / scale:0{width}.{decimals}f}" for sg, M, m in zip(sign, major, minor)]
-    return np.asarray(out, dtype=object)
+    whole, frac = np.divmod(minor, scale)
+    out = strs.add(strs.add(sign, major.astype(str)),
+                   strs.add("+", strs.zfill(whole.astype(str), width)))
+    if decimals:
+        out = strs.add(strs.add(out, "."), strs.zfill(frac.astype(str), decimals))
+    return out.astype(object)
 
 
 def stage_alignment(project, frame=None):
