@@ -178,9 +178,11 @@ def _read_tree(folder: Path) -> dict:
             for p in sorted(folder.rglob("*")) if p.is_file()}
 
 
-def run_route(project, name: str, frame, figures: bool = False) -> Outcome:
+def run_route(project, name: str, frame, figures: bool = False,
+              layers: bool = False) -> Outcome:
     """The whole job on one route: compute, its layers, its own output files
-    (as bytes). A bad input or a failure of the route is caught and becomes
+    (as bytes; its figures with ``figures``, its own layer files with
+    ``layers``: every route's layers are in ``routes.gpkg`` anyway). A bad input or a failure of the route is caught and becomes
     the ``status`` of its row; nothing here raises."""
     import time
 
@@ -194,10 +196,10 @@ def run_route(project, name: str, frame, figures: bool = False) -> Outcome:
             warnings.simplefilter("ignore")
             result = compute(project, frame=frame)
             display = display_of(project)
-            layers = {n: g.assign(route=name) for n, g in geodataframes(result, display).items()}
+            frames = {n: g.assign(route=name) for n, g in geodataframes(result, display).items()}
             with tempfile.TemporaryDirectory(prefix="gisgrade-route-") as tmp:
                 out = Path(tmp) / "out"
-                result.write(out, figures=figures)
+                result.write(out, figures=figures, layers=layers)
                 files = _read_tree(out)
             plan, prof = _figure_data(result)
     except InputError as exc:
@@ -207,7 +209,7 @@ def run_route(project, name: str, frame, figures: bool = False) -> Outcome:
         reason = f"failed: {type(exc).__name__}: {first_line(exc)}"
         return Outcome(name, [_failed(name, reason)], error=reason,
                        seconds=time.perf_counter() - t0)
-    return Outcome(name, route_rows(name, result), None, layers, files, plan, prof,
+    return Outcome(name, route_rows(name, result), None, frames, files, plan, prof,
                    time.perf_counter() - t0)
 
 
@@ -315,7 +317,7 @@ def _cluster(workers: int | None, scheduler: str | None, n_routes: int):
 
 
 def run_routes(project, lines=None, *, workers: int | None = None, scheduler: str | None = None,
-               figures: bool = False, progress=None) -> RoutesResult:
+               figures: bool = False, layers: bool = False, progress=None) -> RoutesResult:
     """The whole job on every route; writes nothing (see :meth:`RoutesResult.write`).
 
     ``project``: a path or a loaded :class:`~gisgrade.project.Project`.
@@ -324,7 +326,9 @@ def run_routes(project, lines=None, *, workers: int | None = None, scheduler: st
     routes). ``workers``: LocalCluster processes (``0``: every route in this
     process, no Dask); ``scheduler``: the address of an existing Dask
     scheduler whose workers see the project's files at the same paths.
-    ``figures``: each route's figures too (off by default in a batch).
+    ``figures``: each route's figures too, ``layers``: each route's own layer
+    files too (both off by default in a batch; ``routes.gpkg`` has every
+    route's layers).
     ``progress(done, total)`` is called as routes finish.
     """
     from .pipeline import _project
@@ -341,20 +345,20 @@ def run_routes(project, lines=None, *, workers: int | None = None, scheduler: st
     if workers == 0 and not scheduler:
         outcomes = []
         for i, (name, frame) in enumerate(routes):
-            outcomes.append(run_route(project, name, frame, figures))
+            outcomes.append(run_route(project, name, frame, figures, layers))
             progress(i + 1, total)
     else:
-        outcomes = _on_dask(project, routes, workers, scheduler, figures, progress)
+        outcomes = _on_dask(project, routes, workers, scheduler, figures, layers, progress)
     return RoutesResult(project, outcomes, _unique_folders(names))
 
 
-def _on_dask(project, routes, workers, scheduler, figures, progress) -> list[Outcome]:
+def _on_dask(project, routes, workers, scheduler, figures, layers, progress) -> list[Outcome]:
     from distributed import as_completed
 
     client, cluster = _cluster(workers, scheduler, len(routes))
     try:
         shared = client.scatter(project, broadcast=True)
-        futures = [client.submit(run_route, shared, name, frame, figures, pure=False,
+        futures = [client.submit(run_route, shared, name, frame, figures, layers, pure=False,
                                  key=f"gisgrade-route-{i}")
                    for i, (name, frame) in enumerate(routes)]
         index = {f.key: i for i, f in enumerate(futures)}

@@ -122,7 +122,9 @@ def test_layers_hold_every_route(routes_run):
 def test_outputs_per_route_and_the_figure(routes_run):
     _, out, _, _ = routes_run
     assert sorted(p.name for p in out.iterdir() if p.is_dir()) == ["A", "B_north", "C"]
-    assert not (out / "A" / "profile.png").exists()  # figures only when asked
+    # figures and each route's own layer files only when asked (routes.gpkg has the layers)
+    assert not (out / "A" / "profile.png").exists() and not (out / "A" / "layers.gpkg").exists()
+    assert (out / "A" / "report.html").exists() and (out / "A" / "summary.json").exists()
     import matplotlib.image as mpimg
 
     img = mpimg.imread(out / "routes.png")
@@ -155,6 +157,22 @@ def test_lines_given_in_place_of_the_layer(tmp_path):
     res = run_routes(project, lines, workers=0)
     assert list(res.table.drop_duplicates("route")["route"]) == ["x", "y"]
     assert (res.table["status"] == "ok").all()
+
+
+def test_figures_and_layers_when_asked_give_every_file_of_a_run(tmp_path):
+    import geopandas as gpd
+    from shapely.geometry import LineString
+
+    import gisgrade
+    from gisgrade.routes import run_routes
+
+    project = make_site(tmp_path)
+    lines = gpd.GeoDataFrame({"route": ["x"]}, geometry=[LineString(LINES[0])], crs="EPSG:32633")
+    run_routes(project, lines, workers=0, figures=True, layers=True).write(tmp_path / "r")
+    project.write_text(project.read_text().replace('route_field = "name"', "where = \"name = 'A'\""))
+    gisgrade.run(project, tmp_path / "alone")
+    names = lambda d: sorted(str(p.relative_to(d)) for p in d.rglob("*") if p.is_file())
+    assert names(tmp_path / "r" / "x") == names(tmp_path / "alone")
 
 
 def test_an_existing_scheduler_by_address(tmp_path):

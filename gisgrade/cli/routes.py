@@ -50,9 +50,12 @@ class RoutesBar:
               help="an existing Dask scheduler (e.g. tcp://10.0.0.5:8786) whose workers see "
                    "the project's files at the same paths")
 @click.option("--figures", is_flag=True,
-              help="each route's figures too (profile.png, sheets/, map.png, report figures)")
+              help="each route's figures too (profile.png, sheets/, map.png)")
+@click.option("--layers", is_flag=True,
+              help="each route's own layer files too (layers.gpkg, geojson/, layers.kml, "
+                   "styles/); routes.gpkg has every route's layers either way")
 @verbosity
-def command(project, outdir, workers, scheduler, figures, verbose, quiet):
+def command(project, outdir, workers, scheduler, figures, layers, verbose, quiet):
     verbose, quiet = setup_logging(verbose, quiet)
     if workers is not None and scheduler:
         click.echo("gisgrade: error: --workers and --scheduler: give one or the other", err=True)
@@ -64,7 +67,7 @@ def command(project, outdir, workers, scheduler, figures, verbose, quiet):
 
         loaded = load(project)
         result = run_routes(loaded, workers=workers, scheduler=scheduler, figures=figures,
-                            progress=RoutesBar(enabled=not quiet))
+                            layers=layers, progress=RoutesBar(enabled=not quiet))
         result.write(outdir)
         return result
 

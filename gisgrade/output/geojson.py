@@ -126,7 +126,7 @@ def wgs84_layers(result, display) -> dict:
     return out
 
 
-@writer("geojson")
+@writer("geojson", layer=True)
 def write_geojson(result, folder: Path, display) -> None:
     from ..cautions import CAUTIONS
 

@@ -164,7 +164,7 @@ def document(result, display):
     return root
 
 
-@writer("layers.kml")
+@writer("layers.kml", layer=True)
 def write_kml(result, folder: Path, display) -> None:
     root = document(result, display)
     ET.indent(root)

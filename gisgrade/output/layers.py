@@ -289,7 +289,7 @@ def geodataframes(result, display, crs=None) -> dict:
             .to_crs(target) for name, frame in layer_frames(result, display).items()}
 
 
-@writer("layers.gpkg")
+@writer("layers.gpkg", layer=True)
 def write_layers(result, folder: Path, display) -> None:
     from ..cautions import CAUTIONS
 
