@@ -245,9 +245,11 @@ class RoutesResult:
     def failed(self) -> list[str]:
         return [o.name for o in self.outcomes if o.error is not None]
 
-    def write(self, outdir) -> list[Path]:
+    def write(self, outdir, parquet: bool = False) -> list[Path]:
         """Write ``routes.csv``, ``routes.gpkg``, ``routes.png`` and each route's
-        outputs under ``<route>/``, all at once into ``outdir`` (swapped in whole)."""
+        outputs under ``<route>/``, all at once into ``outdir`` (swapped in whole).
+        ``parquet``: also ``routes.parquet`` (the table) and ``parquet/<layer>.parquet``
+        (every route's layers as GeoParquet), columnar files for large runs."""
         from .display import display_of
         from .output.atomic import atomic_folder
         from .output.csv import write_csv
@@ -256,7 +258,13 @@ class RoutesResult:
         inputs = [project.path, *project.input_paths()]
         with atomic_folder(outdir, inputs=inputs) as tmp:
             write_csv(display_of(project).dual(self.table), tmp / "routes.csv")
-            self._write_layers(tmp / "routes.gpkg")
+            merged = self._merged_layers()
+            self._write_layers(merged, tmp / "routes.gpkg")
+            if parquet:
+                self.table.to_parquet(tmp / "routes.parquet", index=False)
+                (tmp / "parquet").mkdir()
+                for name, gdf in merged.items():
+                    gdf.to_parquet(tmp / "parquet" / f"{name}.parquet", index=False)
             self._write_figure(tmp / "routes.png")
             for o, folder in zip(self.outcomes, self.folders):
                 for rel, data in o.files.items():
@@ -266,29 +274,36 @@ class RoutesResult:
         out = Path(outdir)
         return sorted(p for p in out.rglob("*") if p.is_file())
 
-    def _write_layers(self, path: Path) -> None:
+    def _merged_layers(self) -> dict:
+        """Each layer name -> one GeoDataFrame of every route's features
+        (``route`` first), in the first route's output CRS."""
         import geopandas as gpd
         import pandas as pd
 
-        from .cautions import CAUTIONS
         from .output.layers import GEOMETRY
 
         by_layer: dict[str, list] = {}
         for o in self.outcomes:
             for name, gdf in o.layers.items():
                 by_layer.setdefault(name, []).append(gdf)
-        first = True
+        out = {}
         for name in [n for n in GEOMETRY if n in by_layer]:
             parts = by_layer[name]
             crs = parts[0].crs
             gdf = gpd.GeoDataFrame(pd.concat([p.to_crs(crs) for p in parts], ignore_index=True),
                                    geometry="geometry", crs=crs)
-            gdf = gdf[["route", *[c for c in gdf.columns if c != "route"]]]
+            out[name] = gdf[["route", *[c for c in gdf.columns if c != "route"]]]
+        return out
+
+    def _write_layers(self, merged: dict, path: Path) -> None:
+        from .cautions import CAUTIONS
+        from .output.layers import GEOMETRY
+
+        for i, (name, gdf) in enumerate(merged.items()):
             gdf.to_file(path, layer=name, driver="GPKG", engine="pyogrio", use_arrow=True,
-                        mode="w" if first else "a", geometry_type=GEOMETRY[name],
+                        mode="w" if i == 0 else "a", geometry_type=GEOMETRY[name],
                         layer_metadata={"DESCRIPTION": f"gisgrade {name}, every route. "
                                                        f"CAUTION: {CAUTIONS}"})
-            first = False
 
     def _write_figure(self, path: Path) -> None:
         from .display import display_of

@@ -168,7 +168,14 @@ def test_figures_and_layers_when_asked_give_every_file_of_a_run(tmp_path):
 
     project = make_site(tmp_path)
     lines = gpd.GeoDataFrame({"route": ["x"]}, geometry=[LineString(LINES[0])], crs="EPSG:32633")
-    run_routes(project, lines, workers=0, figures=True, layers=True).write(tmp_path / "r")
+    res = run_routes(project, lines, workers=0, figures=True, layers=True)
+    res.write(tmp_path / "r", parquet=True)
+    # the columnar copies read back by pyarrow / geopandas equal the CSV and the GeoPackage
+    pd.testing.assert_frame_equal(pd.read_parquet(tmp_path / "r" / "routes.parquet"), res.table)
+    pq = gpd.read_parquet(tmp_path / "r" / "parquet" / "pipe_pressure.parquet")
+    gp = gpd.read_file(tmp_path / "r" / "routes.gpkg", layer="pipe_pressure")
+    assert len(pq) == len(gp) and pq.crs == gp.crs
+    np.testing.assert_allclose(pq["hgl_m"], gp["hgl_m"])
     project.write_text(project.read_text().replace('route_field = "name"', "where = \"name = 'A'\""))
     gisgrade.run(project, tmp_path / "alone")
     names = lambda d: sorted(str(p.relative_to(d)) for p in d.rglob("*") if p.is_file())

@@ -54,8 +54,10 @@ class RoutesBar:
 @click.option("--layers", is_flag=True,
               help="each route's own layer files too (layers.gpkg, geojson/, layers.kml, "
                    "styles/); routes.gpkg has every route's layers either way")
+@click.option("--parquet", is_flag=True,
+              help="also routes.parquet and parquet/<layer>.parquet (GeoParquet), for large runs")
 @verbosity
-def command(project, outdir, workers, scheduler, figures, layers, verbose, quiet):
+def command(project, outdir, workers, scheduler, figures, layers, parquet, verbose, quiet):
     verbose, quiet = setup_logging(verbose, quiet)
     if workers is not None and scheduler:
         click.echo("gisgrade: error: --workers and --scheduler: give one or the other", err=True)
@@ -68,7 +70,7 @@ def command(project, outdir, workers, scheduler, figures, layers, verbose, quiet
         loaded = load(project)
         result = run_routes(loaded, workers=workers, scheduler=scheduler, figures=figures,
                             layers=layers, progress=RoutesBar(enabled=not quiet))
-        result.write(outdir)
+        result.write(outdir, parquet=parquet)
         return result
 
     result, status = guarded(work)
