@@ -272,4 +272,6 @@ def _north(ax, crs, extent) -> None:
 
 @writer("map.png", figure=True)
 def write_map(result, folder: Path, display: Display) -> None:
-    map_figure(result, display).savefig(folder / "map.png", dpi=130)
+    # tight: the key at the right keeps its long class names whole
+    map_figure(result, display).savefig(folder / "map.png", dpi=130, bbox_inches="tight",
+                                        pad_inches=0.15)

@@ -218,10 +218,19 @@ def _surge(ax, result, d, s, w, colours) -> list:
     k = d.factor("elevation")
     c = colours.get(name, "#555555")
     hi, lo = np.asarray(surge.head_max)[i, w] * k, np.asarray(surge.head_min)[i, w] * k
+    # the envelope must not squash the profile: the scale stays that of the
+    # ground, pipe and grade lines, and an envelope beyond it runs off scale
+    ylo, yhi = ax.get_ylim()
     ax.plot(s, hi, color=c, lw=0.8, ls=(0, (1, 2)))
     ax.plot(s, lo, color=c, lw=0.8, ls=(0, (1, 2)))
-    return [Line2D([], [], color=c, lw=0.8, ls=(0, (1, 2)),
-                   label=f"surge envelope, {name} (screening)")]
+    ax.set_ylim(ylo, yhi)
+    label = f"surge envelope, {name} (screening)"
+    off = [f"up to {d.text(np.nanmax(hi) / k, 'elevation')}" if np.nanmax(hi) > yhi else "",
+           f"down to {d.text(np.nanmin(lo) / k, 'elevation')}" if np.nanmin(lo) < ylo else ""]
+    off = ", ".join(o for o in off if o)
+    if off:
+        label += f"\n  (off scale: {off})"
+    return [Line2D([], [], color=c, lw=0.8, ls=(0, (1, 2)), label=label)]
 
 
 def _labels(ax, x, z, texts, lo, hi, colour="#1f1f1f", top=0.90, turn=0.8):
