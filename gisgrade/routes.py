@@ -309,7 +309,7 @@ class RoutesResult:
         from .display import display_of
         from .output.routes_figure import draw_routes
 
-        draw_routes(self.outcomes, self.table, display_of(self.project), path)
+        draw_routes(self.outcomes, self.table, display_of(self.project), path, self.project)
 
 
 def _cluster(workers: int | None, scheduler: str | None, n_routes: int):

@@ -26,7 +26,7 @@ def _looks(n: int):
     return [(colours[i % len(colours)], DASHES[i % len(DASHES)]) for i in range(n)]
 
 
-def draw_routes(outcomes, table, display, path) -> None:
+def draw_routes(outcomes, table, display, path, project=None) -> None:
     """Draw the comparison of ``outcomes`` (:class:`gisgrade.routes.Outcome`) to ``path``."""
     from matplotlib.figure import Figure
 
@@ -68,7 +68,7 @@ def draw_routes(outcomes, table, display, path) -> None:
     prof.set_ylabel(f"elevation ({E})", fontsize=8)
     prof.tick_params(labelsize=7)
     prof.grid(alpha=0.25)
-    _bars(bars, ok, looks, table, display)
+    _bars(bars, ok, looks, table, display, project)
     if failed:
         lines = [f"failed: {o.name}: {o.error}" for o in failed[:6]]
         if len(failed) > 6:
@@ -78,7 +78,7 @@ def draw_routes(outcomes, table, display, path) -> None:
     fig.savefig(path, dpi=110)
 
 
-def _bars(axes, ok, looks, table, display) -> None:
+def _bars(axes, ok, looks, table, display, project=None) -> None:
     """Length and lowest pressure of each route's first scenario, as bars."""
     names = [o.name for o in ok]
     if not names:
@@ -103,3 +103,8 @@ def _bars(axes, ok, looks, table, display) -> None:
     axes[0].set_yticks(y if not many else y[:: len(names) // 15 + 1],
                        names if not many else names[:: len(names) // 15 + 1], fontsize=7)
     axes[1].set_yticks([])
+    low = getattr(getattr(project, "checks", None), "min_pressure", None)
+    if low is not None:  # the minimum the bars are judged against
+        axes[1].axvline(display.value(low, "pressure"), color="#7a2e00", lw=1.2, ls="--")
+        axes[1].set_title(f"{axes[1].get_title(loc='left')}\n(dashed: the minimum, "
+                          f"{display.text(low, 'pressure')})", fontsize=9, loc="left")
