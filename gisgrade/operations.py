@@ -17,6 +17,7 @@ import numpy as np
 from .display import display_of
 from .hydraulics.elements import suggest_elements
 from .hydraulics.energy import stage_energy
+from .hydraulics.stage import project_elements
 from .hydraulics.surge import stage_surge
 
 
@@ -43,5 +44,7 @@ def stage_operations(project, table, grades) -> Operations:
     proposal = suggest_elements(grades.station, grades.axis, grades.hgl, grades.hgl_upstream,
                                 grades.egl, grades.flow.any(axis=1), grades.names,
                                 checks.min_pressure, checks.max_pressure, grades.density,
-                                display=display_of(project), resets=[int(r) for r in resets])
+                                display=display_of(project), resets=[int(r) for r in resets],
+                                check_min=grades.minimum_applies, base=grades.plain,
+                                own=project_elements(project, table) if len(own) else ())
     return Operations(surge, energy, proposal, notes)
