@@ -45,3 +45,33 @@ def test_profile_sheet_prints_the_exaggeration_of_its_own_axes(flat_project):
     ve = (abs(x1 - x0) / (pos.width * w_in)) / (abs(y1 - y0) / (pos.height * h_in))
     title = ax.get_title(loc="left")
     assert f"(vertical exaggeration {ve:.0f}x)" in title
+
+
+def test_us_crossing_close_ups_read_in_feet(demo_us):
+    # Every length a US reader sees on a crossing close-up is in feet: the
+    # window a round number of feet each side (at least 100 ft), the axis
+    # labels in ft, clearances to 0.01 ft (0.30 m is 0.98 ft: 1 ft = 0.3048 m,
+    # NIST SP 811) so a short clearance does not read as the required one.
+    import re
+
+    import gisgrade
+    from matplotlib.figure import Figure
+
+    from gisgrade.display import Display
+
+    project, _ = demo_us
+    r = gisgrade.compute(project)
+    d = Display("US")
+    fig = Figure(figsize=(12, 4))
+    c = r.crossings
+    plot.crossing_details(fig, fig.add_gridspec(1, 1)[0], r, d, list(range(len(c))), len(c))
+    for ax, i in zip(fig.axes, range(len(c))):
+        lo, hi = ax.get_xlim()
+        assert lo == pytest.approx(-hi) and hi >= 100 - 1e-9
+        assert hi / 50 == pytest.approx(round(hi / 50), abs=1e-9)
+        words = [ax.get_xlabel(), ax.get_ylabel(), ax.get_title()] + [t.get_text() for t in ax.texts]
+        text = " ".join(words)
+        assert not re.search(r"\d m\b|\(m\)|\bm from", text), text
+        assert ax.get_xlabel() == "ft from crossing"
+        shown = re.search(r"required (\d+\.\d\d) ft", text)
+        assert shown and float(shown.group(1)) == pytest.approx(c.clearance[i] / 0.3048, abs=0.005)

@@ -264,8 +264,8 @@ def _crossings(ax, result, d, lo, hi, detail) -> list:
     texts = [str(n) for n in c.name[inside]]
     if detail and result.clearances is not None:
         ach = result.clearances.achieved[inside]
-        texts = [f"{n} {d.station([st], 2)[0]}: clearance {d.text(a, 'length')} "
-                 f"(required {d.text(r, 'length')})" for n, st, a, r in
+        texts = [f"{n} {d.station([st], 2)[0]}: clearance {d.text(a, 'length', 2)} "
+                 f"(required {d.text(r, 'length', 2)})" for n, st, a, r in
                  zip(texts, c.station[inside], ach, c.clearance[inside])]
     _labels(ax, c.station[inside], c.bottom[inside] * k, texts, lo, hi, turn=0.55 if detail else 0.8)
     return [Line2D([], [], marker="v", ls="", color=OUTLINE, ms=4, label="crossed feature (bottom)"),
@@ -459,10 +459,14 @@ def profile_figure(result, display: Display | None = None) -> Figure:
 def crossing_details(fig, cell, result, d: Display, shown, per_row: int, rows=None) -> None:
     """A close-up of each crossing of ``shown`` (indices), ``per_row`` to a
     row of ``cell`` (``rows`` of them, default as many as needed), at a
-    modest exaggeration, the required clearance drawn over the footprint only."""
+    modest exaggeration, the required clearance drawn over the footprint only;
+    every length in the reader's units: the window a round number of them
+    (at least 100 ft or 30 m each side), clearances to 0.01 ft or m."""
     c, t = result.crossings, result.table
     s = t["station_m"].to_numpy()
     k = d.factor("elevation")
+    f = d.factor("length")
+    unit = 1.0 / f  # one display length unit, m
     reach = c.reach()
     spacing = float(np.median(np.diff(s))) if len(s) > 1 else 10.0
     rows = rows or int(np.ceil(len(shown) / per_row))
@@ -470,28 +474,30 @@ def crossing_details(fig, cell, result, d: Display, shown, per_row: int, rows=No
     for r in range(int(np.ceil(len(shown) / per_row))):
         for n, i in enumerate(shown[r * per_row:(r + 1) * per_row]):
             ax = fig.add_subplot(sub[r, n])
-            half = max(30.0, 4 * reach[i], 3 * spacing)
+            round_to = (50 if d.us else 10) * unit
+            half = np.ceil(max((100 if d.us else 30) * unit, 4 * reach[i], 3 * spacing)
+                           / round_to - 1e-9) * round_to
             view = (s >= c.station[i] - half - spacing) & (s <= c.station[i] + half + spacing)
-            x = (s[view] - c.station[i]) * d.factor("length")
+            x = (s[view] - c.station[i]) * f
             ax.plot(x, t["ground_m"].to_numpy()[view] * k, **GROUND)
             ax.fill_between(x, t["invert_m"].to_numpy()[view] * k, t["top_m"].to_numpy()[view] * k,
                             facecolor=PIPE_FACE, edgecolor=PIPE_EDGE, lw=0.5)
-            w = max(2 * reach[i], 0.5) * d.factor("length")  # the footprint (0.5 m if a line)
+            w = max(2 * reach[i], (1.5 if d.us else 0.5) * unit) * f  # footprint (a line: 1.5 ft, 0.5 m)
             height = c.size[i] if np.isfinite(c.size[i]) else 0.3
             ax.add_patch(Rectangle((-w / 2, c.bottom[i] * k), w, height * k, facecolor="#f4f1ea",
                                    edgecolor=OUTLINE, lw=0.8,
                                    hatch=None if np.isfinite(c.size[i]) else "////"))
             limit = (c.bottom[i] - c.clearance[i] if c.side[i] == "under"
                      else c.top[i] + c.clearance[i])
-            ax.plot([-w / 2 - 3 * d.factor("length"), w / 2 + 3 * d.factor("length")],
-                    [limit * k] * 2, color="#d55e00", lw=1.6, ls="--")
-            ax.set_xlim(-half * d.factor("length"), half * d.factor("length"))
+            tail = 10.0 if d.us else 3.0  # display units beyond the footprint
+            ax.plot([-w / 2 - tail, w / 2 + tail], [limit * k] * 2, color="#d55e00", lw=1.6, ls="--")
+            ax.set_xlim(-half * f, half * f)
             ax.set_title(f"{c.name[i]}\n{d.station([c.station[i]])[0]}, passed {c.side[i]}",
                          fontsize=6.5, loc="left")
             achieved = result.clearances.achieved[i]
             short = achieved < c.clearance[i] - 1e-6
-            ax.text(0.03, 0.04, f"clearance {d.text(achieved, 'length')}\n(required "
-                    f"{d.text(c.clearance[i], 'length')})", transform=ax.transAxes, fontsize=6.5,
+            ax.text(0.03, 0.04, f"clearance {d.text(achieved, 'length', 2)}\n(required "
+                    f"{d.text(c.clearance[i], 'length', 2)})", transform=ax.transAxes, fontsize=6.5,
                     color="#d55e00" if short else "#1f1f1f",
                     bbox=dict(fc="white", ec="none", alpha=0.8, pad=1))
             ax.tick_params(labelsize=6)
