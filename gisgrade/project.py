@@ -73,6 +73,12 @@ class AlignmentConfig:
     feature: int | None = key("feature", "feature id (FID) picking one route", None)
     start_station: float = key("length", "station of the first point", 0.0, "0 m")
 
+    def _rules(self, t: _Table) -> AlignmentConfig:
+        if self.where is not None and self.feature is not None:
+            raise InputError(f"{t.file.name}: {t.key('where')} and {t.key('feature')} both pick "
+                             "the route; give one of them (an attribute filter or a feature id)")
+        return self
+
 
 @dataclass(frozen=True)
 class TerrainConfig:
