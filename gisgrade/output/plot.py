@@ -332,6 +332,37 @@ def _finding_bars(ax, result, d, lo, hi, detail) -> list:
     return handles
 
 
+#: A label's box behind its text on the pressure strip (readable over a curve).
+LABEL_BOX = dict(boxstyle="square,pad=0.15", fc="white", ec="none", alpha=0.8)
+
+
+def quiet_place(s, curves, bands, lo, hi, width, until=1.0) -> tuple[float, int]:
+    """Where along [lo, hi] a label spanning ``width`` of the window should
+    start (a fraction of the window) and which of the value ``bands``
+    ((y0, y1) pairs, in order of preference) it takes: the place fewest
+    points of ``curves`` (k, n) over stations ``s`` fall in, the two ends
+    first on a tie; it ends before ``until`` of the window.
+
+    >>> s = np.linspace(0, 10, 11)
+    >>> quiet_place(s, np.array([np.r_[np.full(5, 1.0), np.full(6, 5.0)]]), [(0.5, 1.5)], 0, 10, 0.3)
+    (0.7, 0)
+    """
+    span = hi - lo
+    width = min(width, until)
+    starts = np.r_[0.0, until - width, np.linspace(0.0, until - width, 21)[1:-1]]
+    best = None
+    for b, (y0, y1) in enumerate(bands):
+        inside = (curves >= y0) & (curves <= y1)
+        for f in starts:
+            m = (s >= lo + f * span) & (s <= lo + (f + width) * span)
+            n = int(inside[:, m].sum())
+            if best is None or n < best[0]:
+                best = (n, round(float(f), 6), b)
+            if n == 0:
+                return best[1], best[2]
+    return best[1], best[2]
+
+
 def draw_pressure(axp, result, d: Display, lo=None, hi=None) -> list:
     """The pressure strip: each scenario's pressure at the pipe axis over the
     shared scale's class bands, the limits named, the rating where it matters."""
@@ -354,6 +385,7 @@ def draw_pressure(axp, result, d: Display, lo=None, hi=None) -> list:
             axp.plot(s, p, color=colours[name], lw=1.4)
             handles.append(Line2D([], [], color=colours[name], lw=1.4, label=f"pressure {name}"))
     top = max(float(np.nanmax(p_win)), pa(checks.max_pressure))
+    rating_note = False  # the off-scale rating's note takes the top right corner
     if "rating_pa" in t.columns and np.isfinite(t["rating_pa"]).any():
         rating = pa(t["rating_pa"].to_numpy()[w])
         if np.nanmin(rating) <= 1.5 * top:
@@ -365,21 +397,39 @@ def draw_pressure(axp, result, d: Display, lo=None, hi=None) -> list:
             axp.text(0.995, 0.97, f"pipe rating {d.text(np.nanmin(t['rating_pa']), 'pressure')} "
                      "(off scale)", transform=axp.transAxes, fontsize=6.5, ha="right", va="top",
                      color="#5b2a86")
+            rating_note = True
     bottom = min(float(np.nanmin(np.maximum(p_win, vacuum))), 0.0)
+    ylo, yhi = bottom - 0.08 * (top - bottom), top + 0.15 * (top - bottom)
+    drawn = np.maximum(p_win, vacuum)
+    tall = 0.1 * (yhi - ylo)  # a label's height on the strip, about
+    pos = axp.get_position()
+    width_pt = max(pos.width * axp.figure.get_figwidth() * 72, 1.0)
+    share = lambda text: (len(text) * 6.5 * 0.6 + 6) / width_pt  # noqa: E731  (6.5 pt type)
+
+    def place(text, y, bands, colour, until=1.0):
+        """``text`` at value ``y`` where the curves leave it clear (above or below),
+        ending before ``until`` of the strip."""
+        f, b = quiet_place(s, drawn, bands, lo, hi, share(text), until)
+        axp.text(min(max(f, 0.003), 0.997), y, text, transform=axp.get_yaxis_transform(),
+                 fontsize=6.5, ha="left", va="bottom" if bands[b][0] >= y - 1e-9 else "top",
+                 color=colour, bbox=LABEL_BOX, zorder=8)
+
     if np.nanmin(p_win) < vacuum:
         axp.axhline(vacuum, color="#444444", lw=0.8)
-        axp.text(0.995, 0.02, "values below vacuum are not reachable (column separation)",
-                 transform=axp.transAxes, fontsize=6.5, ha="right", va="bottom", color="#444444")
-    ylo, yhi = bottom - 0.08 * (top - bottom), top + 0.15 * (top - bottom)
+        place(" values below vacuum are not reachable (column separation) ", vacuum,
+              [(vacuum + 1e-9, vacuum + 1.2 * tall)], "#444444")
     scale = scale_of(result)
     edges = np.clip(pa(scale.edges), ylo, yhi)
     for a, b, c in zip(edges[:-1], edges[1:], scale.colours):  # the shared scale behind
         if b > a:
             axp.axhspan(a, b, color=c, alpha=0.22, lw=0, zorder=0)
     for v, word in ((checks.min_pressure, "minimum"), (checks.max_pressure, "maximum")):
-        axp.axhline(pa(v), color="#1f1f1f", lw=0.8, ls="-.")
-        axp.text(0.003, pa(v), f" {word} {d.text(v, 'pressure')}", transform=axp.get_yaxis_transform(),
-                 fontsize=6.5, va="bottom", color="#1f1f1f")
+        y = pa(v)
+        axp.axhline(y, color="#1f1f1f", lw=0.8, ls="-.")
+        # where the curves leave it clear: above the line, else below it (the
+        # off-scale rating's note holds the top right corner)
+        place(f" {word} {d.text(v, 'pressure')} ", y, [(y, y + tall), (y - tall, y)], "#1f1f1f",
+              until=0.7 if word == "maximum" and rating_note else 1.0)
     axp.set_ylim(ylo, yhi)
     axp.set_xlim(lo, hi)
     axp.set_ylabel(d.label("pressure", "Pressure at axis"))
