@@ -272,4 +272,4 @@ def _north(ax, crs, extent) -> None:
 
 @writer("map.png", figure=True)
 def write_map(result, folder: Path, display: Display) -> None:
-    map_figure(result, display).savefig(folder / "map.png", dpi=130)
+    map_figure(result, display).savefig(folder / "map.png", dpi=130, bbox_inches="tight")  # the key whole
