@@ -583,3 +583,5 @@ def test_a_suggestion_written_back_as_stated_gives_its_heads(demo_us, tmp_path):
             assert e["step_m"][name] == pytest.approx(v, abs=1e-6)
     first = compute(project)
     np.testing.assert_allclose(again.grades.hgl, first.suggestions.applied.hgl, atol=1e-6)
+    # the report lists each suggestion with its table to paste
+    assert "kind = &quot;booster&quot;" in (out / "report.html").read_text()
