@@ -22,7 +22,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from conftest import UTM, flat_site, write_dem, write_lines
+from conftest import PROJECT, UTM, flat_site, write_dem, write_lines
 from gisgrade.hydraulics import surge as sg
 from gisgrade.hydraulics.elements import Element, apply_elements, suggest_elements
 from gisgrade.hydraulics.energy import KWH, present_value_factor, pump_power
@@ -449,22 +449,8 @@ def hill_main(folder, hydraulics, checks='max_pressure = "1000 kPa"'):
     z = 100 + 60 * np.clip(x / 1000, 0, 1)
     write_dem(folder / "dem.tif", np.tile(z, (200, 1)), x0=500_000.0, y0=4_650_000.0)
     write_lines(folder / "line.geojson", [[(500_100.0, 4_649_000.0), (501_100.0, 4_649_000.0)]])
-    (folder / "project.toml").write_text(f"""
-[alignment]
-path = "line.geojson"
-spacing = "10 m"
-
-[terrain]
-dem = "dem.tif"
-
-[pipe]
-inside_diameter = "300 mm"
-outside_diameter = "320 mm"
-roughness = "0.1 mm"
-
-[cover]
-minimum = "1.2 m"
-
+    pipe, _, _ = PROJECT.partition("[hydraulics]")  # the flat site's line, pipe and cover
+    (folder / "project.toml").write_text(pipe + f"""
 [checks]
 {checks}
 
