@@ -35,6 +35,13 @@ def stage_operations(project, table, grades) -> Operations:
     """Surge envelope, pumping energy and the fewest elements that bring every
     station of every scenario within ``[checks]`` min and max pressure."""
     surge, notes = stage_surge(project, table, grades)
+    from .display import token
+    for k in np.flatnonzero(~grades.minimum_applies):  # a pumped main at rest
+        head = float(grades.cases["source_head_m"].iloc[k])
+        notes = [*notes, f"{grades.names[k]}: pumps off behind a check valve; the line at "
+                         f"rest stands at the supply's own head {token(head, 'head')}; the "
+                         "minimum pressure is owed with the pumps running, so it is not "
+                         "checked at rest (the maximum and the rating are)"]
     energy = stage_energy(project, grades)
     checks = project.checks
     own = grades.elements

@@ -489,6 +489,7 @@ def test_a_pumped_main_at_rest_stands_at_the_supply_head_with_the_pumps_off(tmp_
     static = r.findings[r.findings["scenario"] == "static"]
     assert set(static["code"]) == {"drains-at-rest"} and (static["severity"] == "note").all()
     assert "pumps off" in static["message"].iloc[0]
+    assert any("pumps off behind a check valve" in n for n in r.summary["notes"])
     assert r.suggestions.solved and r.suggestions.suggestions == ()
     c = Candidate("300 mm", 0.3, 0.32)
     table, lines = compare(r.project, [c], [r])

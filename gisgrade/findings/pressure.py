@@ -25,9 +25,9 @@ def sub_atmospheric(inputs, i):
         return ranges(inputs.station, top - hgl, hgl < top, code="drains-at-rest",
                       check="drains with the pumps off", severity="note", unit="m", limit=0.0,
                       scenario=g.names[i], worst="max",
-                      text="pumps off: HGL up to {value} below the top of pipe (the main "
-                           "drains or draws air here when the pumps stop, unless the check "
-                           "valve and air valves hold it)")
+                      text="HGL up to {value} below the top of pipe with the pumps off (the "
+                           "main drains or draws air here when the pumps stop, unless the "
+                           "check valve and air valves hold it)")
     return ranges(inputs.station, top - hgl, hgl < top, code="sub-atmospheric",
                   check="sub-atmospheric", severity="critical", unit="m", limit=0.0,
                   scenario=g.names[i], worst="max", text="HGL up to {value} below the top of pipe")
