@@ -153,6 +153,18 @@ def test_two_heads_sizes_report_the_flow_and_us_columns(tmp_path, capsys):
     text = (out / "sizes.txt").read_text()
     assert "design: the heads drive" in text and "gpm through 10 in" in text
     assert "()" not in text and "( " not in text
+    # the figure: the flow in place of the head loss, every label with a unit
+    from gisgrade.pipeline import compute
+    from gisgrade.project import load
+    from gisgrade.sizes import candidate_project, candidates_from_text, compare, comparison_figure
+
+    project = load(p)
+    cands = candidates_from_text(project, "10 in, 12 in")
+    table2, lines = compare(project, cands, [compute(candidate_project(project, c)) for c in cands])
+    fig = comparison_figure(table2, project, lines)
+    labels = [t for ax in fig.axes for t in (ax.get_xlabel(), ax.get_ylabel())]
+    assert "flow the heads drive (gpm)" in labels
+    assert not any("()" in t or "( )" in t for t in labels + [fig.texts[0].get_text()]), labels
 
 
 def test_partly_given_costs_get_a_note_and_absurd_sizes_a_one_line_error(tmp_path, capsys):
