@@ -572,3 +572,19 @@ def test_a_suggestion_written_back_as_stated_gives_its_heads(demo_us, tmp_path):
     np.testing.assert_allclose(again.grades.hgl, first.suggestions.applied.hgl, atol=1e-6)
     # the report lists each suggestion with its table to paste
     assert "kind = &quot;booster&quot;" in (out / "report.html").read_text()
+
+
+def test_a_line_entering_below_the_minimum_gets_one_booster_at_the_start_and_a_word():
+    # Two flows over a level axis; one enters 10 m of head below the pipe
+    # (gauge p = rho g (H - z) < 0). An element acts on the downstream side
+    # of its station, so the entering side is the source's: one booster at
+    # the start mends the rest (its head: 140 kPa / (rho g) + 10 m), no
+    # second element is spent on the entering side, and the reason says it.
+    n = 50
+    axis = np.zeros(n)
+    hgl = np.array([np.full(n, 40.0), np.full(n, -10.0)])
+    prop = suggest_elements(np.arange(n) * 10.0, axis, hgl, hgl, hgl, np.array([True, True]),
+                            ("a", "b"), 140e3, 550e3, 1000.0)
+    assert [(x.kind, x.index) for x in prop.suggestions] == [("booster", 0)]
+    assert prop.suggestions[0].step == pytest.approx([0.0, 140e3 / (1000.0 * G) + 10.0])
+    assert not prop.solved and "enters out of limits" in prop.reason

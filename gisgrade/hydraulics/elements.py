@@ -390,6 +390,10 @@ def suggest_elements(station, axis, hgl, hgl_upstream, egl, flowing, names, p_mi
     flowing = np.asarray(flowing, dtype=bool)
     lo, hi = _band(axis, p_min, p_max, density, len(names), check_min)
     H, Hu, E = (np.array(a, dtype=float) for a in (hgl, hgl_upstream, egl))
+    # the line entering the first station (before its point loss) is the source's:
+    # no element acts there, so the sweep looks at its downstream side only
+    entry = violations(Hu[:, :1], Hu[:, :1], lo[:, :1], hi[:, :1]).size > 0
+    Hu[:, 0] = H[:, 0]
     excused = np.zeros(len(station), dtype=bool)
     start, out, bad, bad_still = 0, [], [], []
     walls = sorted(resets)
@@ -432,6 +436,7 @@ def suggest_elements(station, axis, hgl, hgl_upstream, egl, flowing, names, p_mi
         else:
             setting, step = _booster_setting(p_min, d), arg
         _shift_until((H, Hu, E), i, step, next((r for r in walls if r > i), None))
+        Hu[:, 0] = H[:, 0]  # the entering side stays out of the sweep
         out.append((kind, i, setting, j, why, reach))
         start = i
     for k in np.flatnonzero(still_low.any(axis=1)):
@@ -459,8 +464,13 @@ def suggest_elements(station, axis, hgl, hgl_upstream, egl, flowing, names, p_mi
         out = [o for m, o in enumerate(out) if m not in idle]
     suggestions = tuple(_suggestion(o, st, station, names, label, kpa, d)
                         for o, st in zip(out, steps))
-    left = [int(v) for v in violations(applied.hgl, applied.hgl_upstream, lo, hi) if not excused[v]]
+    up = applied.hgl_upstream.copy()
+    up[:, 0] = applied.hgl[:, 0]  # the entering side: said apart
+    left = [int(v) for v in violations(applied.hgl, up, lo, hi) if not excused[v]]
     notes = [u.reason for u in unfixable]
+    if entry:
+        notes.insert(0, f"the line enters out of limits at {label(station[0])}, before any "
+                        "element can act: the source head itself is outside the pressure range")
     if left:
         notes.append(f"the proposal, applied to the line, still leaves the limits at "
                      f"{label(station[left[0]])}")
