@@ -16,6 +16,7 @@ kinds (zone boundaries, fittings) without a new column.
 """
 from __future__ import annotations
 
+import logging
 import math
 from dataclasses import dataclass, field, replace
 from pathlib import Path
@@ -81,6 +82,7 @@ class Crossings:
     size: np.ndarray = None  # m, the feature's outside height (nan: unknown)
     side: np.ndarray = None  # str, "under" or "over": how the pipe passes
     width: np.ndarray = None  # m, the feature's outside width in plan (0: a line)
+    empty_layers: tuple = ()  # project-file keys of crossing layers holding no feature
 
     def __post_init__(self):
         n = len(self.station)
@@ -458,10 +460,13 @@ def locate_crossings(alignment: Alignment, layers, vertical_factor: float = 1.0)
     metres each). A feature crossed twice gives two crossings; a feature
     that does not reach the line is skipped.
     """
-    rows = []
+    rows, empty = [], []
     coords = alignment.coords
     for cfg in layers:
         gdf = read_vector(cfg.path, f"{cfg.key}.path", layer=cfg.layer)
+        if len(gdf) == 0:  # said as a warning by stage_alignment, not refused, not silent
+            empty.append(cfg.key)
+            continue
         require_lines(gdf, f"{cfg.key}.path", cfg.path)
         factor = cfg.field_factor if cfg.field_factor is not None else vertical_factor
         bottom = _field_values(gdf, f"{cfg.key}.bottom_field", cfg.bottom_field, factor, cfg.path)
@@ -508,13 +513,14 @@ def locate_crossings(alignment: Alignment, layers, vertical_factor: float = 1.0)
                 rows.append((s_line[k], xy[k, 0], xy[k, 1], bottom[i], cfg.clearance, angle[k],
                              name, cfg.key, depth[i], size[i], cfg.side, width[i]))
     if not rows:
-        return Crossings.empty()
+        return replace(Crossings.empty(), empty_layers=tuple(empty))
     rows.sort(key=lambda r: r[0])
     cols = list(zip(*rows))
     f = [np.asarray(c, dtype=float) if i not in (6, 7, 10) else None for i, c in enumerate(cols)]
     return Crossings(f[0], f[1], f[2], f[3], f[4], f[5],
                      name=np.asarray(cols[6], dtype=object), layer=np.asarray(cols[7], dtype=object),
-                     depth=f[8], size=f[9], side=np.asarray(cols[10], dtype=object), width=f[11])
+                     depth=f[8], size=f[9], side=np.asarray(cols[10], dtype=object), width=f[11],
+                     empty_layers=tuple(empty))
 
 
 @dataclass(frozen=True)
@@ -721,8 +727,14 @@ def stage_alignment(project, frame=None):
         table["offtake_m3_s"] = np.bincount(at, weights=located[1], minlength=len(table))
     crossings = replace(crossings, station=crossings.station + offset)
     hit = set(crossings.layer) | set(zones.layer)
-    missed = tuple(f"{c.key}: no feature of {c.path.name} meets the centerline"
+    empty = set(crossings.empty_layers)
+    missed = tuple(f"{c.key}: {c.path.name} holds no features: no crossing is taken "
+                   "from it (check the file and its layer)" if c.key in empty else
+                   f"{c.key}: no feature of {c.path.name} meets the centerline"
                    for c in (*project.crossings, *project.cover_zones) if c.key not in hit)
+    for m in missed:
+        if "holds no features" in m:  # on stderr too: an empty layer is likely a mistake
+            logging.getLogger("gisgrade").warning(f"warning: {m}")
     if missed:
         line = replace(line, notes=line.notes + missed)
     return line, crossings, table

@@ -17,6 +17,7 @@ import numpy as np
 from .display import display_of
 from .hydraulics.elements import suggest_elements
 from .hydraulics.energy import stage_energy
+from .hydraulics.stage import project_elements
 from .hydraulics.surge import stage_surge
 
 
@@ -34,6 +35,13 @@ def stage_operations(project, table, grades) -> Operations:
     """Surge envelope, pumping energy and the fewest elements that bring every
     station of every scenario within ``[checks]`` min and max pressure."""
     surge, notes = stage_surge(project, table, grades)
+    from .display import token
+    for k in np.flatnonzero(~grades.minimum_applies):  # a pumped main at rest
+        head = float(grades.cases["source_head_m"].iloc[k])
+        notes = [*notes, f"{grades.names[k]}: pumps off behind a check valve; the line at "
+                         f"rest stands at the supply's own head {token(head, 'head')}; the "
+                         "minimum pressure is owed with the pumps running, so it is not "
+                         "checked at rest (the maximum and the rating are)"]
     energy = stage_energy(project, grades)
     checks = project.checks
     own = grades.elements
@@ -43,5 +51,7 @@ def stage_operations(project, table, grades) -> Operations:
     proposal = suggest_elements(grades.station, grades.axis, grades.hgl, grades.hgl_upstream,
                                 grades.egl, grades.flow.any(axis=1), grades.names,
                                 checks.min_pressure, checks.max_pressure, grades.density,
-                                display=display_of(project), resets=[int(r) for r in resets])
+                                display=display_of(project), resets=[int(r) for r in resets],
+                                check_min=grades.minimum_applies, base=grades.plain,
+                                own=project_elements(project, table) if len(own) else ())
     return Operations(surge, energy, proposal, notes)

@@ -75,6 +75,12 @@ class AlignmentConfig:
     route_field: str | None = key("text", "attribute naming each feature's route for "
                                   "`gisgrade routes` (each feature a route when unset)", None)
 
+    def _rules(self, t: _Table) -> AlignmentConfig:
+        if self.where is not None and self.feature is not None:
+            raise InputError(f"{t.file.name}: {t.key('where')} and {t.key('feature')} both pick "
+                             "the route; give one of them (an attribute filter or a feature id)")
+        return self
+
 
 @dataclass(frozen=True)
 class TerrainConfig:

@@ -21,10 +21,16 @@ from .errors import InputError
 from .hydraulics.energy import KWH, present_value_factor
 from .hydraulics.friction import G
 
-#: sizes.csv columns (then capital_cost and life_cycle_cost when costs are given).
+#: sizes.csv columns (then inflow_m3_s, the flow entering: the result with
+#: ``two-heads``; then capital_cost and life_cycle_cost when costs are given;
+#: with a US display a US column beside each SI one).
 COLUMNS = ["candidate", "inside_diameter_m", "scenario", "head_loss_m", "min_pressure_kpa",
            "max_pressure_kpa", "max_velocity_m_s", "surge_head_m", "pump_head_m",
            "annual_energy_kwh", "annual_cost", "passes"]
+
+#: The largest inside diameter taken as a candidate (m): larger is a typing
+#: slip (the widest pressure conduits are a few metres; common practice).
+MAX_DIAMETER = 10.0
 
 #: Findings that say a size does not carry a scenario (cover and design
 #: rules do not depend on it).
@@ -50,12 +56,39 @@ def _wall(project) -> float:
     return project.pipe.outside_diameter - project.pipe.inside_diameter
 
 
+def check_size(d: float, text, key: str) -> float:
+    """``d`` (m) if it is a finite inside diameter above zero and up to
+    :data:`MAX_DIAMETER`; else an InputError naming ``key`` and ``text``.
+
+    >>> check_size(0.25, "250 mm", "--candidates")
+    0.25
+    >>> check_size(float("inf"), "inf mm", "--candidates")
+    Traceback (most recent call last):
+    ...
+    gisgrade.errors.InputError: --candidates: 'inf mm' is not a finite inside diameter
+    """
+    if not np.isfinite(d):
+        raise InputError(f"{key}: {text!r} is not a finite inside diameter")
+    if not d > 0:
+        raise InputError(f"{key}: {text!r} must be greater than zero")
+    if d > MAX_DIAMETER:
+        raise InputError(f"{key}: {text!r} is larger than any pipe ({MAX_DIAMETER:g} m at most)")
+    return d
+
+
+def _size_name(d: float, project) -> str:
+    """A candidate's name in the reader's units: "250 mm" or "10 in"."""
+    if getattr(getattr(project, "output", None), "units", "SI") == "US":
+        return f"{round(d / 0.0254, 3):g} in"
+    return f"{round(d * 1e3, 3):g} mm"
+
+
 def candidates_from_text(project, text: str, key: str = "--candidates") -> list[Candidate]:
     """Candidates from a comma-separated list of inside diameters
     (``"200 mm, 250 mm"``), each with the project pipe's wall.
 
     >>> from types import SimpleNamespace as NS
-    >>> p = NS(pipe=NS(inside_diameter=0.305, outside_diameter=0.326))
+    >>> p = NS(pipe=NS(inside_diameter=0.305, outside_diameter=0.326), output=NS(units="SI"))
     >>> [(c.name, round(c.outside_diameter, 3)) for c in candidates_from_text(p, "250 mm, 0.4 m")]
     [('250 mm', 0.271), ('400 mm', 0.421)]
     """
@@ -66,16 +99,19 @@ def candidates_from_text(project, text: str, key: str = "--candidates") -> list[
         raise InputError(f"{key} = {text!r}: give inside diameters such as \"200 mm, 250 mm\"")
     out = []
     for part in parts:
-        d = parse_quantity(part, "length", key)
-        if not d > 0:
-            raise InputError(f"{key}: {part!r} must be greater than zero")
-        out.append(Candidate(f"{d * 1e3:g} mm", d, d + _wall(project)))
+        d = check_size(parse_quantity(part, "length", key), part, key)
+        out.append(Candidate(_size_name(d, project), d, d + _wall(project)))
     return _unique(out, key)
 
 
 def candidates_from_project(project) -> list[Candidate]:
     """The project's ``[[size_candidates]]``."""
-    out = [Candidate(c.name or f"{c.inside_diameter * 1e3:g} mm", c.inside_diameter,
+    for n, c in enumerate(project.size_candidates):
+        key = f"size_candidates[{n}]"
+        check_size(c.inside_diameter, f"{c.inside_diameter} m", f"{key}.inside_diameter")
+        if c.outside_diameter is not None:
+            check_size(c.outside_diameter, f"{c.outside_diameter} m", f"{key}.outside_diameter")
+    out = [Candidate(c.name or _size_name(c.inside_diameter, project), c.inside_diameter,
                      c.outside_diameter if c.outside_diameter is not None
                      else c.inside_diameter + _wall(project),
                      c.material, c.roughness, c.pressure_rating, c.cost)
@@ -135,7 +171,7 @@ def scenario_rows(result, c: Candidate) -> list[dict]:
             pump_head_m=float(e.pump_head_m) if e is not None else 0.0,
             annual_energy_kwh=float(e.energy_j / KWH) if e is not None else 0.0,
             annual_cost=(np.nan if e is None or e.cost is None else float(e.cost)),
-            passes=name not in failing))
+            passes=name not in failing, inflow_m3_s=float(g.flow[k, 0])))
     return rows
 
 
@@ -143,18 +179,28 @@ def compare(project, candidates, results) -> tuple[pd.DataFrame, list[str]]:
     """``sizes.csv`` as a table, and the verdict lines (which size carries each
     scenario, the cheapest that passes). ``results`` one per candidate."""
     rows = [r for c, res in zip(candidates, results) for r in scenario_rows(res, c)]
-    table = pd.DataFrame(rows, columns=COLUMNS)
+    table = pd.DataFrame(rows, columns=COLUMNS + ["inflow_m3_s"])
     lines = []
+    from .display import Display
+    d = Display(project.output.units)
     passing = [c for c in candidates if table.loc[table["candidate"] == c.name, "passes"].all()]
     for name in dict.fromkeys(table["scenario"]):
         ok = table[(table["scenario"] == name) & table["passes"]]
         carried = ", ".join(ok["candidate"]) if len(ok) else "none of the candidates"
         gravity = ok[ok["pump_head_m"] <= 0]["candidate"].tolist()
-        extra = (f" (without pumping: {', '.join(gravity)})"
-                 if len(ok) and len(gravity) < len(ok) else "")
+        extra = ("" if not len(ok) or len(gravity) == len(ok) else
+                 f" (without pumping: {', '.join(gravity)})" if gravity else " (each with pumping)")
         lines.append(f"{name}: carried within every check by {carried}{extra}")
+        if project.hydraulics.boundary == "two-heads" and name != "static":
+            r = table[table["scenario"] == name]
+            lines.append(f"{name}: the heads drive " + ", ".join(
+                f"{d.text(q, 'flow')} through {c}" for c, q in zip(r["candidate"], r["inflow_m3_s"])))
     en = project.energy
     costs = all(c.cost is not None for c in candidates)
+    given = [c.name for c in candidates if c.cost is not None]
+    if given and not costs:
+        lines.append(f"costs are given for {len(given)} of {len(candidates)} candidates "
+                     f"({', '.join(given)}): no cost comparison; give every candidate a cost")
     if costs:
         length = {c.name: float(res.profile.length_3d) for c, res in zip(candidates, results)}
         capital = {c.name: c.cost * length[c.name] for c in candidates}
@@ -185,8 +231,8 @@ def compare(project, candidates, results) -> tuple[pd.DataFrame, list[str]]:
         lines.append("no candidate passes every check in every scenario")
     elif not costs:
         smallest = min(passing, key=lambda c: c.inside_diameter)
-        lines.append(f"smallest size that passes every check: {smallest.name} (give each "
-                     "candidate a cost for the cheapest)")
+        lines.append(f"smallest size that passes every check: {smallest.name}"
+                     + ("" if given else " (give each candidate a cost for the cheapest)"))
     return table, lines
 
 
@@ -199,6 +245,7 @@ def comparison_figure(table: pd.DataFrame, project, lines=()):
     from .display import Display
 
     d = Display(project.output.units)
+    two_heads = project.hydraulics.boundary == "two-heads"
     fig = Figure(figsize=(12, 4.2))
     axes = fig.subplots(1, 3)
     flows = [n for n in dict.fromkeys(table["scenario"]) if n != "static"]
@@ -211,25 +258,37 @@ def comparison_figure(table: pd.DataFrame, project, lines=()):
         colour = SCENARIO_COLOURS[n % len(SCENARIO_COLOURS)]
         axes[0].plot(dia, d.value(r["min_pressure_kpa"].to_numpy() * 1e3, "pressure"), "o-",
                      color=colour, label=name)
-        axes[1].plot(dia, d.value(r["head_loss_m"].to_numpy(), "head"), "o-", color=colour,
-                     label=name)
+        if two_heads:  # the heads are given: the flow they drive is the result
+            axes[1].plot(dia, d.value(r["inflow_m3_s"].to_numpy(), "flow"), "o-", color=colour,
+                         label=name)
+        else:
+            axes[1].plot(dia, d.value(r["head_loss_m"].to_numpy(), "head"), "o-", color=colour,
+                         label=name)
     axes[0].axhline(d.value(project.checks.min_pressure, "pressure"), color="#d9534f", lw=0.8,
                     ls="-.", label="min pressure")
-    labels = [f"{v:g}" for v in dia]
+    labels = list(x["candidate"])
     cost = next((c for c in ("life_cycle_cost", "capital_cost") if c in table), None)
     if cost is not None:  # the money the choice is about
         per = table.groupby("candidate", sort=False)[cost].first().to_numpy()
         axes[2].bar(labels, per / 1e6, color="#5b6770")
-        cur = f" {project.energy.currency}" if project.energy.currency else ""
-        axes[2].set_ylabel(f"{cost.replace('_', ' ')} (million{cur})")
+        cur = project.energy.currency or "currency units"
+        axes[2].set_ylabel(f"{'life-cycle' if cost == 'life_cycle_cost' else 'capital'} cost, "
+                           f"million {cur}")
     else:
         energy = table.groupby("candidate", sort=False)["annual_energy_kwh"].sum()
         axes[2].bar(labels, energy.to_numpy() / 1e3, color="#2f8f6a")
         axes[2].set_ylabel("pumping energy a year (MWh)")
+        if not energy.to_numpy().any():
+            axes[2].set_ylim(0, 1)
+            axes[2].text(0.5, 0.5, "no pumping with any candidate", ha="center", va="center",
+                         transform=axes[2].transAxes, fontsize=9, color="#555555")
     axes[0].set_ylabel(f"least pressure ({d.unit('pressure')})")
-    axes[1].set_ylabel(f"head loss, start to end ({d.unit('head')})")
-    for ax in axes:
+    axes[1].set_ylabel(f"flow the heads drive ({d.unit('flow')})" if two_heads
+                       else f"head loss, start to end ({d.unit('head')})")
+    for ax in axes[:2]:
         ax.set_xlabel(f"inside diameter ({dunit})")
+    axes[2].set_xlabel("candidate")
+    for ax in axes:
         ax.grid(True, lw=0.3, color="#cccccc")
     axes[0].legend(fontsize=7)
     passing = table.groupby("candidate", sort=False)["passes"].all()

@@ -56,11 +56,30 @@ _EXAMPLES = {
     "angle": '"22.5 deg"',
     "dimensionless": '"0.5 %"',
     "volume": '"10 m3"',
-    "time": '"2 s"',
+    "time": '"60 s"',
     "per_energy": '"0.15 / kWh"',
     "per_length": '"450 / m"',
     "mass_per_energy": '"0.4 kg/kWh"',
 }
+
+
+#: Examples for time keys by what they mean (a closure of 2 s would be the
+#: fast closure a surge screening assumes anyway; hours and years are not seconds).
+_TIME_EXAMPLES = {"hours_per_year": '"50 h"', "period": '"30 years"',
+                  "closure_time": '"60 s"'}
+
+
+def example(kind: str, key: str) -> str:
+    """An example value for ``key`` of ``kind`` in an error message.
+
+    >>> example("time", "scenarios[0].hours_per_year"), example("time", "energy.period")
+    ('"50 h"', '"30 years"')
+    >>> example("length", "pipe.inside_diameter")
+    '"300 mm"'
+    """
+    if kind == "time":
+        return _TIME_EXAMPLES.get(str(key).rsplit(".", 1)[-1], _EXAMPLES[kind])
+    return _EXAMPLES[kind]
 
 
 @functools.lru_cache(maxsize=1)
@@ -87,12 +106,12 @@ def parse_quantity(value, kind: str, key: str) -> float:
     >>> round(parse_quantity("15 degC", "temperature", "hydraulics.temperature"), 2)
     288.15
     """
-    example = _EXAMPLES[kind]
+    example_ = example(kind, key)
     if isinstance(value, bool) or not isinstance(value, str):
         if kind == "dimensionless" and isinstance(value, (int, float)) and not isinstance(value, bool):
             return float(value)
         raise InputError(
-            f"{key} = {value!r}: give a quantity with units as a string, e.g. {key} = {example}"
+            f"{key} = {value!r}: give a quantity with units as a string, e.g. {key} = {example_}"
         )
     ureg = registry()
     try:
@@ -103,16 +122,16 @@ def parse_quantity(value, kind: str, key: str) -> float:
         q = ureg.Quantity(q)
     if q.dimensionless and kind not in ("angle", "dimensionless"):
         raise InputError(
-            f"{key} = {value!r}: a unit is required, e.g. {key} = {example}"
+            f"{key} = {value!r}: a unit is required, e.g. {key} = {example_}"
         )
     want = _DIMENSIONALITY[kind]
     if want and not q.check(want):
         raise InputError(
-            f"{key} = {value!r}: expected a {kind} (e.g. {example}), got units of {q.dimensionality}"
+            f"{key} = {value!r}: expected a {kind} (e.g. {example_}), got units of {q.dimensionality}"
         )
     if kind in ("angle", "dimensionless"):
         if not q.dimensionless:
-            raise InputError(f"{key} = {value!r}: expected a {kind} (e.g. {example})")
+            raise InputError(f"{key} = {value!r}: expected a {kind} (e.g. {example_})")
         return float(q.to(SI_UNITS[kind]).magnitude) if kind == "angle" else float(q.to("").magnitude)
     magnitude = q.to(SI_UNITS[kind]).magnitude
     try:

@@ -22,7 +22,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from conftest import UTM, flat_site, write_dem, write_lines
+from conftest import PROJECT, UTM, flat_site, write_dem, write_lines
 from gisgrade.hydraulics import surge as sg
 from gisgrade.hydraulics.elements import Element, apply_elements, suggest_elements
 from gisgrade.hydraulics.energy import KWH, present_value_factor, pump_power
@@ -436,3 +436,155 @@ def test_the_down_surge_stops_at_the_vapour_pressure_line():
     rows = r.findings[r.findings["code"] == "surge-column-separation"]
     assert (rows["scenario"] == "max day + fire").any()
     assert "-4" not in r.summary.get("surge_note", "")
+
+
+# --------------------------------------------------------------------------
+# A pumped main at rest; suggestions as a run applies them
+# --------------------------------------------------------------------------
+
+def hill_main(folder, hydraulics, checks='max_pressure = "1000 kPa"'):
+    """A 1 km main over ground rising 60 m (100 m to 160 m), pumped from a
+    source whose own head is below the top; invented test terrain."""
+    x = np.arange(200) * 10.0
+    z = 100 + 60 * np.clip(x / 1000, 0, 1)
+    write_dem(folder / "dem.tif", np.tile(z, (200, 1)), x0=500_000.0, y0=4_650_000.0)
+    write_lines(folder / "line.geojson", [[(500_100.0, 4_649_000.0), (501_100.0, 4_649_000.0)]])
+    pipe, _, _ = PROJECT.partition("[hydraulics]")  # the flat site's line, pipe and cover
+    (folder / "project.toml").write_text(pipe + f"""
+[checks]
+{checks}
+
+[hydraulics]
+flow = "50 L/s"
+temperature = "15 degC"
+boundary = "min-pressure"
+{hydraulics}
+""")
+    return folder / "project.toml"
+
+
+@pytest.mark.parametrize("supply, key", [('source_head = "105 m"', "source"),
+                                         ('[energy]\nsuction_head = "102 m"', "suction")])
+def test_a_pumped_main_at_rest_stands_at_the_supply_head_with_the_pumps_off(tmp_path, supply, key):
+    # A pump lifts the flow over a hill from a supply at 105 m (an available
+    # head), or from a suction HGL of 102 m. At rest the pumps are off and a
+    # check valve holds the line: hydrostatics puts the HGL level at the
+    # supply's own head, p = rho g (H - z) (rho from IAPWS-95). The minimum
+    # service pressure (140 kPa, field notes; common practice: it is owed
+    # under every demand, with the pumps running) is not owed at rest, so the
+    # size is not failed by the pumps-off case; the maximum still applies.
+    from gisgrade.pipeline import compute
+    from gisgrade.sizes import Candidate, compare
+
+    r = compute(hill_main(tmp_path, supply))
+    g = r.grades
+    ks, kd = g.index("static"), g.index("design")
+    head = 105.0 if key == "source" else 102.0
+    assert g.hgl[ks] == pytest.approx(np.full(g.hgl.shape[1], head))
+    np.testing.assert_allclose(g.pressure[ks], rho_iapws() * G * (head - g.axis), rtol=2e-6)
+    assert bool(g.cases.set_index("scenario").loc["static", "pumps_off"])
+    assert g.minimum_applies.tolist() == [True, False]
+    # the pump runs in the flowing case: 140 kPa at the top of the hill
+    assert g.pressure_low[kd].min() == pytest.approx(140e3, abs=1.0)
+    static = r.findings[r.findings["scenario"] == "static"]
+    assert set(static["code"]) == {"drains-at-rest"} and (static["severity"] == "note").all()
+    assert "pumps off" in static["message"].iloc[0]
+    assert any("pumps off behind a check valve" in n for n in r.summary["notes"])
+    assert r.suggestions.solved and r.suggestions.suggestions == ()
+    c = Candidate("300 mm", 0.3, 0.32)
+    table, lines = compare(r.project, [c], [r])
+    assert table["passes"].all()
+    # the maximum is still checked at rest: a low limit fails the static case
+    low_max = compute(hill_main(tmp_path, 'source_head = "170 m"', 'max_pressure = "500 kPa"'))
+    assert (low_max.findings.query("scenario == 'static'")["code"] == "high-pressure").any()
+
+
+def test_the_sweep_goes_past_what_it_cannot_mend_and_states_the_applied_heads():
+    # A line falling 200 m over 1.5 km and rising 120 m over the next 1.5 km
+    # (invented), two flows and the static case. The falling part takes PRVs;
+    # on the rise the static line, below the PRVs' settings, cannot be raised
+    # by anything (boosters are off at no flow, a PRV only lowers), so that
+    # stretch is reported and the sweep goes on and places boosters for the
+    # flowing cases there. Each suggestion's heads are those apply_elements
+    # gives for the whole proposal (what a run with them pasted gives), no
+    # booster adds nothing, and the flowing cases stay within the limits.
+    n = 300
+    s = np.arange(n) * 10.0
+    axis = np.where(s < 1500, 300 - 200 * s / 1500, 100 + 120 * (s - 1500) / 1500)
+    hgl = 320.0 - np.array([0.004, 0.012, 0.0])[:, None] * s[None, :]
+    flowing = np.array([True, True, False])
+    prop = suggest_elements(s, axis, hgl, hgl, hgl, flowing, ("a", "b", "static"),
+                            140e3, 550e3, 1000.0)
+    kinds = [x.kind for x in prop.suggestions]
+    assert "prv" in kinds and kinds.count("booster") >= 2
+    assert not prop.solved and len(prop.unfixable) == 1
+    u = prop.unfixable[0]
+    assert u.reason.startswith("static") and u.to_station_m == s[-1]
+    boosters = [x for x in prop.suggestions if x.kind == "booster"]
+    assert any(x.station_m > u.from_station_m for x in boosters)  # the sweep went on
+    els = [Element(x.kind, x.index, setting=x.setting) for x in prop.suggestions]
+    out = apply_elements(els, axis, hgl, hgl, hgl, flowing, 1000.0)
+    np.testing.assert_allclose(np.array([x.step for x in prop.suggestions]), out.step, atol=1e-9)
+    assert all(x.step.max() > 1e-3 for x in boosters)
+    rho_g = 1000.0 * G
+    p = rho_g * (out.hgl[:2] - axis)
+    assert p.min() >= 140e3 - 1e-3 and p.max() <= 550e3 + 1e-3
+
+
+def test_a_suggestion_written_back_as_stated_gives_its_heads(demo_us, tmp_path):
+    # The demo in US units suggests a booster for the fire flow. Written back
+    # as the summary states it (station label in hundreds of feet + feet, the
+    # pressure it keeps in psi; 1 ft = 0.3048 m, 1 psi = 6894.757 Pa, NIST SP
+    # 811) and run again, the low pressure is gone, and the elements' heads
+    # and the grade lines are the ones the suggestion stated.
+    import json
+    import re
+    import shutil
+
+    from gisgrade.pipeline import compute
+
+    project, out = demo_us
+    s = json.loads((out / "summary.json").read_text())
+    sug = s["pressure_management"]
+    assert sug and all(p["kind"] in ("prv", "booster") for p in sug)
+    tables = []
+    for p in sug:
+        m = re.search(r"a (PRV|booster) at (\d+)\+(\d+\.\d+) (?:set to|keeping) ([\d.]+) psi", p["reason"])
+        assert m, p["reason"]
+        feet = int(m.group(2)) * 100 + float(m.group(3))
+        tables.append(f'\n[[pressure_elements]]\nkind = "{p["kind"]}"\nstation = "{feet} ft"\n'
+                      f'setting = "{m.group(4)} psi"\n')
+        # the table to paste says the same, its station within the 1 mm a station is known by
+        assert f'kind = "{p["kind"]}"' in p["toml"] and f'setting = "{m.group(4)} psi"' in p["toml"]
+        toml_ft = float(re.search(r'station = "([\d.]+) ft"', p["toml"]).group(1))
+        assert abs(toml_ft - p["station_m"] / 0.3048) * 0.3048 < 1e-3
+        assert abs(feet - toml_ft) * 0.3048 < 0.01
+    folder = tmp_path / "again"
+    shutil.copytree(project.parent, folder, ignore=shutil.ignore_patterns("out"))
+    (folder / "project.toml").write_text(project.read_text() + "".join(tables))
+    again = compute(folder / "project.toml")
+    assert not again.findings["code"].isin(["low-pressure", "sub-atmospheric"]).any()
+    steps = again.summary["pressure_elements"]
+    for p, e in zip(sug, steps):
+        for name, v in p["step_m"].items():
+            assert e["step_m"][name] == pytest.approx(v, abs=1e-6)
+    first = compute(project)
+    np.testing.assert_allclose(again.grades.hgl, first.suggestions.applied.hgl, atol=1e-6)
+    # the report lists each suggestion with its table to paste
+    assert "kind = &quot;booster&quot;" in (out / "report.html").read_text()
+
+
+def test_a_line_entering_below_the_minimum_gets_one_booster_at_the_start_and_a_word():
+    # Two flows over a level axis; one enters 10 m of head below the pipe
+    # (gauge p = rho g (H - z) < 0). An element acts on the downstream side
+    # of its station, so the entering side is the source's: one booster at
+    # the start mends the rest (its head: 140 kPa / (rho g) + 10 m), no
+    # second element is spent on the entering side, and the reason says it.
+    n = 50
+    axis = np.zeros(n)
+    hgl = np.array([np.full(n, 40.0), np.full(n, -10.0)])
+    prop = suggest_elements(np.arange(n) * 10.0, axis, hgl, hgl, hgl, np.array([True, True]),
+                            ("a", "b"), 140e3, 550e3, 1000.0)
+    assert [(x.kind, x.index) for x in prop.suggestions] == [("booster", 0)]
+    assert prop.suggestions[0].step == pytest.approx([0.0, 140e3 / (1000.0 * G) + 10.0])
+    assert not prop.solved and "enters out of limits" in prop.reason

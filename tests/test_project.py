@@ -141,8 +141,8 @@ README_DEFAULTS = {
 #: flat_project folder.
 FULL = {
     "alignment": [{"path": "line.geojson", "spacing": "10 m", "layer": "L", "reverse": False,
-                   "where": "name = 'A'", "feature": 0, "start_station": "5 m",
-                   "route_field": "name"}],
+                   "where": "name = 'A'", "start_station": "5 m", "route_field": "name"},
+                  {"path": "line.geojson", "spacing": "10 m", "feature": 0}],  # one of the two
     "terrain": [{"dem": ["dem.tif"], "vertical_unit": "ft", "method": "bicubic",
                  "max_gap": "30 m", "vertical_accuracy": "lidar"}],
     "pipe": [{"inside_diameter": "300 mm", "outside_diameter": "320 mm",

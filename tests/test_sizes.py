@@ -112,3 +112,72 @@ def test_the_demo_story_dn400_carries_the_fire_flow(demo_copy, tmp_path, capsys)
     assert ok["DN350", "peak hour"] and not ok["DN350", "max day + fire"]
     assert table[table["candidate"] == "DN400"]["passes"].all()
     assert "max day + fire: carried within every check by DN400" in (out / "sizes.txt").read_text()
+
+
+def test_two_heads_sizes_report_the_flow_and_us_columns(tmp_path, capsys):
+    # Two heads (200 m at the start, 190 m at an end tank, flat 1 km): the flow
+    # is the result, so sizes.csv gives it per candidate, and it is the
+    # Darcy-Weisbach flow for 10 m of head (fluids' friction factor, IAPWS-95
+    # water; entrance and exit losses K = 0.5 and 1, Crane TP-410) within 1 %,
+    # growing with the size. With a US display every SI column has its US twin
+    # (1 ft = 0.3048 m, 1 psi = 6894.757 Pa, 1 gal = 3.785411784 L: NIST SP 811 /
+    # Handbook 44), the names read in inches, and no label has empty parentheses.
+    import fluids
+    from iapws import IAPWS95
+    from scipy.optimize import brentq
+
+    p = flat_site(tmp_path, CHECKS + '\n[output]\nunits = "US"\n')
+    p.write_text(p.read_text().replace('flow = "50 L/s"\n', 'boundary = "two-heads"\nend = "tank"\n'
+                                       'start = "tank"\nend_head = "190 m"\n'))
+    out = tmp_path / "sizes"
+    assert main(["sizes", str(p), "--candidates", "10 in, 12 in", "-o", str(out)]) == 0
+    table = pd.read_csv(out / "sizes.csv")
+    design = table[table["scenario"] == "design"].set_index("candidate")
+    assert list(design.index) == ["10 in", "12 in"]
+    w = IAPWS95(T=288.15, P=0.101325)
+    for name, d in (("10 in", 0.254), ("12 in", 0.3048)):
+        area = np.pi * d ** 2 / 4
+
+        def loss(q):
+            v = q / area
+            f = fluids.friction.friction_factor(Re=w.rho * v * d / w.mu, eD=0.1e-3 / d)
+            return (f * 1000.0 / d + 1.5) * v ** 2 / (2 * G) - 10.0
+        assert design.loc[name, "inflow_m3_s"] == pytest.approx(brentq(loss, 1e-4, 2.0), rel=1e-2)
+        assert design.loc[name, "inflow_gpm"] == pytest.approx(
+            design.loc[name, "inflow_m3_s"] / 3.785411784e-3 * 60, rel=1e-4)  # 6 decimals written
+        assert design.loc[name, "min_pressure_psi"] == pytest.approx(
+            design.loc[name, "min_pressure_kpa"] * 1e3 / 6894.757293168361, rel=1e-6)
+        assert design.loc[name, "head_loss_ft"] == pytest.approx(
+            design.loc[name, "head_loss_m"] / 0.3048, rel=1e-6)
+    assert design.loc["12 in", "inflow_m3_s"] > design.loc["10 in", "inflow_m3_s"]
+    text = (out / "sizes.txt").read_text()
+    assert "design: the heads drive" in text and "gpm through 10 in" in text
+    assert "()" not in text and "( " not in text
+    # the figure: the flow in place of the head loss, every label with a unit
+    from gisgrade.pipeline import compute
+    from gisgrade.project import load
+    from gisgrade.sizes import candidate_project, candidates_from_text, compare, comparison_figure
+
+    project = load(p)
+    cands = candidates_from_text(project, "10 in, 12 in")
+    table2, lines = compare(project, cands, [compute(candidate_project(project, c)) for c in cands])
+    fig = comparison_figure(table2, project, lines)
+    labels = [t for ax in fig.axes for t in (ax.get_xlabel(), ax.get_ylabel())]
+    assert "flow the heads drive (gpm)" in labels
+    assert not any("()" in t or "( )" in t for t in labels + [fig.texts[0].get_text()]), labels
+
+
+def test_partly_given_costs_get_a_note_and_absurd_sizes_a_one_line_error(tmp_path, capsys):
+    p = flat_site(tmp_path, CHECKS + COSTS.replace('cost = "300 / m"\n', ""))
+    out = tmp_path / "sizes"
+    assert main(["sizes", str(p), "-o", str(out), "-q"]) == 0
+    text = (out / "sizes.txt").read_text()
+    assert "costs are given for 2 of 3 candidates (small, large): no cost comparison" in text
+    assert "()" not in text
+    for bad, word in (("inf mm", "finite"), ("nan mm", "finite"), ("25 m", "larger than any pipe"),
+                      ("-200 mm", "greater than zero")):
+        out2 = tmp_path / "bad"
+        assert main(["sizes", str(p), "--candidates", f"200 mm, {bad}", "-o", str(out2)]) == 2
+        err = capsys.readouterr().err.strip()
+        assert len(err.splitlines()) == 1 and "--candidates" in err and word in err, err
+        assert "Traceback" not in err and not out2.exists()

@@ -49,7 +49,9 @@ def run_sizes(project_path, candidates_text, outdir, echo=lambda s: None):
     out.parent.mkdir(parents=True, exist_ok=True)
     tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}-", dir=out.parent))
     try:
-        table.to_csv(tmp / "sizes.csv", index=False, float_format="%.6f")
+        from ..display import Display
+        Display(project.output.units).dual(table).to_csv(tmp / "sizes.csv", index=False,
+                                                         float_format="%.6f")
         comparison_figure(table, project, lines).savefig(tmp / "sizes.png", dpi=120)
         (tmp / "sizes.txt").write_text(text)
         out.mkdir(exist_ok=True)

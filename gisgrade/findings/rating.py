@@ -13,7 +13,7 @@ def rating_findings(station, pressure, rating, scenario: str):
     >>> f = rating_findings(np.array([0.0, 10.0]), np.array([1.1e6, 0.9e6]), np.full(2, 1e6), "s")
     >>> from gisgrade.display import Display
     >>> [(r.worst_station_m, Display("US").render(r.message)) for r in f]
-    [(0.0, "pressure 159.5 psi above the pipe's rating 145.0 psi")]
+    [(0.0, "pressure up to 159.5 psi, above the pipe's 145.0 psi rating")]
     """
     rating = np.asarray(rating, dtype=float)
     out = []
@@ -21,7 +21,7 @@ def rating_findings(station, pressure, rating, scenario: str):
         over = (rating == r) & (pressure > r + PRESSURE_TOLERANCE)
         out += ranges(station, pressure / 1e3, over, code="rating", check="rating",
                       severity="critical", unit="kPa", limit=r / 1e3, scenario=scenario,
-                      worst="max", text="pressure {value} above the pipe's rating {limit}")
+                      worst="max", text="pressure up to {value}, above the pipe's {limit} rating")
     return out
 
 

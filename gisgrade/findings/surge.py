@@ -21,7 +21,7 @@ def surge_rating_findings(station, pressure_max, limit, scenario: str):
     >>> [(r.check, r.worst_station_m) for r in f]
     [('surge above rating', 0.0)]
     >>> Display().render(f[0].message)
-    'surge envelope 2100 kPa above the rating with its surge allowance, 2000 kPa (screening)'
+    'surge envelope up to 2100 kPa, above the 2000 kPa rating with its surge allowance (screening)'
     """
     limit = np.asarray(limit, dtype=float)
     out = []
@@ -30,8 +30,8 @@ def surge_rating_findings(station, pressure_max, limit, scenario: str):
         out += ranges(station, pressure_max / 1e3, over, code="surge-rating",
                       check="surge above rating", severity="critical", unit="kPa", limit=r / 1e3,
                       scenario=scenario, worst="max",
-                      text="surge envelope {value} above the rating with its surge "
-                           "allowance, {limit} (screening)")
+                      text="surge envelope up to {value}, above the {limit} rating with "
+                           "its surge allowance (screening)")
     return out
 
 
@@ -50,13 +50,13 @@ def surge_column_separation(inputs, i):
     the vapour-pressure line (absolute pressure = the water's vapour pressure,
     with the standard atmosphere at that elevation)."""
     s = inputs.surge
-    if s is None:
-        return []
+    if s is None or (inputs.grades is not None and not inputs.grades.minimum_applies[i]):
+        return []  # a pumped main at rest, pumps off: nothing flows, nothing stops
     # how far the down-surge head would fall below the vapour-pressure line (a
     # head; the envelope itself stops at that line)
     deficit = s.vapour_deficit[i]
     return ranges(inputs.station, deficit, deficit > 0,
                   code="surge-column-separation", check="surge column separation",
                   severity="warning", unit="m", limit=0.0, scenario=s.names[i], worst="max",
-                  text="down-surge head {value} below the vapour-pressure line: the column "
-                       "may separate (screening)")
+                  text="down-surge head up to {value} below the vapour-pressure line: the "
+                       "column may separate (screening)")

@@ -33,8 +33,8 @@ def column_separation_findings(station, pressure_abs, p_vapour, scenario: str,
     return ranges(
         station, deficit, p < p_vapour, code="column-separation", check="column separation",
         severity="critical", unit="m", limit=0.0, scenario=scenario, worst="max",
-        text=f"HGL {{value}} below the vapour-pressure line (absolute pressure {vapour}): "
-             "column separation: the flow cannot be carried as computed")
+        text=f"HGL up to {{value}} below the vapour-pressure line (absolute pressure {vapour}): "
+             "the column separates and the flow cannot be carried as computed")
 
 
 @check("column-separation")
@@ -43,6 +43,8 @@ def column_separation(inputs, i):
     the standard atmosphere at that elevation, against the vapour pressure
     at the project temperature."""
     g, top = inputs.grades, inputs.top
+    if not g.minimum_applies[i]:  # at rest, pumps off: no flow to carry (pressure.py)
+        return []
     absolute = g.density * G * (g.hgl_low[i] - top) + atmospheric_pressure(top)
     p_vapour = float(vapour_pressure(inputs.project.hydraulics.temperature))
     return column_separation_findings(inputs.station, absolute, p_vapour, g.names[i], g.density)

@@ -12,7 +12,7 @@ def high_velocity(inputs, i):
     v = g.velocity[i]
     return ranges(inputs.station, v, v > limit, code="high-velocity", check="high velocity",
                   severity="warning", unit="m/s", limit=limit, scenario=g.names[i], worst="max",
-                  text="velocity {value} above the {limit} maximum")
+                  text="velocity up to {value}, above the {limit} maximum")
 
 
 @check("low-velocity")
@@ -23,4 +23,4 @@ def low_velocity(inputs, i):
     v = g.velocity[i]
     return ranges(inputs.station, v, (v < limit) & (v > 0), code="low-velocity",
                   check="low velocity", severity="note", unit="m/s", limit=limit,
-                  scenario=g.names[i], text="velocity {value} below the {limit} minimum")
+                  scenario=g.names[i], text="velocity down to {value}, below the {limit} minimum")

@@ -35,6 +35,7 @@ class Ends:
     end_head: float | None  #: m, two heads: HGL at the end (a free outlet: the axis there)
     required_pressure: float  #: Pa, min-pressure: the pressure to keep
     required_where: np.ndarray | None  #: (n,) bool, where it applies (None: everywhere)
+    supply_head: float | None = None  #: m, the HGL a pumped source draws from ([energy] suction_head)
 
 
 @dataclass(frozen=True)
@@ -48,6 +49,7 @@ class Solved:
     required_head: float | None = None  #: m, min-pressure: the head needed
     pump_head: float | None = None  #: m, min-pressure: needed beyond the available head
     end_head: float | None = None  #: m, two heads: the end's head
+    pumps_off: bool = False  #: no flow with the pumps off behind a check valve (no minimum pressure)
 
 
 def ends(project, line) -> Ends:
@@ -61,7 +63,7 @@ def ends(project, line) -> Ends:
     if hyd.boundary == "two-heads" and end_head is None:  # free outlet: atmospheric at the axis
         end_head = float(line.axis[-1])
     p_req = hyd.required_pressure if hyd.required_pressure is not None else project.checks.min_pressure
-    return Ends(hyd.source_head, end_head, p_req, where)
+    return Ends(hyd.source_head, end_head, p_req, where, project.energy.suction_head)
 
 
 def source_head(line, case, e: Ends, earlier=()) -> Solved:
@@ -90,8 +92,16 @@ def two_heads(line, case, e: Ends, earlier=()) -> Solved:
 
 def min_pressure(line, case, e: Ends, earlier=()) -> Solved:
     """The least source head keeping the required pressure; the pump head is
-    what it needs beyond an available source head. The static case uses the
-    available head, else the highest head a flowing case needed."""
+    what it needs beyond an available source head.
+
+    The static case is the line at rest with the pumps off behind a check
+    valve: level at the head the source has without a pump, the available
+    ``source_head``, else the HGL it is pumped from (``[energy]
+    suction_head``); a source with neither is taken to hold the highest head
+    a flowing case needed (a tank at that level). Where a flowing case needed
+    more than that head, a pump runs in it and the static case is
+    ``pumps_off``: no service pressure is owed then, so the minimum pressure
+    is not checked in it (the maximum and the rating are)."""
     flows = line.flows(case, case.inflow)
     k = line.point_k(flows)
     required = pump = None
@@ -102,10 +112,15 @@ def min_pressure(line, case, e: Ends, earlier=()) -> Solved:
                                         **line.engine())
         head = required if e.source_head is None else max(required, e.source_head)
         pump = None if e.source_head is None else max(0.0, required - e.source_head)
-    elif head is None:  # static case without an available head: the highest used
+    else:  # at rest, pumps off: the supply's own head
         flowing = [s.head for s in earlier if s.inflow > 0]
-        head = (max(flowing) if flowing
-                else float(np.max(line.axis)) + e.required_pressure / (line.density * G))
+        if head is None:
+            head = e.supply_head
+        if head is None:
+            head = (max(flowing) if flowing
+                    else float(np.max(line.axis)) + e.required_pressure / (line.density * G))
+        off = bool(flowing) and max(flowing) > head + 1e-9
+        return Solved(case.inflow, head, flows, k, pumps_off=off)
     return Solved(case.inflow, head, flows, k, required_head=required, pump_head=pump)
 
 

@@ -35,6 +35,17 @@ class GradeSet:
     cases: pd.DataFrame = field(default_factory=pd.DataFrame)  #: one row per scenario: heads used
     #: one row per pressure element and scenario: element, kind, station_m, scenario, step_m, flow_m3_s
     elements: pd.DataFrame = field(default_factory=pd.DataFrame)
+    #: (hgl, hgl_upstream, egl) before the project's pressure elements (None: as above)
+    plain: tuple | None = None
+
+    @property
+    def minimum_applies(self) -> np.ndarray:
+        """(k,) bool: scenarios the minimum pressure applies to (all but the
+        static case of a pumped main, pumps off behind a check valve)."""
+        c = self.cases
+        if "pumps_off" not in c or len(c) != len(self.names):
+            return np.ones(len(self.names), dtype=bool)
+        return ~c["pumps_off"].fillna(False).to_numpy(dtype=bool)
 
     def __len__(self) -> int:
         return len(self.names)

@@ -53,7 +53,8 @@ def stage_hydraulics(project, table: pd.DataFrame, bends: pd.DataFrame) -> Grade
     losses, K by angle at each scenario's Reynolds number; fittings, a tank
     entrance at the first station and a tank exit at the last add theirs.
     ``GradeSet.cases`` has one row per scenario: ``scenario, boundary,
-    inflow_m3_s, source_head_m, required_head_m, pump_head_m, end_head_m``.
+    inflow_m3_s, source_head_m, required_head_m, pump_head_m, end_head_m,
+    pumps_off`` (the static case of a pumped main: no minimum pressure).
     """
     line = hydraulic_line(project, table, bends)
     boundary = project.hydraulics.boundary
@@ -75,13 +76,14 @@ def stage_hydraulics(project, table: pd.DataFrame, bends: pd.DataFrame) -> Grade
                                                stack("hgl_upstream"), stack("egl"), names)
     cases = pd.DataFrame([dict(scenario=n, boundary=boundary, inflow_m3_s=float(s.inflow),
                                source_head_m=float(s.head), required_head_m=s.required_head,
-                               pump_head_m=s.pump_head, end_head_m=s.end_head)
+                               pump_head_m=s.pump_head, end_head_m=s.end_head,
+                               pumps_off=bool(s.pumps_off))
                           for n, s in zip(names, solved)])
     return GradeSet(
         names=tuple(names), station=line.station, axis=line.axis,
         flow=flow, velocity=stack("velocity"), hgl=hgl, egl=egl, hgl_upstream=hgl_up,
         density=line.density, pressure_band=line.density * G * np.broadcast_to(band, (line.n,)),
-        cases=cases, elements=elements,
+        cases=cases, elements=elements, plain=(stack("hgl"), stack("hgl_upstream"), stack("egl")),
     )
 
 

@@ -305,9 +305,10 @@ def stage_surge(project, table, grades):
                      korteweg_wave_speed(K, grades.density, inside, wall, modulus, c1))
     if not np.all(np.isfinite(a) & (a > 0)):
         i = int(np.flatnonzero(~(np.isfinite(a) & (a > 0)))[0])
-        return None, [f"surge screening skipped: no wave speed for the pipe at station "
-                      f"{station[i]:.1f} m (give [pipe] material, elastic_modulus or wave_speed"
-                      " and a wall thickness)"]
+        from ..display import token
+        return None, [f"surge screening skipped: no wave speed for the pipe at "
+                      f"{token(float(station[i]), 'station')} (give [pipe] material, "
+                      "elastic_modulus or wave_speed and a wall thickness)"]
     L = np.hypot(np.diff(station), np.diff(grades.axis))
     t_return = return_time(L, a[:-1])
     factor = slow_closure_factor(t_return, cfg.closure_time)

@@ -76,7 +76,10 @@ def operations_summary(result) -> dict:
         out["pressure_management"] = [
             {"kind": p.kind, "station_m": p.station_m, "setting_kpa": p.setting / 1e3,
              "step_m": {n: float(v) for n, v in zip(g.names, p.step)}, "reason": p.reason,
-             "applied": False} for p in proposal.suggestions]
+             "toml": p.toml, "applied": False} for p in proposal.suggestions]
+        out["pressure_management_unfixable"] = [
+            {"from_station_m": u.from_station_m, "to_station_m": u.to_station_m,
+             "reason": u.reason} for u in getattr(proposal, "unfixable", ())]
         out["pressure_management_solved"] = bool(proposal.solved)
         out["pressure_management_note"] = proposal.reason
     return out
@@ -122,6 +125,16 @@ def operations_text(summary: dict, d: Display) -> list[str]:
         lines.append(f"pressure element: {e['kind']} at {at(e['station_m'])} (head step {steps})")
     for p in summary.get("pressure_management", []):
         lines.append(f"suggested (not applied): {p['reason']}")
-    if summary.get("pressure_management_note"):
-        lines.append(f"pressure management: {summary['pressure_management_note']}")
+    for u in summary.get("pressure_management_unfixable", []):
+        lines.append(f"pressure management: {u['reason']}")
+    left = summary.get("pressure_management_note", "")
+    for u in summary.get("pressure_management_unfixable", []):
+        left = left.replace(u["reason"], "").strip("; ")
+    if left:
+        lines.append(f"pressure management: {left}")
+    tables = [p["toml"] for p in summary.get("pressure_management", []) if p.get("toml")]
+    if tables:
+        lines.append("to apply the suggestions, add to the project file (these give the heads "
+                     "stated above):")
+        lines += ["  " + t for block in tables for t in block.splitlines()]
     return lines

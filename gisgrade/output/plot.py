@@ -273,8 +273,8 @@ def _crossings(ax, result, d, lo, hi, detail) -> list:
     texts = [str(n) for n in c.name[inside]]
     if detail and result.clearances is not None:
         ach = result.clearances.achieved[inside]
-        texts = [f"{n} {d.station([st], 2)[0]}: clearance {d.text(a, 'length')} "
-                 f"(required {d.text(r, 'length')})" for n, st, a, r in
+        texts = [f"{n} {d.station([st], 2)[0]}: clearance {d.text(a, 'length', 2)} "
+                 f"(required {d.text(r, 'length', 2)})" for n, st, a, r in
                  zip(texts, c.station[inside], ach, c.clearance[inside])]
     _labels(ax, c.station[inside], c.bottom[inside] * k, texts, lo, hi, turn=0.55 if detail else 0.8)
     return [Line2D([], [], marker="v", ls="", color=OUTLINE, ms=4, label="crossed feature (bottom)"),
@@ -341,6 +341,37 @@ def _finding_bars(ax, result, d, lo, hi, detail) -> list:
     return handles
 
 
+#: A label's box behind its text on the pressure strip (readable over a curve).
+LABEL_BOX = dict(boxstyle="square,pad=0.15", fc="white", ec="none", alpha=0.8)
+
+
+def quiet_place(s, curves, bands, lo, hi, width, until=1.0) -> tuple[float, int]:
+    """Where along [lo, hi] a label spanning ``width`` of the window should
+    start (a fraction of the window) and which of the value ``bands``
+    ((y0, y1) pairs, in order of preference) it takes: the place fewest
+    points of ``curves`` (k, n) over stations ``s`` fall in, the two ends
+    first on a tie; it ends before ``until`` of the window.
+
+    >>> s = np.linspace(0, 10, 11)
+    >>> quiet_place(s, np.array([np.r_[np.full(5, 1.0), np.full(6, 5.0)]]), [(0.5, 1.5)], 0, 10, 0.3)
+    (0.7, 0)
+    """
+    span = hi - lo
+    width = min(width, until)
+    starts = np.r_[0.0, until - width, np.linspace(0.0, until - width, 21)[1:-1]]
+    best = None
+    for b, (y0, y1) in enumerate(bands):
+        inside = (curves >= y0) & (curves <= y1)
+        for f in starts:
+            m = (s >= lo + f * span) & (s <= lo + (f + width) * span)
+            n = int(inside[:, m].sum())
+            if best is None or n < best[0]:
+                best = (n, round(float(f), 6), b)
+            if n == 0:
+                return best[1], best[2]
+    return best[1], best[2]
+
+
 def draw_pressure(axp, result, d: Display, lo=None, hi=None) -> list:
     """The pressure strip: each scenario's pressure at the pipe axis over the
     shared scale's class bands, the limits named, the rating where it matters."""
@@ -363,6 +394,7 @@ def draw_pressure(axp, result, d: Display, lo=None, hi=None) -> list:
             axp.plot(s, p, color=colours[name], lw=1.4)
             handles.append(Line2D([], [], color=colours[name], lw=1.4, label=f"pressure {name}"))
     top = max(float(np.nanmax(p_win)), pa(checks.max_pressure))
+    rating_note = False  # the off-scale rating's note takes the top right corner
     if "rating_pa" in t.columns and np.isfinite(t["rating_pa"]).any():
         rating = pa(t["rating_pa"].to_numpy()[w])
         if np.nanmin(rating) <= 1.5 * top:
@@ -374,21 +406,39 @@ def draw_pressure(axp, result, d: Display, lo=None, hi=None) -> list:
             axp.text(0.995, 0.97, f"pipe rating {d.text(np.nanmin(t['rating_pa']), 'pressure')} "
                      "(off scale)", transform=axp.transAxes, fontsize=6.5, ha="right", va="top",
                      color="#5b2a86")
+            rating_note = True
     bottom = min(float(np.nanmin(np.maximum(p_win, vacuum))), 0.0)
+    ylo, yhi = bottom - 0.08 * (top - bottom), top + 0.15 * (top - bottom)
+    drawn = np.maximum(p_win, vacuum)
+    tall = 0.1 * (yhi - ylo)  # a label's height on the strip, about
+    pos = axp.get_position()
+    width_pt = max(pos.width * axp.figure.get_figwidth() * 72, 1.0)
+    share = lambda text: (len(text) * 6.5 * 0.6 + 6) / width_pt  # noqa: E731  (6.5 pt type)
+
+    def place(text, y, bands, colour, until=1.0):
+        """``text`` at value ``y`` where the curves leave it clear (above or below),
+        ending before ``until`` of the strip."""
+        f, b = quiet_place(s, drawn, bands, lo, hi, share(text), until)
+        axp.text(min(max(f, 0.003), 0.997), y, text, transform=axp.get_yaxis_transform(),
+                 fontsize=6.5, ha="left", va="bottom" if bands[b][0] >= y - 1e-9 else "top",
+                 color=colour, bbox=LABEL_BOX, zorder=8)
+
     if np.nanmin(p_win) < vacuum:
         axp.axhline(vacuum, color="#444444", lw=0.8)
-        axp.text(0.995, 0.02, "values below vacuum are not reachable (column separation)",
-                 transform=axp.transAxes, fontsize=6.5, ha="right", va="bottom", color="#444444")
-    ylo, yhi = bottom - 0.08 * (top - bottom), top + 0.15 * (top - bottom)
+        place(" values below vacuum are not reachable (column separation) ", vacuum,
+              [(vacuum + 1e-9, vacuum + 1.2 * tall)], "#444444")
     scale = scale_of(result)
     edges = np.clip(pa(scale.edges), ylo, yhi)
     for a, b, c in zip(edges[:-1], edges[1:], scale.colours):  # the shared scale behind
         if b > a:
             axp.axhspan(a, b, color=c, alpha=0.22, lw=0, zorder=0)
     for v, word in ((checks.min_pressure, "minimum"), (checks.max_pressure, "maximum")):
-        axp.axhline(pa(v), color="#1f1f1f", lw=0.8, ls="-.")
-        axp.text(0.003, pa(v), f" {word} {d.text(v, 'pressure')}", transform=axp.get_yaxis_transform(),
-                 fontsize=6.5, va="bottom", color="#1f1f1f")
+        y = pa(v)
+        axp.axhline(y, color="#1f1f1f", lw=0.8, ls="-.")
+        # where the curves leave it clear: above the line, else below it (the
+        # off-scale rating's note holds the top right corner)
+        place(f" {word} {d.text(v, 'pressure')} ", y, [(y, y + tall), (y - tall, y)], "#1f1f1f",
+              until=0.7 if word == "maximum" and rating_note else 1.0)
     axp.set_ylim(ylo, yhi)
     axp.set_xlim(lo, hi)
     axp.set_ylabel(d.label("pressure", "Pressure at axis"))
@@ -468,10 +518,14 @@ def profile_figure(result, display: Display | None = None) -> Figure:
 def crossing_details(fig, cell, result, d: Display, shown, per_row: int, rows=None) -> None:
     """A close-up of each crossing of ``shown`` (indices), ``per_row`` to a
     row of ``cell`` (``rows`` of them, default as many as needed), at a
-    modest exaggeration, the required clearance drawn over the footprint only."""
+    modest exaggeration, the required clearance drawn over the footprint only;
+    every length in the reader's units: the window a round number of them
+    (at least 100 ft or 30 m each side), clearances to 0.01 ft or m."""
     c, t = result.crossings, result.table
     s = t["station_m"].to_numpy()
     k = d.factor("elevation")
+    f = d.factor("length")
+    unit = 1.0 / f  # one display length unit, m
     reach = c.reach()
     spacing = float(np.median(np.diff(s))) if len(s) > 1 else 10.0
     rows = rows or int(np.ceil(len(shown) / per_row))
@@ -479,28 +533,30 @@ def crossing_details(fig, cell, result, d: Display, shown, per_row: int, rows=No
     for r in range(int(np.ceil(len(shown) / per_row))):
         for n, i in enumerate(shown[r * per_row:(r + 1) * per_row]):
             ax = fig.add_subplot(sub[r, n])
-            half = max(30.0, 4 * reach[i], 3 * spacing)
+            round_to = (50 if d.us else 10) * unit
+            half = np.ceil(max((100 if d.us else 30) * unit, 4 * reach[i], 3 * spacing)
+                           / round_to - 1e-9) * round_to
             view = (s >= c.station[i] - half - spacing) & (s <= c.station[i] + half + spacing)
-            x = (s[view] - c.station[i]) * d.factor("length")
+            x = (s[view] - c.station[i]) * f
             ax.plot(x, t["ground_m"].to_numpy()[view] * k, **GROUND)
             ax.fill_between(x, t["invert_m"].to_numpy()[view] * k, t["top_m"].to_numpy()[view] * k,
                             facecolor=PIPE_FACE, edgecolor=PIPE_EDGE, lw=0.5)
-            w = max(2 * reach[i], 0.5) * d.factor("length")  # the footprint (0.5 m if a line)
+            w = max(2 * reach[i], (1.5 if d.us else 0.5) * unit) * f  # footprint (a line: 1.5 ft, 0.5 m)
             height = c.size[i] if np.isfinite(c.size[i]) else 0.3
             ax.add_patch(Rectangle((-w / 2, c.bottom[i] * k), w, height * k, facecolor="#f4f1ea",
                                    edgecolor=OUTLINE, lw=0.8,
                                    hatch=None if np.isfinite(c.size[i]) else "////"))
             limit = (c.bottom[i] - c.clearance[i] if c.side[i] == "under"
                      else c.top[i] + c.clearance[i])
-            ax.plot([-w / 2 - 3 * d.factor("length"), w / 2 + 3 * d.factor("length")],
-                    [limit * k] * 2, color="#d55e00", lw=1.6, ls="--")
-            ax.set_xlim(-half * d.factor("length"), half * d.factor("length"))
+            tail = 10.0 if d.us else 3.0  # display units beyond the footprint
+            ax.plot([-w / 2 - tail, w / 2 + tail], [limit * k] * 2, color="#d55e00", lw=1.6, ls="--")
+            ax.set_xlim(-half * f, half * f)
             ax.set_title(f"{c.name[i]}\n{d.station([c.station[i]])[0]}, passed {c.side[i]}",
                          fontsize=6.5, loc="left")
             achieved = result.clearances.achieved[i]
             short = achieved < c.clearance[i] - 1e-6
-            ax.text(0.03, 0.04, f"clearance {d.text(achieved, 'length')}\n(required "
-                    f"{d.text(c.clearance[i], 'length')})", transform=ax.transAxes, fontsize=6.5,
+            ax.text(0.03, 0.04, f"clearance {d.text(achieved, 'length', 2)}\n(required "
+                    f"{d.text(c.clearance[i], 'length', 2)})", transform=ax.transAxes, fontsize=6.5,
                     color="#d55e00" if short else "#1f1f1f",
                     bbox=dict(fc="white", ec="none", alpha=0.8, pad=1))
             ax.tick_params(labelsize=6)

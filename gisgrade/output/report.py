@@ -325,10 +325,11 @@ def _others(result, s) -> list[str]:
             records = [records]
         if records:
             out += [f"<h2>{e(title)}</h2>", plain_table(records)]
-    suggestions = getattr(result, "suggestions", None)
-    if suggestions:
-        items = suggestions if isinstance(suggestions, (list, tuple)) else [suggestions]
-        out += ["<h2>Suggestions</h2>", "<ul>" + "".join(f"<li>{e(x)}</li>" for x in items) + "</ul>"]
+    proposal = getattr(result, "suggestions", None)
+    items = list(getattr(proposal, "suggestions", ()) or ())
+    if items:
+        out += ["<h2>Suggestions</h2>", "<ul>" + "".join(
+            f"<li>{e(x.reason)}<pre>{e(x.toml)}</pre></li>" for x in items) + "</ul>"]
     return out
 
 

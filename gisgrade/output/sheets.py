@@ -241,12 +241,15 @@ def _data_band(ax, result, d: Display, lo, hi, interval):
     ax.hlines(np.arange(1, len(rows)), 0, 1, transform=ax.get_yaxis_transform(), color="#888888",
               lw=0.5)
     ax.vlines(at, 0, len(rows), color="#cccccc", lw=0.4)
+    edge = 0.03 * (hi - lo)  # a value this near an end reads inwards, clear of the row names
     for x in at:  # major stations: a few dozen
+        ha = "left" if x - lo < edge else "right" if hi - x < edge else "center"
+        nudge = {"left": 0.004, "right": -0.004, "center": 0.0}[ha] * (hi - lo)
         for y, (name, col) in enumerate(rows):
             text = (d.station([x], 0)[0] if col is None else
                     d.number(np.interp(x, s, t[col].to_numpy()), "length" if col == "cover_m"
                              else "elevation"))
-            ax.text(x, y + 0.5, text, fontsize=6, ha="center", va="center")
+            ax.text(x + nudge, y + 0.5, text, fontsize=6, ha=ha, va="center")
     unit = d.unit("elevation")
     ax.text(1.003, 0.5, f"elevations and cover in {unit}", transform=ax.transAxes, fontsize=6,
             va="center", rotation=90)

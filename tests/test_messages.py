@@ -1,0 +1,75 @@
+"""Messages a person reads: finding texts as sentences, examples that fit
+the key, an empty crossing layer said aloud, contradictory keys refused.
+
+Outside references: the field notes' 140 kPa minimum (common practice);
+hydrostatics p = rho g (H - z) for the pressures the texts quote; the rest
+is the project's own contract for input (one line naming the key, exit
+status 2, nothing written) and plain English usage.
+"""
+from __future__ import annotations
+
+import json
+import re
+
+import pytest
+
+from conftest import CROSSING_X, flat_site
+from gisgrade.cli import main
+from gisgrade.errors import InputError
+from gisgrade.units import parse_quantity
+
+
+@pytest.mark.parametrize("key, want", [("scenarios[0].hours_per_year", '"50 h"'),
+                                       ("energy.period", '"30 years"'),
+                                       ("surge.closure_time", '"60 s"')])
+def test_time_examples_fit_the_key(key, want):
+    # a bare number for a time: the example shows the kind of time the key
+    # means (hours a year, years, seconds), never a 2 s closure, which would
+    # read as the fast closure the screening assumes anyway
+    with pytest.raises(InputError) as e:
+        parse_quantity("5", "time", key)
+    assert want in str(e.value) and '"2 s"' not in str(e.value)
+
+
+def test_low_and_high_pressure_texts_read_as_sentences(tmp_path):
+    # flat ground at 100 m, source head 110 m: about 98 kPa (rho g 10 m) at
+    # the start, under the 140 kPa minimum
+    from gisgrade.pipeline import compute
+
+    p = flat_site(tmp_path)
+    p.write_text(p.read_text().replace('source_head = "200 m"', 'source_head = "110 m"'))
+    r = compute(p)
+    low = r.findings[r.findings["code"] == "low-pressure"]["message"].tolist()
+    assert low and all(re.fullmatch(r"pressure down to \d+ kPa, below the 140 kPa minimum", m)
+                       for m in low), low
+    (tmp_path / "h").mkdir()
+    high = compute(flat_site(tmp_path / "h"))  # 200 m over 100 m: about 980 kPa, over 550 kPa
+    msgs = high.findings[high.findings["code"] == "high-pressure"]["message"].tolist()
+    assert msgs and all(re.fullmatch(r"pressure up to \d+ kPa, above the 550 kPa maximum", m)
+                        for m in msgs), msgs
+
+
+def test_an_empty_crossing_layer_is_said_not_silently_dropped(tmp_path, capsys):
+    p = flat_site(tmp_path, CROSSING_X)
+    (tmp_path / "x.geojson").write_text(json.dumps({
+        "type": "FeatureCollection", "features": [],
+        "crs": {"type": "name", "properties": {"name": "urn:ogc:def:crs:EPSG::32633"}}}))
+    out = tmp_path / "out"
+    assert main(["run", str(p), "-o", str(out)]) == 0
+    captured = capsys.readouterr()
+    assert "warning: crossings[0]: x.geojson holds no features" in captured.err
+    assert "()" not in captured.err + captured.out
+    notes = json.loads((out / "summary.json").read_text())["notes"]
+    assert any("x.geojson holds no features" in n for n in notes)
+
+
+def test_where_and_feature_together_are_refused_in_one_line(tmp_path, capsys):
+    p = flat_site(tmp_path)
+    p.write_text(p.read_text().replace('path = "line.geojson"\n',
+                                       'path = "line.geojson"\nwhere = "id = 1"\nfeature = 0\n', 1))
+    before = p.read_text()
+    out = tmp_path / "out"
+    assert main(["run", str(p), "-o", str(out)]) == 2
+    err = capsys.readouterr().err.strip()
+    assert len(err.splitlines()) == 1 and "alignment.where" in err and "alignment.feature" in err
+    assert "Traceback" not in err and not out.exists() and p.read_text() == before
