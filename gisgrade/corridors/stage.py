@@ -298,8 +298,6 @@ def hydraulic_reach(project):
     from ..hydraulics.water import density, dynamic_viscosity
 
     hyd, pipe = project.hydraulics, project.pipe
-    if project.corridors.hgl_weight == 0:
-        return None, "the HGL term is off (corridors.hgl_weight = 0)"
     if hyd is None or pipe is None:
         return None, "the HGL term is off: the project has no [pipe] or [hydraulics]"
     if hyd.source_head is None or hyd.flow is None:
@@ -397,7 +395,8 @@ def cost_surface(project, grid: Grid, layers: Layers, source_cell, reach: Reach 
         head = C.reachable_head(reach.source_head, reach.friction_slope, dist)
         deficit = np.where(np.isfinite(dist), C.head_deficit(z, reach.depth, head, reach.min_head),
                            0.0)
-        extra = extra + C.hgl_term(deficit, cfg.hgl_weight)
+        if cfg.hgl_weight:
+            extra = extra + C.hgl_term(deficit, cfg.hgl_weight)
     discount = None
     if not layers.preferred.is_empty:
         discount = np.where(burn([layers.preferred], grid, all_touched=False),
@@ -473,6 +472,9 @@ def plan_corridors(project, points, *, crs=None, k=None) -> CorridorResult:
     reach, why = hydraulic_reach(project)
     if why:
         notes.append(why)
+    elif not cfg.hgl_weight:
+        notes.append("the HGL term is off (corridors.hgl_weight = 0); the head deficit is "
+                     "still reported")
     cost, deficit = cost_surface(project, grid, layers, cells[0], reach)
     for (r, c), p, name in zip(cells, xy, names):
         if not np.isfinite(cost[r, c]):
