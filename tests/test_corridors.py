@@ -315,3 +315,25 @@ def test_cli_writes_the_candidates(tmp_path, capsys):
     assert {f.name for f in (tmp_path / "out").iterdir()} == {
         "candidates.gpkg", "cost.tif", "corridors.png", "corridors.csv"}
     assert "C1:" in capsys.readouterr().out
+
+
+def test_dem_read_through_a_window_and_averaged_to_the_resolution(tmp_path):
+    """With margin 100 m and resolution 20 m over a 10 m DEM, the grid holds
+    only the window around the points (plus the margin) and each cell is the
+    mean of its 2 x 2 DEM cells (numpy's mean of the same cells; GDAL's
+    average resampling)."""
+    from gisgrade.corridors.stage import read_window
+
+    z = np.random.default_rng(3).uniform(90, 110, (100, 120))
+    p = site(tmp_path, z, 'margin = "100 m"\nresolution = "20 m"\n')
+    pts = np.array([xy(40, 30), xy(60, 80)])
+    g = read_window(p.terrain.dem[0], pts, margin=100.0, resolution=20.0, max_cells=4e6,
+                    vertical_factor=1.0, mpu=1.0)
+    assert g.cell == 20.0
+    r0, c0 = int(round((Y0 - g.y0) / CELL)), int(round((g.x0 - X0) / CELL))
+    # The cells holding the window's corner: 100 m beyond the points' cell centres.
+    assert (r0, c0) == (int((405 + 0 - 100) // CELL), int((305 - 100) // CELL)) == (30, 20)
+    rows, cols = g.z.shape
+    assert rows * 2 <= 42 and cols * 2 <= 72  # the window only, not the 100 x 120 DEM
+    ref = z[r0:r0 + 2 * rows, c0:c0 + 2 * cols].reshape(rows, 2, cols, 2).mean(axis=(1, 3))
+    assert np.allclose(g.z, ref.astype("float32"), atol=1e-4)

@@ -14,6 +14,7 @@ from matplotlib.patches import Patch
 
 from ..cautions import SHORT
 from ..display import Display
+from ..output.layers import result_name
 from ..output.mapfig import _north, _scale_bar, hillshade
 from ..output.style import OKABE_ITO
 
@@ -115,7 +116,7 @@ def corridor_figure(res) -> Figure:
                                  f"hillshade of {g.path.name} (lit from the north-west)",
                                  *[n[:60] + ("..." if len(n) > 60 else "") for n in res.notes[:4]]]),
              fontsize=6.5, va="bottom", color="#444444", transform=key.transAxes)
-    name = res.project.output.name or res.project.path.stem
-    ax.set_title(f"{name}: candidate routes from the terrain", fontsize=11, loc="left")
+    ax.set_title(f"{result_name(res)}: candidate routes from the terrain", fontsize=11,
+                 loc="left")
     fig.text(0.05, 0.015, SHORT, fontsize=7, color="#555555")
     return fig

@@ -180,6 +180,9 @@ def read_window(path, xy, *, margin: float, resolution: float | None, max_cells:
 
     with rasterio.open(path) as src:
         t = src.transform
+        if t.b or t.d or t.e >= 0 or not math.isclose(t.a, -t.e, rel_tol=1e-6):
+            raise InputError(f"terrain.dem: {Path(str(path)).name}: corridors need square, "
+                             "north-up DEM cells (warp it first)")
         native = abs(t.a)
         m = margin / mpu
         x0, y0 = xy.min(axis=0) - m
@@ -188,7 +191,7 @@ def read_window(path, xy, *, margin: float, resolution: float | None, max_cells:
         c1 = min(int(math.ceil((x1 - t.c) / native)), src.width)
         r0 = max(int(math.floor((t.f - y1) / native)), 0)
         r1 = min(int(math.ceil((t.f - y0) / native)), src.height)
-        step = max(1, int(math.ceil((resolution or 0.0) / (native * mpu) - 1e-9)))
+        step = max(1, int(round((resolution or 0.0) / (native * mpu))))
         while ((r1 - r0) // step) * ((c1 - c0) // step) > max_cells:
             step += 1
         rows, cols = (r1 - r0) // step, (c1 - c0) // step
@@ -344,9 +347,18 @@ class CorridorResult:
         out = Path(outdir)
         if out.exists() and not out.is_dir():
             raise InputError(f"output folder {out} is a file; give -o a folder")
-        out.parent.mkdir(parents=True, exist_ok=True)
-        tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}-", dir=out.parent))
         names = list(FILES) + (["comparison.csv"] if self.comparison is not None else [])
+        inputs = {p.resolve() for p in self.project.input_paths()}
+        clash = [n for n in names if (out / n).resolve() in inputs]
+        if clash:
+            raise InputError(f"output folder {out}: writing {clash[0]} there would replace an "
+                             "input of this project; choose another -o or output.dir")
+        parent = out.parent if str(out.parent) else Path(".")
+        try:
+            parent.mkdir(parents=True, exist_ok=True)
+            tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}-", dir=parent))
+        except OSError as exc:
+            raise InputError(f"output folder {out}: cannot write there ({exc.strerror})") from None
         try:
             self.candidates.to_file(tmp / "candidates.gpkg", layer="candidates",
                                     driver="GPKG", engine="pyogrio")
@@ -456,10 +468,11 @@ def plan_corridors(project, points, *, crs=None, k=None) -> CorridorResult:
                        vertical_factor=vertical_unit_factor(project.terrain.vertical_unit),
                        mpu=mpu)
     notes = []
-    if cfg.resolution is not None and grid.cell > cfg.resolution * (1 + 1e-9) or (
-            cfg.resolution is None and grid.step > grid.native):
-        notes.append(f"cost grid coarsened to {grid.cell:.3g} m cells to stay within "
-                     f"corridors.max_cells = {cfg.max_cells:.0f}")
+    asked = cfg.resolution if cfg.resolution is not None else grid.native * mpu
+    if not math.isclose(grid.cell, asked, rel_tol=1e-6):
+        notes.append(f"cost grid cells {grid.cell:.4g} m ({grid.step / grid.native:.0f} DEM "
+                     f"cells), not {asked:.4g} m: a whole number of DEM cells, at most "
+                     f"corridors.max_cells = {cfg.max_cells:.0f} in the window")
     layers = read_layers(project, grid.crs, mpu)
     cells = grid.cells_of(xy)
     names = ["--from"] + ["--via"] * (len(xy) - 2) + ["--to"]
