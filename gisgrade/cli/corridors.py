@@ -9,7 +9,7 @@ from . import caution_help, setup_logging, verbosity
 from .common import guarded
 
 
-def run_corridors(project_path, start, end, via, crs, k, outdir, compare=False,
+def run_corridors(project_path, start, end, via, crs, k, outdir, compare=False, workers=None,
                   echo=lambda s: None):
     """Load, plan the corridors (and compare them), write; returns (result, folder)."""
     from ..corridors import plan_corridors
@@ -34,7 +34,8 @@ def run_corridors(project_path, start, end, via, crs, k, outdir, compare=False,
     if compare:
         from ..corridors.compare import compare_candidates
         echo("running the candidates through the whole job ...")
-        result.comparison, _ = compare_candidates(project, result.candidates, drawn=result.drawn)
+        result.comparison, _ = compare_candidates(project, result.candidates, drawn=result.drawn,
+                                                  workers=workers)
     result.write(out)
     return result, out
 
@@ -60,13 +61,16 @@ def run_corridors(project_path, start, end, via, crs, k, outdir, compare=False,
 @click.option("-k", "k", type=int, default=None, help="how many candidates (default: corridors.k)")
 @click.option("--compare", is_flag=True,
               help="run every candidate and the drawn centerline through the whole job")
+@click.option("--workers", type=int, default=None,
+              help="with --compare: processes running the routes (0: this one; default: the cores)")
 @click.option("-o", "--outdir", type=click.Path(path_type=Path), default=None,
               help="output folder (default: [output] dir, else gisgrade-out beside PROJECT)")
 @verbosity
-def command(project, start, end, via, crs, k, compare, outdir, verbose, quiet):
+def command(project, start, end, via, crs, k, compare, workers, outdir, verbose, quiet):
     verbose, quiet = setup_logging(verbose, quiet)
     echo = (lambda s: None) if quiet else (lambda s: click.echo(s, err=True))
-    done, status = guarded(run_corridors, project, start, end, via, crs, k, outdir, compare, echo)
+    done, status = guarded(run_corridors, project, start, end, via, crs, k, outdir, compare,
+                           workers, echo)
     if status == 0 and not quiet:
         result, out = done
         for row in result.table.itertuples():

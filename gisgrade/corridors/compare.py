@@ -9,8 +9,10 @@ from __future__ import annotations
 
 def compare_candidates(project, candidates, *, drawn=None, workers=None, progress=None):
     """The comparison table of ``candidates`` (a GeoDataFrame with a ``route``
-    column, CRS set) and the ``drawn`` line (a LineString in the same CRS, or
-    None), each run through the whole job by ``gisgrade.routes.run_routes``.
+    column, CRS set, each from the source) and the ``drawn`` line (a LineString
+    in the same CRS in the direction of flow, or None), each run through the
+    whole job by ``gisgrade.routes.run_routes`` (``workers``: its Dask
+    processes, 0: in this process; ``progress(done, total)``).
 
     Needs the ``routes`` module (``gisgrade routes``); without it an
     :class:`~gisgrade.errors.InputError` says so. Returns (table, result).
@@ -28,5 +30,10 @@ def compare_candidates(project, candidates, *, drawn=None, workers=None, progres
         lines = gpd.GeoDataFrame(pd.concat([gpd.GeoDataFrame({"route": ["drawn"]},
                                                              geometry=[drawn], crs=lines.crs),
                                             lines], ignore_index=True), crs=lines.crs)
+    # The lines already run in the direction of flow (candidates from the source,
+    # the drawn line as read_alignment oriented it): no reversal, no filter again.
+    from dataclasses import replace
+    project = replace(project, alignment=replace(project.alignment, reverse=False, where=None,
+                                                 feature=None))
     result = run_routes(project, lines, workers=workers, figures=False, progress=progress)
     return result.table, result
