@@ -135,6 +135,66 @@ def shared_share(line, earlier, radius: float, fixed=None) -> float:
     return float(part.intersection(zone).length / part.length)
 
 
+def segment_cost(cost, a, b, cell: float) -> float:
+    """Cost [m] of the straight segment between cell centres ``a`` and ``b``
+    ((row, col), fractional allowed) on ``cost`` [per m]: the cost of the
+    cell under each point sampled every quarter cell, times the length
+    (trapezoid rule); inf where it meets an impassable cell.
+
+    >>> round(segment_cost(np.ones((3, 4)), (0, 0), (2, 3), 10.0), 6)  # sqrt(2^2 + 3^2) cells
+    36.055513
+    """
+    cost = np.asarray(cost, float)
+    a, b = np.asarray(a, float), np.asarray(b, float)
+    n = int(np.ceil(4 * np.hypot(*(b - a)))) + 1
+    t = np.linspace(0.0, 1.0, max(n, 2))
+    rc = np.rint(a[None, :] + t[:, None] * (b - a)[None, :]).astype(int)
+    rc = np.clip(rc, 0, np.array(cost.shape) - 1)
+    c = cost[rc[:, 0], rc[:, 1]]
+    if not np.all(np.isfinite(c)):
+        return np.inf
+    length = np.hypot(*(b - a)) * cell
+    return float(np.sum((c[:-1] + c[1:]) / 2) * length / (len(t) - 1))
+
+
+def straighten(cost, cells, cell: float) -> np.ndarray:
+    """The vertices (indices into ``cells``) of a taut polyline along the
+    raster path ``cells``: top-down like Douglas-Peucker [2], but a stretch
+    of the path is replaced by its chord when the chord costs no more than
+    the stretch (:func:`segment_cost` against :func:`path_cost`), else split
+    at the cell farthest from the chord. This takes out the 8-neighbour
+    staircase (up to 8.2 % of length) where the ground allows a straight
+    line, and keeps every bend the cost asks for.
+
+    >>> stair = np.array([[0, 0], [1, 1], [2, 2], [2, 3], [2, 4], [2, 5]])
+    >>> straighten(np.ones((3, 6)), stair, 1.0).tolist()
+    [0, 5]
+    >>> wall = np.ones((3, 6)); wall[1, 2:4] = np.inf; wall[2, 2:4] = np.inf
+    >>> straighten(wall, np.array([[2, 0], [1, 1], [0, 2], [0, 3], [1, 4], [2, 5]]), 1.0).tolist()
+    [0, 2, 3, 5]
+    """
+    cost = np.asarray(cost, float)
+    cells = np.asarray(cells, int)
+    n = len(cells)
+    c = cost[cells[:, 0], cells[:, 1]]
+    step = np.hypot(*np.diff(cells, axis=0).T) * cell
+    cum = np.concatenate([[0.0], np.cumsum(step * (c[:-1] + c[1:]) / 2.0)])
+    keep, todo = {0, n - 1}, [(0, n - 1)]
+    while todo:  # one pass per kept vertex, each vectorized over its stretch
+        i, j = todo.pop()
+        if j - i < 2:
+            continue
+        if segment_cost(cost, cells[i], cells[j], cell) <= (cum[j] - cum[i]) * (1 + 1e-9):
+            continue
+        d = cells[j] - cells[i]
+        rel = cells[i + 1:j] - cells[i]
+        off = np.abs(rel[:, 0] * d[1] - rel[:, 1] * d[0])
+        k = i + 1 + int(np.argmax(off))
+        keep.add(k)
+        todo += [(i, k), (k, j)]
+    return np.array(sorted(keep))
+
+
 def simplify(line, tolerance: float, avoid=None):
     """Douglas-Peucker [2] of ``line`` with ``tolerance`` [m]; where that cuts
     into ``avoid`` (a geometry, e.g. the no-go polygons) the tolerance is
@@ -176,7 +236,8 @@ def alternatives(cost, points, cell: float, k: int, *, radius: float, factor: fl
     the cells within ``radius`` [m] of every earlier route (but not of the
     ``fixed`` points, given as grid cells) costing ``factor`` times more; it
     is kept when no more than ``max_shared`` of its length (as the polyline
-    and tolerance ``to_line(cells)``, in CRS units of ``unit`` metres) lies
+    and tolerance ``to_line(cells, the cost it was found on)``, in CRS units
+    of ``unit`` metres) lies
     within ``radius`` of an earlier one
     (:func:`shared_share`), else the factor is squared and tried again, up to
     ``tries`` times. Returns the candidates and a note when fewer than ``k``
@@ -194,7 +255,7 @@ def alternatives(cost, points, cell: float, k: int, *, radius: float, factor: fl
             cells, _ = route_through(c, fixed_cells, cell)
             if cells is None:
                 return found, "no route between the points: no-go areas or missing ground close them off"
-            line, tol = to_line(cells)
+            line, tol = to_line(cells, c)
             share = shared_share(line, lines, radius / unit, fixed)
             if share <= max_shared:
                 break

@@ -28,7 +28,8 @@ from . import path as P
 FILES = ("candidates.gpkg", "cost.tif", "corridors.png", "corridors.csv")
 
 #: corridors.csv columns.
-COLUMNS = ["route", "length_m", "grid_length_m", "cost_m", "cost_ratio", "shared", "crossings",
+COLUMNS = ["route", "length_m", "grid_length_m", "cost_m", "line_cost_m", "cost_ratio", "shared",
+           "crossings",
            "climb_m", "min_ground_m", "max_ground_m", "max_slope", "max_head_deficit_m",
            "vertices", "tolerance_m", "penalty_factor"]
 
@@ -59,9 +60,13 @@ class Grid:
 
     def cells_of(self, xy) -> np.ndarray:
         """(row, col) of points ``xy`` ((m, 2), CRS units)."""
+        return np.floor(self.fractional_cells(xy) + 0.5).astype(int)
+
+    def fractional_cells(self, xy) -> np.ndarray:
+        """(row, col) of points ``xy`` as fractions, cell centres whole."""
         xy = np.asarray(xy, float)
-        return np.column_stack([np.floor((self.y0 - xy[:, 1]) / self.step),
-                                np.floor((xy[:, 0] - self.x0) / self.step)]).astype(int)
+        return np.column_stack([(self.y0 - xy[:, 1]) / self.step - 0.5,
+                                (xy[:, 0] - self.x0) / self.step - 0.5])
 
     def xy_of(self, cells) -> np.ndarray:
         """Cell centres ((n, 2), CRS units) of ``cells`` ((n, 2) rows, cols)."""
@@ -500,8 +505,15 @@ def plan_corridors(project, points, *, crs=None, k=None) -> CorridorResult:
         raw[0], raw[-1] = xy[0], xy[-1]
         return LineString(raw)
 
-    def to_line(route_cells):
-        return P.simplify(raw_line(route_cells), tol / mpu, layers.no_go)
+    def to_line(route_cells, found_on):  # taut where the cost allows, then Douglas-Peucker
+        raw = raw_line(route_cells)
+        taut = LineString(np.asarray(raw.coords)[P.straighten(found_on, route_cells, grid.cell)])
+        return P.simplify(raw if taut.intersects(layers.no_go) else taut, tol / mpu,
+                          layers.no_go)
+
+    def line_cost(line):  # the polyline's own cost on the surface
+        v = grid.fractional_cells(np.asarray(line.coords))
+        return sum(P.segment_cost(cost, a, b, grid.cell) for a, b in zip(v[:-1], v[1:]))
 
     found, note = P.alternatives(cost, cells, grid.cell, k, radius=cfg.separation,
                                  factor=cfg.separation_factor, max_shared=cfg.max_shared,
@@ -519,6 +531,7 @@ def plan_corridors(project, points, *, crs=None, k=None) -> CorridorResult:
         ground = z[r, c]
         rows.append(dict(route=f"C{i + 1}", length_m=line.length * mpu,
                          grid_length_m=raw_line(alt.cells).length * mpu, cost_m=alt.cost,
+                         line_cost_m=line_cost(line),
                          cost_ratio=alt.cost / found[0].cost, shared=alt.shared,
                          crossings=count_crossings(line, layers.crossings),
                          climb_m=float(np.sum(np.maximum(np.diff(ground), 0.0))),
