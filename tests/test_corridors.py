@@ -337,3 +337,70 @@ def test_dem_read_through_a_window_and_averaged_to_the_resolution(tmp_path):
     assert rows * 2 <= 42 and cols * 2 <= 72  # the window only, not the 100 x 120 DEM
     ref = z[r0:r0 + 2 * rows, c0:c0 + 2 * cols].reshape(rows, 2, cols, 2).mean(axis=(1, 3))
     assert np.allclose(g.z, ref.astype("float32"), atol=1e-4)
+
+
+def test_preferred_corridor_draws_the_route_along_it(tmp_path):
+    """A road 200 m north of the straight line: at half the cost per metre the
+    cheapest continuous route meets the road at 60 deg (cos 60 = 0.5, the
+    refraction rule of a two-speed medium), costing 2 x 231 m + 670 m / 2 =
+    797 m against the 900 m straight line, with about 59 % of its length on
+    the road; the grid route follows it (more than 40 % on the road, cost
+    within 3 % of 797 m). At no discount the route is straight, never on it."""
+    from gisgrade.corridors import plan_corridors
+    from gisgrade.project import load
+
+    road = LineString([xy(30, 5), xy(30, 95)])
+    write_lines(tmp_path / "road.geojson", [list(road.coords)])
+    share = {}
+    for factor in (1.0, 0.5):
+        site(tmp_path, np.full((100, 100), 100.0), f'preferred = ["road.geojson"]\n'
+             f'preferred_factor = {factor}\npreferred_width = "20 m"\nk = 1\n')
+        res = plan_corridors(load(tmp_path / "project.toml", ground_only=True),
+                             [xy(50, 5), xy(50, 95)])
+        line = res.candidates.geometry.iloc[0]
+        share[factor] = line.intersection(road.buffer(15.0)).length / line.length
+        cost = res.table.cost_m.iloc[0]
+    assert share[1.0] == 0.0
+    assert share[0.5] > 0.4
+    best = 2 * 200 / math.sin(math.radians(60)) + (900 - 2 * 200 / math.tan(math.radians(60))) / 2
+    assert best == pytest.approx(796.4, abs=0.1)
+    assert cost == pytest.approx(best, rel=0.03)
+
+
+def test_waypoints_are_visited_in_order(tmp_path):
+    """With a waypoint off the straight line the route passes through it
+    (its cell centre, within half a cell diagonal) and its length is at least
+    the two straight legs' (triangle inequality)."""
+    from gisgrade.corridors import plan_corridors
+
+    p = site(tmp_path, np.full((60, 100), 100.0), "k = 1\n")
+    a, v, b = xy(30, 5), xy(10, 50), xy(30, 95)
+    res = plan_corridors(p, [a, v, b])
+    line = res.candidates.geometry.iloc[0]
+    assert line.distance(Point(v)) <= CELL * math.sqrt(2) / 2 + 1e-6
+    assert line.length >= math.dist(a, v) + math.dist(v, b) - CELL
+
+
+def test_point_layer_as_source_and_crossing_cost_list_checked(tmp_path, capsys):
+    """--from may be a one-point layer; a list of crossing costs must have one
+    cost per [[crossings]] table (one line, exit 2)."""
+    write_lines(tmp_path / "streams.geojson", [[xy(20, 50), xy(80, 50)]])
+    extra = '\n[[crossings]]\npath = "streams.geojson"\ndepth_field = "d"\nclearance = "0.3 m"\n'
+    site(tmp_path, np.full((100, 100), 100.0), 'crossing_cost = ["100 m", "50 m"]\n', extra)
+    a, b = xy(50, 5), xy(50, 95)
+    (tmp_path / "src.geojson").write_text(json.dumps({
+        "type": "FeatureCollection",
+        "crs": {"type": "name", "properties": {"name": "urn:ogc:def:crs:EPSG::32633"}},
+        "features": [{"type": "Feature", "properties": {},
+                      "geometry": {"type": "Point", "coordinates": list(a)}}]}))
+    args = ["corridors", str(tmp_path / "project.toml"), "--from", str(tmp_path / "src.geojson"),
+            "--to", "%f,%f" % b, "-o", str(tmp_path / "out")]
+    assert run_cli(args) == 2
+    err = capsys.readouterr().err.strip()
+    assert "corridors.crossing_cost" in err and "\n" not in err
+    text = (tmp_path / "project.toml").read_text().replace('["100 m", "50 m"]', '["100 m"]')
+    (tmp_path / "project.toml").write_text(text)
+    assert run_cli(args) == 0
+    from gisgrade.alignment import read_alignment
+    al = read_alignment(tmp_path / "out" / "candidates.gpkg", where="route = 'C1'")
+    assert np.allclose(al.coords[0], a)

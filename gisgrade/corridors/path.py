@@ -157,14 +157,28 @@ def segment_cost(cost, a, b, cell: float) -> float:
     return float(np.sum((c[:-1] + c[1:]) / 2) * length / (len(t) - 1))
 
 
-def straighten(cost, cells, cell: float) -> np.ndarray:
+def leg_ends(cells, points) -> np.ndarray:
+    """Indices into the path ``cells`` of the ``points`` (cells) it passes in order.
+
+    >>> leg_ends(np.array([[0, 0], [0, 1], [1, 2], [0, 3]]), [(0, 0), (1, 2), (0, 3)]).tolist()
+    [0, 2, 3]
+    """
+    cells, out, at = np.asarray(cells, int), [], 0
+    for p in np.asarray(points, int):
+        at += int(np.flatnonzero((cells[at:] == p).all(axis=1))[0])
+        out.append(at)
+    return np.array(out)
+
+
+def straighten(cost, cells, cell: float, fixed=()) -> np.ndarray:
     """The vertices (indices into ``cells``) of a taut polyline along the
     raster path ``cells``: top-down like Douglas-Peucker [2], but a stretch
     of the path is replaced by its chord when the chord costs no more than
     the stretch (:func:`segment_cost` against :func:`path_cost`), else split
     at the cell farthest from the chord. This takes out the 8-neighbour
     staircase (up to 8.2 % of length) where the ground allows a straight
-    line, and keeps every bend the cost asks for.
+    line, and keeps every bend the cost asks for. The ``fixed`` indices
+    (waypoints) are always kept.
 
     >>> stair = np.array([[0, 0], [1, 1], [2, 2], [2, 3], [2, 4], [2, 5]])
     >>> straighten(np.ones((3, 6)), stair, 1.0).tolist()
@@ -179,7 +193,8 @@ def straighten(cost, cells, cell: float) -> np.ndarray:
     c = cost[cells[:, 0], cells[:, 1]]
     step = np.hypot(*np.diff(cells, axis=0).T) * cell
     cum = np.concatenate([[0.0], np.cumsum(step * (c[:-1] + c[1:]) / 2.0)])
-    keep, todo = {0, n - 1}, [(0, n - 1)]
+    ends = sorted({0, n - 1, *map(int, fixed)})
+    keep, todo = set(ends), list(zip(ends[:-1], ends[1:]))
     while todo:  # one pass per kept vertex, each vectorized over its stretch
         i, j = todo.pop()
         if j - i < 2:

@@ -500,16 +500,24 @@ def plan_corridors(project, points, *, crs=None, k=None) -> CorridorResult:
                              "(corridors.no_go) at this cell size")
     tol = cfg.simplify_tolerance if cfg.simplify_tolerance is not None else 2 * grid.cell
 
-    def raw_line(route_cells):  # cell centres, ending exactly at the given points
+    def raw_line(route_cells):  # cell centres, the given points exactly
         raw = grid.xy_of(route_cells)
-        raw[0], raw[-1] = xy[0], xy[-1]
+        raw[P.leg_ends(route_cells, cells)] = xy
         return LineString(raw)
 
     def to_line(route_cells, found_on):  # taut where the cost allows, then Douglas-Peucker
-        raw = raw_line(route_cells)
-        taut = LineString(np.asarray(raw.coords)[P.straighten(found_on, route_cells, grid.cell)])
-        return P.simplify(raw if taut.intersects(layers.no_go) else taut, tol / mpu,
-                          layers.no_go)
+        raw = np.asarray(raw_line(route_cells).coords)
+        ends = P.leg_ends(route_cells, cells)
+        keep = P.straighten(found_on, route_cells, grid.cell, ends)
+        if LineString(raw[keep]).intersects(layers.no_go):
+            keep = np.arange(len(raw))
+        legs, tols = [], []
+        for a, b in zip(ends[:-1], ends[1:]):  # each leg alone: the waypoints stay vertices
+            leg = raw[keep[(keep >= a) & (keep <= b)]]
+            line, used = P.simplify(LineString(leg), tol / mpu, layers.no_go)
+            legs.append(np.asarray(line.coords)[1 if legs else 0:])
+            tols.append(used)
+        return LineString(np.concatenate(legs)), min(tols)
 
     def line_cost(line):  # the polyline's own cost on the surface
         v = grid.fractional_cells(np.asarray(line.coords))
