@@ -210,20 +210,22 @@ def straighten(cost, cells, cell: float, fixed=()) -> np.ndarray:
     return np.array(sorted(keep))
 
 
-def simplify(line, tolerance: float, avoid=None):
-    """Douglas-Peucker [2] of ``line`` with ``tolerance`` [m]; where that cuts
-    into ``avoid`` (a geometry, e.g. the no-go polygons) the tolerance is
-    halved until it does not (down to the line itself). Returns (line, the
-    tolerance used).
+def simplify(line, tolerance: float, ok=None):
+    """Douglas-Peucker [2] of ``line`` with ``tolerance`` [m]; where the
+    result fails ``ok(simplified)`` (e.g. it cuts into a no-go area or
+    crosses more features) the tolerance is halved until it passes (down to
+    the line itself). Returns (line, the tolerance used).
 
     >>> zig = LineString([(0, 0), (1, 0.2), (2, 0), (3, 0.2), (4, 0)])
     >>> simplify(zig, 0.5)[0].wkt
     'LINESTRING (0 0, 4 0)'
+    >>> simplify(zig, 0.5, ok=lambda s: len(s.coords) > 2)[0].wkt  # 0.5, 0.25: no; 0.125: kept
+    'LINESTRING (0 0, 1 0.2, 2 0, 3 0.2, 4 0)'
     """
     tol, least = float(tolerance), 1e-3 * float(tolerance)
     while tol > least:
         out = line.simplify(tol, preserve_topology=False)
-        if avoid is None or avoid.is_empty or not out.intersects(avoid) or line.intersects(avoid):
+        if ok is None or ok(out):
             return out, tol
         tol /= 2
     return line, 0.0

@@ -513,8 +513,14 @@ def plan_corridors(project, points, *, crs=None, k=None) -> CorridorResult:
             keep = np.arange(len(raw))
         legs, tols = [], []
         for a, b in zip(ends[:-1], ends[1:]):  # each leg alone: the waypoints stay vertices
-            leg = raw[keep[(keep >= a) & (keep <= b)]]
-            line, used = P.simplify(LineString(leg), tol / mpu, layers.no_go)
+            leg = LineString(raw[keep[(keep >= a) & (keep <= b)]])
+            crossed = count_crossings(leg, layers.crossings)
+
+            def ok(simple):  # passable all along, no more crossings than the leg itself
+                return (not simple.intersects(layers.no_go) and np.isfinite(line_cost(simple))
+                        and count_crossings(simple, layers.crossings) <= crossed)
+
+            line, used = P.simplify(leg, tol / mpu, ok)
             legs.append(np.asarray(line.coords)[1 if legs else 0:])
             tols.append(used)
         return LineString(np.concatenate(legs)), min(tols)
