@@ -51,8 +51,9 @@ def run_corridors(project_path, start, end, via, crs, k, outdir, compare=False, 
                    "corridors.csv; with --compare also comparison.csv, every candidate and the "
                    "drawn centerline run through the whole job. Points are X,Y in --crs "
                    "(default: the DEM's) or a point layer file holding one point.",
-                   "gisgrade corridors project.toml --from 500200,4648500 --to 502800,4648500 "
-                   "-k 3 -o corridors"))
+                   "gisgrade corridors sample_data/sallow_creek/project.toml --from "
+                   "8.3695517,47.0336827 --to 8.4458757,47.0350673 --crs EPSG:4326 -k 3 "
+                   "-o corridors"))
 @click.argument("project", type=click.Path(path_type=Path))
 @click.option("--from", "start", required=True, help="the source: X,Y or a point layer")
 @click.option("--to", "end", required=True, help="the destination: X,Y or a point layer")
