@@ -287,17 +287,18 @@ def run_cli(args):
     return main(args)
 
 
-@pytest.mark.parametrize("case", ["outside", "no-go", "k0", "bad-xy"])
+@pytest.mark.parametrize("case", ["outside", "no-go", "k0", "bad-xy", "same-cell"])
 def test_cli_refusals_exit_2_one_line(tmp_path, capsys, case):
-    """Bad coordinates, a point in a no-go area and k < 1 stop with one line
-    and exit status 2, and nothing is written."""
+    """Bad coordinates, a point in a no-go area, k < 1 and a source in the
+    destination's cell stop with one line and exit status 2, and nothing is
+    written."""
     x0, y1 = xy(30, 40)
     x1, y0 = xy(70, 60)
     write_polygons(tmp_path / "park.geojson", [[(x0, y0), (x1, y0), (x1, y1), (x0, y1), (x0, y0)]])
     site(tmp_path, np.full((100, 100), 100.0), 'no_go = ["park.geojson"]\n')
     a, b = xy(50, 5), xy(50, 95)
     start = {"outside": f"{a[0] - 5000},{a[1]}", "no-go": "%f,%f" % xy(50, 50),
-             "k0": "%f,%f" % a, "bad-xy": "east,north"}[case]
+             "k0": "%f,%f" % a, "bad-xy": "east,north", "same-cell": "%f,%f" % (b[0] + 2, b[1])}[case]
     args = ["corridors", str(tmp_path / "project.toml"), "--from", start, "--to",
             "%f,%f" % b, "-o", str(tmp_path / "out")] + (["-k", "0"] if case == "k0" else [])
     assert run_cli(args) == 2

@@ -487,6 +487,11 @@ def plan_corridors(project, points, *, crs=None, k=None) -> CorridorResult:
         if layers.no_go.intersects(shapely.Point(p)):
             raise InputError(f"{name} ({p[0]:.2f}, {p[1]:.2f}): the point lies in a no-go area "
                              "(corridors.no_go)")
+    same = np.flatnonzero((np.diff(cells, axis=0) == 0).all(axis=1))
+    if len(same):
+        i = int(same[0]) + 1
+        raise InputError(f"{names[i]} ({xy[i][0]:.2f}, {xy[i][1]:.2f}): in the same "
+                         f"{grid.cell:.3g} m cost-grid cell as the point before it")
     reach, why = hydraulic_reach(project)
     if why:
         notes.append(why)
