@@ -298,7 +298,8 @@ def test_cli_refusals_exit_2_one_line(tmp_path, capsys, case):
     site(tmp_path, np.full((100, 100), 100.0), 'no_go = ["park.geojson"]\n')
     a, b = xy(50, 5), xy(50, 95)
     start = {"outside": f"{a[0] - 5000},{a[1]}", "no-go": "%f,%f" % xy(50, 50),
-             "k0": "%f,%f" % a, "bad-xy": "east,north", "same-cell": "%f,%f" % (b[0] + 2, b[1])}[case]
+             "k0": "%f,%f" % a, "bad-xy": "east,north",
+             "same-cell": "%f,%f" % (b[0] + 2, b[1])}[case]
     args = ["corridors", str(tmp_path / "project.toml"), "--from", start, "--to",
             "%f,%f" % b, "-o", str(tmp_path / "out")] + (["-k", "0"] if case == "k0" else [])
     assert run_cli(args) == 2

@@ -57,7 +57,8 @@ def run_corridors(project_path, start, end, via, crs, k, outdir, compare=False, 
 @click.argument("project", type=click.Path(path_type=Path))
 @click.option("--from", "start", required=True, help="the source: X,Y or a point layer")
 @click.option("--to", "end", required=True, help="the destination: X,Y or a point layer")
-@click.option("--via", multiple=True, help="a waypoint, X,Y or a point layer (repeatable, in order)")
+@click.option("--via", multiple=True,
+              help="a waypoint, X,Y or a point layer (repeatable, in order)")
 @click.option("--crs", default=None, help="CRS of X,Y points, e.g. EPSG:32633 (default: the DEM's)")
 @click.option("-k", "k", type=int, default=None, help="how many candidates (default: corridors.k)")
 @click.option("--compare", is_flag=True,

@@ -114,7 +114,8 @@ def corridor_figure(res) -> Figure:
                title="candidate routes, cheapest first", title_fontsize=8.5, alignment="left")
     key.text(0, 0.02, "\n".join([f"grid {g.crs.name}, cells {d.text(g.cell, 'length', 1)}",
                                  f"hillshade of {g.path.name} (lit from the north-west)",
-                                 *[n[:60] + ("..." if len(n) > 60 else "") for n in res.notes[:4]]]),
+                                 *[n[:60] + ("..." if len(n) > 60 else "")
+                                   for n in res.notes[:4]]]),
              fontsize=6.5, va="bottom", color="#444444", transform=key.transAxes)
     ax.set_title(f"{result_name(res)}: candidate routes from the terrain", fontsize=11,
                  loc="left")

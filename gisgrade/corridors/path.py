@@ -271,7 +271,8 @@ def alternatives(cost, points, cell: float, k: int, *, radius: float, factor: fl
             c = np.where(penalised, cost * f, cost)
             cells, _ = route_through(c, fixed_cells, cell)
             if cells is None:
-                return found, "no route between the points: no-go areas or missing ground close them off"
+                return found, ("no route between the points: no-go areas or missing ground "
+                               "close them off")
             line, tol = to_line(cells, c)
             share = shared_share(line, lines, radius / unit, fixed)
             if share <= max_shared:
