@@ -406,3 +406,16 @@ def test_point_layer_as_source_and_crossing_cost_list_checked(tmp_path, capsys):
     from gisgrade.alignment import read_alignment
     al = read_alignment(tmp_path / "out" / "candidates.gpkg", where="route = 'C1'")
     assert np.allclose(al.coords[0], a)
+
+
+def test_no_go_closing_the_way_is_refused(tmp_path):
+    """A no-go band across the whole window: no route exists, one line names why."""
+    from gisgrade.corridors import plan_corridors
+    from gisgrade.errors import InputError
+
+    x0, y1 = xy(-10, 45)
+    x1, y0 = xy(110, 55)
+    write_polygons(tmp_path / "band.geojson", [[(x0, y0), (x1, y0), (x1, y1), (x0, y1), (x0, y0)]])
+    p = site(tmp_path, np.full((100, 100), 100.0), 'no_go = ["band.geojson"]\n')
+    with pytest.raises(InputError, match="no route between the points"):
+        plan_corridors(p, [xy(50, 5), xy(50, 95)])
