@@ -42,8 +42,11 @@ def corridor_figure(res) -> Figure:
     rows, cols = z.shape
     extent = (g.x0, g.x0 + cols * g.step, g.y0 - rows * g.step, g.y0)
     aspect = (extent[1] - extent[0]) / (extent[3] - extent[2])
-    fig = Figure(figsize=(12, float(np.clip(12 * 0.66 / aspect / 0.84, 5.0, 10.0))))
-    ax = fig.add_axes([0.05, 0.08, 0.66, 0.84])
+    # In inches: caution, profile strip (1.6), gap, the map at equal scale, title.
+    h_map = float(np.clip(12 * 0.66 / aspect, 3.0, 7.0))
+    height = 2.9 + h_map + 0.45
+    fig = Figure(figsize=(12, height))
+    ax = fig.add_axes([0.05, 2.9 / height, 0.66, h_map / height])
     filled = np.where(np.isfinite(z), z, np.nanmean(z))
     shade = np.where(np.isfinite(z), hillshade(filled, g.cell, g.cell), np.nan)
     ax.imshow(shade, extent=extent, cmap="gray", vmin=0.15, vmax=1.0, interpolation="bilinear",
@@ -108,7 +111,8 @@ def corridor_figure(res) -> Figure:
     ax.ticklabel_format(useOffset=False, style="plain")
     _scale_bar(ax, d, (extent[0], extent[1], extent[2], extent[3]))
     _north(ax, g.crs, (extent[0], extent[1], extent[2], extent[3]))
-    key = fig.add_axes([0.73, 0.08, 0.26, 0.84])
+    _profiles(fig.add_axes([0.05, 0.75 / height, 0.66, 1.6 / height]), res, d)
+    key = fig.add_axes([0.73, 2.9 / height, 0.26, h_map / height])
     key.set_axis_off()
     key.legend(handles=handles, loc="upper left", fontsize=7.5, frameon=False,
                title="candidate routes, cheapest first", title_fontsize=8.5, alignment="left")
@@ -121,3 +125,25 @@ def corridor_figure(res) -> Figure:
                  loc="left")
     fig.text(0.05, 0.015, SHORT, fontsize=7, color="#555555")
     return fig
+
+
+def _profiles(ax, res, d: Display) -> None:
+    """The ground along each candidate (its raster path), and the highest
+    ground the flow serves at the minimum pressure when the hydraulics are known."""
+    served_shown = False
+    for i, prof in enumerate(res.profiles):
+        colour = ROUTE_COLOURS[i % len(ROUTE_COLOURS)]
+        x = d.value(prof["distance"], "length")
+        ax.plot(x, d.value(prof["ground"], "elevation"), color=colour, lw=1.3)
+        if prof["served"] is not None:
+            ax.plot(x, d.value(prof["served"], "elevation"), color=colour, lw=0.9,
+                    ls=(0, (4, 2)), label=None if served_shown else
+                    "highest ground the design flow serves at the least pressure")
+            served_shown = True
+    if served_shown:
+        ax.legend(loc="best", fontsize=7, frameon=False)
+    ax.set_xlabel(d.label("length", "along the route"), fontsize=7.5)
+    ax.set_ylabel(d.label("elevation", "ground"), fontsize=7.5)
+    ax.tick_params(labelsize=6.5)
+    ax.grid(color="#dddddd", lw=0.5)
+    ax.set_title("ground along each candidate (its raster path)", fontsize=8.5, loc="left")

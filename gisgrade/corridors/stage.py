@@ -342,6 +342,9 @@ class CorridorResult:
     layers: Layers
     drawn: LineString | None
     notes: list = field(default_factory=list)
+    #: per candidate: distance [m] along its raster path, ground [m] and the
+    #: highest ground the flow serves at the minimum pressure [m] (or None)
+    profiles: list = field(default_factory=list)
     comparison: pd.DataFrame | None = None
 
     def write(self, outdir) -> list[Path]:
@@ -398,20 +401,22 @@ def write_cost(path, cost, grid: Grid) -> None:
 
 
 def cost_surface(project, grid: Grid, layers: Layers, source_cell, reach: Reach | None):
-    """The cost per metre of each cell of ``grid`` (:func:`.cost.cell_cost`)
-    and the head deficit [m] (zeros without the HGL term)."""
+    """The cost per metre of each cell of ``grid`` (:func:`.cost.cell_cost`),
+    the head deficit [m] (zeros without the hydraulics) and the highest ground
+    [m] the flow serves at the minimum pressure (None without them)."""
     cfg, z, cell = project.corridors, grid.z, grid.cell
     blocked = ~np.isfinite(z) | burn([layers.no_go], grid)
     extra = C.steepness_term(C.slope(z, cell, cell), cfg.steep_slope, cfg.steepness_weight)
     window = max(int(round(cfg.roughness_window / cell)), 3)
     if cfg.roughness_weight:
         extra = extra + C.roughness_term(C.roughness(z, window), cfg.roughness_weight)
-    deficit = np.zeros(z.shape)
+    deficit, served = np.zeros(z.shape), None
     if reach is not None:
         dist = P.distance_from(~blocked, source_cell, cell)
         head = C.reachable_head(reach.source_head, reach.friction_slope, dist)
         deficit = np.where(np.isfinite(dist), C.head_deficit(z, reach.depth, head, reach.min_head),
                            0.0)
+        served = np.where(np.isfinite(dist), head + reach.depth - reach.min_head, np.nan)
         if cfg.hgl_weight:
             extra = extra + C.hgl_term(deficit, cfg.hgl_weight)
     discount = None
@@ -422,7 +427,8 @@ def cost_surface(project, grid: Grid, layers: Layers, source_cell, reach: Reach 
     if layers.crossings:
         count = np.stack([burn(g.geometry.values, grid) for g in layers.crossings])
         crossing = C.crossing_term(count, layers.crossing_cost, cell)
-    return C.cell_cost(extra, discount=discount, crossing=crossing, blocked=blocked), deficit
+    cost = C.cell_cost(extra, discount=discount, crossing=crossing, blocked=blocked)
+    return cost, deficit, served
 
 
 def count_crossings(line, frames) -> int:
@@ -498,7 +504,7 @@ def plan_corridors(project, points, *, crs=None, k=None) -> CorridorResult:
     elif not cfg.hgl_weight:
         notes.append("the HGL term is off (corridors.hgl_weight = 0); the head deficit is "
                      "still reported")
-    cost, deficit = cost_surface(project, grid, layers, cells[0], reach)
+    cost, deficit, served = cost_surface(project, grid, layers, cells[0], reach)
     for (r, c), p, name in zip(cells, xy, names):
         if not np.isfinite(cost[r, c]):
             raise InputError(f"{name} ({p[0]:.2f}, {p[1]:.2f}): the point touches a no-go area "
@@ -541,7 +547,7 @@ def plan_corridors(project, points, *, crs=None, k=None) -> CorridorResult:
         raise InputError(f"no route between the points: {note}")
     if note:
         notes.append(note)
-    rows, geoms = [], []
+    rows, geoms, profiles = [], [], []
     z = grid.z
     s = C.slope(z, grid.cell, grid.cell)
     for i, alt in enumerate(found):
@@ -560,9 +566,13 @@ def plan_corridors(project, points, *, crs=None, k=None) -> CorridorResult:
                          vertices=len(line.coords), tolerance_m=alt.tolerance * mpu,
                          penalty_factor=alt.factor))
         geoms.append(line)
+        along = np.concatenate([[0.0], np.cumsum(np.hypot(*np.diff(alt.cells, axis=0).T))])
+        profiles.append(dict(distance=along * grid.cell, ground=ground,
+                             served=None if served is None else served[r, c]))
     table = pd.DataFrame(rows, columns=COLUMNS)
     candidates = gpd.GeoDataFrame(table.copy(), geometry=geoms, crs=grid.crs)
     drawn, why = drawn_line(project, grid.crs)
     if why:
         notes.append(why)
-    return CorridorResult(project, grid, cost, candidates, table, xy, layers, drawn, notes)
+    return CorridorResult(project, grid, cost, candidates, table, xy, layers, drawn, notes,
+                          profiles)
