@@ -165,6 +165,10 @@ def test_hgl_term_keeps_the_route_below_a_hill_the_flow_cannot_climb(tmp_path):
         res = plan_corridors(load(tmp_path / "project.toml", ground_only=True),
                              [xy(50, 5), xy(50, 135)])
         out[weight] = res.table.iloc[0]
+        served = res.profiles[0]["served"]  # at the source: no friction yet
+        assert served[0] == pytest.approx(126 + 1.36 - 14.28, abs=0.01)
+        if weight == "0 / m":  # straight away from the source: the head only falls
+            assert np.all(np.diff(served) <= 1e-9) and served[-1] < served[0]
     assert out["0 / m"].max_ground_m > 135  # straight over the hill
     assert out["0 / m"].max_head_deficit_m > 20
     # The penalty rises with the deficit: a few centimetres may be traded for length.
