@@ -355,6 +355,16 @@ def read_alignment(path: Path, *, layer=None, reverse=False, where=None, feature
         chosen = (f" matching alignment.where = {where!r}" if where else
                   f" with alignment.feature = {feature}" if feature is not None else "")
         raise InputError(f"{key}: {path.name} holds no line feature{chosen}")
+    return align_frame(gdf, path.name, reverse=reverse, start_station=start_station, key=key)
+
+
+def align_frame(gdf, name: str, *, reverse=False, start_station=0.0,
+                key="alignment.path") -> Alignment:
+    """The centerline of the features of ``gdf`` (a GeoDataFrame read from
+    the file ``name``, one route), in its working CRS and flow direction:
+    :func:`read_alignment` after the reading, and each route of a
+    ``routes`` run."""
+    path = Path(name)
     notes = []
     geom = gdf.geometry.iloc[0]
     if len(gdf) > 1:  # joined in feature order: the first feature's free end is the start
@@ -664,25 +674,38 @@ def format_station(station_m, units: str = "SI", decimals: int = 2) -> np.ndarra
     scale = 10 ** decimals
     ticks = np.round(np.abs(value) * scale).astype(np.int64)
     major, minor = np.divmod(ticks, unit * scale)
+    if s.size == 0:
+        return np.asarray([], dtype=object)
+    # built a column at a time (numpy.strings), not a string a station
+    strs = np.strings
     sign = np.where((value < 0) & (ticks > 0), "-", "")
-    width += decimals + (1 if decimals else 0)
-    out = [f"{sg}{M}+{m / scale:0{width}.{decimals}f}" for sg, M, m in zip(sign, major, minor)]
-    return np.asarray(out, dtype=object)
+    whole, frac = np.divmod(minor, scale)
+    out = strs.add(strs.add(sign, major.astype(str)),
+                   strs.add("+", strs.zfill(whole.astype(str), width)))
+    if decimals:
+        out = strs.add(strs.add(out, "."), strs.zfill(frac.astype(str), decimals))
+    return out.astype(object)
 
 
-def stage_alignment(project):
+def stage_alignment(project, frame=None):
     """The alignment stage: the centerline in its working CRS, the crossings
     and cover zones located on it, and the station table (``station_m, x, y,
     kind``, the cover limits per station, and point-layer offtakes as
-    ``offtake_m3_s``). Returns ``(line, crossings, table)``."""
+    ``offtake_m3_s``). Returns ``(line, crossings, table)``. ``frame``: the
+    route's features already read (a GeoDataFrame, one route of ``routes``)
+    in place of the ``[alignment]`` file."""
     import pandas as pd
 
     from .pipe import special_stations
     from .terrain import vertical_unit_factor
 
     cfg = project.alignment
-    line = read_alignment(cfg.path, layer=cfg.layer, reverse=cfg.reverse, where=cfg.where,
-                          feature=cfg.feature, start_station=cfg.start_station)
+    if frame is None:
+        line = read_alignment(cfg.path, layer=cfg.layer, reverse=cfg.reverse, where=cfg.where,
+                              feature=cfg.feature, start_station=cfg.start_station)
+    else:
+        line = align_frame(frame, cfg.path.name, reverse=cfg.reverse,
+                           start_station=cfg.start_station)
     crossings = locate_crossings(line, project.crossings,
                                  vertical_unit_factor(project.terrain.vertical_unit))
     zones = locate_zones(line, project.cover_zones)

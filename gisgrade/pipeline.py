@@ -62,8 +62,12 @@ def _project(project, **kw) -> Project:
     return project if isinstance(project, Project) else load(project, **kw)
 
 
-def compute(project, *, progress=None) -> Result:
+def compute(project, *, progress=None, frame=None) -> Result:
     """Every stage on a project (a path or a loaded :class:`Project`); writes nothing.
+
+    ``frame``: the centerline's features already read (a GeoDataFrame holding
+    one route, as ``routes`` hands each worker) in place of the
+    ``[alignment]`` file.
 
     ``progress(stage, done, total)``, if given, is called as each stage
     starts (and with ``stage=None`` at the end). Messages raised on the way
@@ -71,13 +75,13 @@ def compute(project, *, progress=None) -> Result:
     """
     project = _project(project)
     with using(display_of(project)):
-        return _compute(project, progress)
+        return _compute(project, progress, frame)
 
 
-def _compute(project, progress) -> Result:
+def _compute(project, progress, frame=None) -> Result:
     clock = _Clock(STAGES, progress)
     with clock("alignment"):
-        line, crossings, table = stage_alignment(project)
+        line, crossings, table = stage_alignment(project, frame)
     with clock("terrain"):
         table, notes = stage_terrain(project, line, table)
     with clock("pipe"):

@@ -72,6 +72,8 @@ class AlignmentConfig:
     where: str | None = key("text", "attribute filter picking one route (OGR SQL WHERE)", None)
     feature: int | None = key("feature", "feature id (FID) picking one route", None)
     start_station: float = key("length", "station of the first point", 0.0, "0 m")
+    route_field: str | None = key("text", "attribute naming each feature's route for "
+                                  "`gisgrade routes` (each feature a route when unset)", None)
 
 
 @dataclass(frozen=True)

@@ -49,14 +49,17 @@ class Result:
         """One row per scenario: the boundary and the heads used, solved or required."""
         return None if self.grades is None else self.grades.cases
 
-    def write(self, outdir=None, figures: bool = True) -> list[Path]:
+    def write(self, outdir=None, figures: bool = True, layers: bool = True) -> list[Path]:
         """Write every output into ``outdir`` (default: the project's
         ``[output] dir``, else ``gisgrade-out`` beside the project file), all
         at once or not at all; returns the paths written. ``figures=False``
-        leaves out the figures (profile.png, sheets/, map.png), the costly part."""
+        leaves out the figures (profile.png, sheets/, map.png), the costly part;
+        ``layers=False`` the map layers and their styles (layers.gpkg, geojson/,
+        layers.kml, styles/)."""
         from .output import write_all
 
-        return write_all(self, resolve_outdir(self.project, outdir), figures=figures)
+        return write_all(self, resolve_outdir(self.project, outdir), figures=figures,
+                         layers=layers)
 
 
 def resolve_outdir(project, outdir=None) -> Path:

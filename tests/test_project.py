@@ -89,7 +89,7 @@ README = Path(__file__).resolve().parents[1] / "README.md"
 #: hazen_williams_c and pressure_rating of [[sections]] are read too, though
 #: the block does not spell them out.
 TODAY = {
-    "alignment": "path spacing layer reverse where feature start_station",
+    "alignment": "path spacing layer reverse where feature start_station route_field",
     "terrain": "dem vertical_unit method max_gap vertical_accuracy",
     "pipe": "inside_diameter outside_diameter friction roughness hazen_williams_c material "
             "pressure_rating wall_thickness elastic_modulus poisson_ratio wave_speed surge_allowance",
@@ -151,7 +151,8 @@ README_DEFAULTS = {
 #: flat_project folder.
 FULL = {
     "alignment": [{"path": "line.geojson", "spacing": "10 m", "layer": "L", "reverse": False,
-                   "where": "name = 'A'", "feature": 0, "start_station": "5 m"}],
+                   "where": "name = 'A'", "feature": 0, "start_station": "5 m",
+                   "route_field": "name"}],
     "terrain": [{"dem": ["dem.tif"], "vertical_unit": "ft", "method": "bicubic",
                  "max_gap": "30 m", "vertical_accuracy": "lidar"}],
     "pipe": [{"inside_diameter": "300 mm", "outside_diameter": "320 mm",

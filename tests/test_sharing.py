@@ -223,9 +223,18 @@ def test_geojson_files_are_rfc7946_with_simplestyle(demo_si):
     lon, lat = to_ll.transform(*r.alignment.coords.T)
     route = json.loads((out / "geojson" / "route.geojson").read_text())["features"][0]
     np.testing.assert_allclose(route["geometry"]["coordinates"], np.c_[lon, lat], atol=1e-7)
+    # the pipe pieces as runs of one class: each run's colour and stations are
+    # those of the GeoPackage's pieces it covers, and the runs cover the pipe once
     pipe = json.loads((out / "geojson" / "pipe_pieces.geojson").read_text())["features"]
     gpkg = read_layers(out / "layers.gpkg")["pipe_pieces"]
-    assert [p["properties"]["stroke"] for p in pipe] == gpkg["colour"].tolist()
+    assert len(pipe) < len(gpkg)
+    s0 = gpkg["from_station_m"].to_numpy()
+    for run in pipe:
+        p = run["properties"]
+        inside = (s0 >= p["from_station_m"] - 1e-6) & (s0 < p["to_station_m"] - 1e-6)
+        assert set(gpkg.loc[inside, "colour"]) == {p["stroke"]}
+    assert [p["properties"]["from_station_m"] for p in pipe][0] == pytest.approx(s0[0])
+    assert sum(p["properties"]["length_m"] for p in pipe) == pytest.approx(gpkg["length_m"].sum())
 
 
 def test_kml_validates_against_the_ogc_schema_and_holds_the_layers(demo_si):

@@ -42,7 +42,7 @@ def guarded(fn, *args, **kwargs):
         return None, 2
 
 
-def compute_and_write(project_path, outdir, quiet, *, ground=False):
+def compute_and_write(project_path, outdir, quiet, *, ground=False, figures=True):
     """Load, compute (with a progress bar) and write; print the summary. Exit status."""
     from ..output.summary import summary_text
     from ..pipeline import compute, compute_ground
@@ -53,7 +53,7 @@ def compute_and_write(project_path, outdir, quiet, *, ground=False):
         project = load(project_path, ground_only=ground)
         out = resolve_outdir(project, outdir)
         result = (compute_ground if ground else compute)(project, progress=Progress(enabled=not quiet))
-        result.write(out)
+        result.write(out, figures=figures)
         return result, out
 
     done, status = guarded(work)

@@ -19,7 +19,9 @@ from .common import compute_and_write
 @click.argument("project", type=click.Path(path_type=Path))
 @click.option("-o", "--outdir", type=click.Path(path_type=Path), default=None,
               help="output folder (default: [output] dir, else gisgrade-out beside PROJECT)")
+@click.option("--no-figures", is_flag=True,
+              help="leave out the figures (profile.png, sheets/, map.png), the costly part")
 @verbosity
-def command(project, outdir, verbose, quiet):
+def command(project, outdir, no_figures, verbose, quiet):
     verbose, quiet = setup_logging(verbose, quiet)
-    return compute_and_write(project, outdir, quiet)
+    return compute_and_write(project, outdir, quiet, figures=not no_figures)

@@ -31,6 +31,7 @@ class Writer:
     write: Callable  #: ``write(result, folder, display)``
     applies: Callable  #: ``applies(result) -> bool``
     figure: bool = False  #: draws figures (the costly part): a batch run may skip it
+    layer: bool = False  #: writes map layers (a batch run has them in one file of all routes)
 
 
 #: Every registered writer, in registration order.
@@ -42,11 +43,14 @@ WRITER_MODULES = ("profile_csv", "gradelines_csv", "findings_csv", "fittings_csv
                   "summary", "report")
 
 
-def writer(*files: str, applies: Callable = lambda result: True, figure: bool = False):
+def writer(*files: str, applies: Callable = lambda result: True, figure: bool = False,
+           layer: bool = False):
     """Register the decorated ``write(result, folder, display)`` as the writer of ``files``
-    (a name may be a folder it fills, e.g. ``sheets``); ``figure``: it draws figures."""
+    (a name may be a folder it fills, e.g. ``sheets``); ``figure``: it draws figures;
+    ``layer``: it writes map layers (or their styles)."""
     def register(fn):
-        WRITERS[:] = [w for w in WRITERS if w.files != files] + [Writer(files, fn, applies, figure)]
+        WRITERS[:] = ([w for w in WRITERS if w.files != files]
+                      + [Writer(files, fn, applies, figure, layer)])
         return fn
 
     return register
@@ -69,9 +73,10 @@ def output_names() -> tuple[str, ...]:
     return tuple(f for w in _load() for f in w.files)
 
 
-def write_all(result, outdir, figures: bool = True) -> list[Path]:
+def write_all(result, outdir, figures: bool = True, layers: bool = True) -> list[Path]:
     """Write every output of ``result`` into ``outdir``; return the paths.
-    ``figures=False`` skips the writers registered with ``figure=True``.
+    ``figures=False`` skips the writers registered with ``figure=True``,
+    ``layers=False`` those with ``layer=True``.
 
     Refuses (InputError, nothing written) an OUTDIR that is a file, cannot be
     made, or holds an input under an output's name.
@@ -96,7 +101,7 @@ def write_all(result, outdir, figures: bool = True) -> list[Path]:
     display = display_of(result.project)
     try:
         for w in WRITERS:
-            if w.applies(result) and (figures or not w.figure):
+            if w.applies(result) and (figures or not w.figure) and (layers or not w.layer):
                 w.write(result, tmp, display)
         outdir.mkdir(exist_ok=True)
         written = []

@@ -10,6 +10,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..findings import COLUMNS, by_severity, messages
+from .csv import write_csv
 from . import writer
 
 
@@ -33,5 +34,4 @@ def findings_listing(result, display):
 
 @writer("findings.csv", applies=lambda result: result.findings is not None)
 def write_findings(result, folder, display):
-    findings_listing(result, display).to_csv(folder / "findings.csv", index=False,
-                                             float_format="%.4f")
+    write_csv(findings_listing(result, display), folder / "findings.csv", 4)

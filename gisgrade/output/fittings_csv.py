@@ -6,6 +6,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from .csv import write_csv
 from . import has_pipe, writer
 
 #: fittings.csv columns.
@@ -46,5 +47,4 @@ def fittings_listing(result, display) -> pd.DataFrame:
 
 @writer("fittings.csv", applies=has_pipe)
 def write_fittings(result, folder, display):
-    fittings_listing(result, display).to_csv(folder / "fittings.csv", index=False,
-                                             float_format="%.4f")
+    write_csv(fittings_listing(result, display), folder / "fittings.csv", 4)

@@ -1,7 +1,9 @@
 """``geojson/``: every layer of ``layers.gpkg`` as a GeoJSON file, for
 people without a GIS (a web map or a text editor opens them).
 
-Each ``geojson/<layer>.geojson`` is one FeatureCollection per RFC 7946 [1]_:
+Each ``geojson/<layer>.geojson`` is one FeatureCollection per RFC 7946 [1]_
+(the pipe's pieces merged into runs of one pressure class, see
+:func:`class_runs`):
 WGS 84 longitude, latitude (no ``crs`` member), written by GDAL's GeoJSON
 driver in its RFC 7946 mode. Each feature carries its style after the open
 *simplestyle* convention [2]_ (``stroke``, ``stroke-width``,
@@ -52,21 +54,85 @@ def simplestyle(name: str, frame):
             "marker-symbol": [s.mark for s in syms]}
 
 
+def class_runs(gdf):
+    """The pipe pieces of ``gdf`` (``pipe_pieces`` or ``pipe_pressure``) merged
+    into one line per run of a pressure class (per scenario where the layer
+    has one): a web map draws hundreds of runs where a long line at close
+    stations has tens of thousands of pieces. A run keeps its first
+    ``from_station``, last ``to_station``, summed ``length``, the lowest of
+    the ``*_min_*`` and highest of the ``*_max_*`` columns, its class and colour.
+
+    >>> import geopandas as gpd
+    >>> from shapely import linestrings
+    >>> g = gpd.GeoDataFrame({"from_station_m": [0., 1., 2.], "to_station_m": [1., 2., 3.],
+    ...     "pressure_min_kpa": [5., 4., 9.], "pressure_class": ["a", "a", "b"],
+    ...     "colour": ["#1", "#1", "#2"]},
+    ...     geometry=linestrings([[(0, 0), (1, 0)], [(1, 0), (2, 0)], [(2, 0), (3, 0)]]))
+    >>> r = class_runs(g)
+    >>> r[["from_station_m", "to_station_m", "pressure_min_kpa"]].values.tolist()
+    [[0.0, 2.0, 4.0], [2.0, 3.0, 9.0]]
+    >>> r.geometry.iloc[0].wkt
+    'LINESTRING (0 0, 1 0, 2 0)'
+    """
+    import geopandas as gpd
+    import pandas as pd
+    import shapely
+
+    keys = [c for c in ("scenario", "pressure_class") if c in gdf]
+    label = np.zeros(len(gdf), dtype=np.int64)
+    for k in keys:  # one integer per combination of the keys
+        codes, uniques = pd.factorize(gdf[k])
+        label = label * (len(uniques) + 1) + codes
+    cut = np.flatnonzero(label[1:] != label[:-1]) + 1
+    starts, ends = np.r_[0, cut], np.r_[cut, len(gdf)]
+    cols = {}
+    for c in gdf.columns:
+        if c == "geometry":
+            continue
+        v = gdf[c].to_numpy()
+        if c.startswith("from_") or c in keys or c == "colour":
+            cols[c] = v[starts]
+        elif c.startswith("to_"):
+            cols[c] = v[ends - 1]
+        elif c.startswith("length"):
+            cols[c] = np.add.reduceat(v, starts)
+        elif "_min" in c:
+            cols[c] = np.minimum.reduceat(v, starts)
+        elif "_max" in c:
+            cols[c] = np.maximum.reduceat(v, starts)
+    pts = shapely.get_coordinates(gdf.geometry.to_numpy()).reshape(-1, 2, 2)
+    # each run: its pieces' start points, then its last piece's end point
+    last = np.zeros(len(gdf), bool)
+    last[ends - 1] = True
+    piece = np.repeat(np.arange(len(gdf)), 1 + last)  # a piece's start, and a last one's end
+    is_end = np.zeros(len(piece), bool)
+    is_end[np.cumsum(1 + last)[last] - 1] = True
+    xy = pts[piece, is_end.astype(int)]
+    run = np.repeat(np.repeat(np.arange(len(starts)), ends - starts), 1 + last)
+    lines = shapely.linestrings(xy, indices=run)
+    return gpd.GeoDataFrame(pd.DataFrame(cols), geometry=lines, crs=gdf.crs)
+
+
 def wgs84_layers(result, display) -> dict:
-    """Every layer as a GeoDataFrame in WGS 84 with its simplestyle columns."""
+    """Every layer as a GeoDataFrame in WGS 84 with its simplestyle columns;
+    the pipe pieces merged into runs of one pressure class (:func:`class_runs`)."""
     from .layers import geodataframes
 
-    return {name: gdf.assign(**simplestyle(name, gdf))
-            for name, gdf in geodataframes(result, display, crs="EPSG:4326").items()}
+    out = {}
+    for name, gdf in geodataframes(result, display, crs="EPSG:4326").items():
+        if name in ("pipe_pieces", "pipe_pressure") and len(gdf):
+            gdf = class_runs(gdf)
+        out[name] = gdf.assign(**simplestyle(name, gdf))
+    return out
 
 
-@writer("geojson")
+@writer("geojson", layer=True)
 def write_geojson(result, folder: Path, display) -> None:
     from ..cautions import CAUTIONS
 
     out = folder / "geojson"
     out.mkdir()
     for name, gdf in wgs84_layers(result, display).items():  # the cautions as its description
-        gdf.to_file(out / f"{name}.geojson", driver="GeoJSON", engine="pyogrio",
+        gdf.to_file(out / f"{name}.geojson", driver="GeoJSON", engine="pyogrio", use_arrow=True,
                     layer_options={"RFC7946": "YES", "WRITE_NAME": "NO",
                                    "DESCRIPTION": f"gisgrade {name}. CAUTION: {CAUTIONS}"})

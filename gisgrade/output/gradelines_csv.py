@@ -1,6 +1,7 @@
 """``gradelines.csv``: one row per scenario and station."""
 from __future__ import annotations
 
+from .csv import write_csv
 from . import has_pipe, writer
 from .profile_csv import STATION_DECIMALS
 
@@ -12,4 +13,4 @@ COLUMNS = ["scenario", "station_m", "flow_m3_s", "velocity_m_s", "hgl_m", "egl_m
 @writer("gradelines.csv", applies=has_pipe)
 def write_gradelines(result, folder, display):
     grades = display.dual(result.gradelines[COLUMNS]).round({"station_m": STATION_DECIMALS})
-    grades.to_csv(folder / "gradelines.csv", index=False, float_format="%.6f")
+    write_csv(grades, folder / "gradelines.csv", 6)

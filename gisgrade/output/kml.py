@@ -44,7 +44,8 @@ def _e(parent, tag, text=None, **attrib):
 
 
 def _coords(xy) -> str:
-    return " ".join(f"{x:.7f},{y:.7f}" for x, y in xy)
+    xy = np.asarray(xy, dtype=float)
+    return " ".join(map("{:.7f},{:.7f}".format, xy[:, 0].tolist(), xy[:, 1].tolist()))
 
 
 def _line_style(doc, sid, colour, width, opacity=1.0):
@@ -82,29 +83,20 @@ def _placemark(folder, name, style, geometry, description=None, visible=True):
     return pm
 
 
-def pressure_runs(frame):
-    """(class index, first piece, last piece) of each run of one pressure class."""
-    cls = frame["pressure_class"].to_numpy(object)
-    cut = np.flatnonzero(cls[1:] != cls[:-1]) + 1
-    starts, ends = np.r_[0, cut], np.r_[cut, len(cls)] - 1
-    return list(zip(cls[starts], starts, ends))
-
-
-def _pipe_folder(doc, title, frame, scale, display, visible=True):
+def _pipe_folder(doc, title, runs, scale, display, visible=True):
+    """A folder of the pipe's runs of one pressure class (``geojson.class_runs``)."""
     f = _e(doc, "Folder")
     _e(f, "name", title)
     _e(f, "visibility", int(visible))
-    geoms = frame.geometry.to_numpy()
     titles = dict(zip(scale.names, scale.titles(display)))
-    for cls, a, b in pressure_runs(frame):
-        xy = np.vstack([np.asarray(g.coords)[:1, :2] for g in geoms[a:b + 1]]
-                       + [np.asarray(geoms[b].coords)[-1:, :2]])
-        s = frame["from_station_m"].to_numpy()[a], frame["to_station_m"].to_numpy()[b]
-        p = frame["pressure_kpa"].to_numpy()[a:b + 1] * 1e3
-        desc = (f"{display.station([s[0]])[0]} to {display.station([s[1]])[0]}: pressure "
-                f"{display.text(p.min(), 'pressure')} to {display.text(p.max(), 'pressure')} "
-                f"({titles[cls]})")
-        _placemark(f, titles[cls], f"p{scale.names.index(cls)}", _LineProxy(xy), desc, visible)
+    for run in runs.itertuples():
+        cls = run.pressure_class
+        desc = (f"{display.station([run.from_station_m])[0]} to "
+                f"{display.station([run.to_station_m])[0]}: pressure "
+                f"{display.text(run.pressure_min_kpa * 1e3, 'pressure')} to "
+                f"{display.text(run.pressure_max_kpa * 1e3, 'pressure')} ({titles[cls]})")
+        _placemark(f, titles[cls], f"p{scale.names.index(cls)}",
+                   _LineProxy(np.asarray(run.geometry.coords)), desc, visible)
     return f
 
 
@@ -172,7 +164,7 @@ def document(result, display):
     return root
 
 
-@writer("layers.kml")
+@writer("layers.kml", layer=True)
 def write_kml(result, folder: Path, display) -> None:
     root = document(result, display)
     ET.indent(root)

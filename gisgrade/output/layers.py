@@ -289,12 +289,12 @@ def geodataframes(result, display, crs=None) -> dict:
             .to_crs(target) for name, frame in layer_frames(result, display).items()}
 
 
-@writer("layers.gpkg")
+@writer("layers.gpkg", layer=True)
 def write_layers(result, folder: Path, display) -> None:
     from ..cautions import CAUTIONS
 
     path = folder / "layers.gpkg"
     for i, (name, gdf) in enumerate(geodataframes(result, display).items()):
-        gdf.to_file(path, layer=name, driver="GPKG", engine="pyogrio",
+        gdf.to_file(path, layer=name, driver="GPKG", engine="pyogrio", use_arrow=True,
                     mode="w" if i == 0 else "a", geometry_type=GEOMETRY[name],
                     layer_metadata={"DESCRIPTION": f"gisgrade {name}. CAUTION: {CAUTIONS}"})

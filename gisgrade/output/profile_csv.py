@@ -1,6 +1,7 @@
 """``profile.csv``: one row per station, ground and pipe."""
 from __future__ import annotations
 
+from .csv import write_csv
 from . import writer
 
 #: profile.csv columns (stable; later issues append).
@@ -21,4 +22,4 @@ def write_profile(result, folder, display):
     profile = table[columns].copy()
     profile["station"] = display.station(table["station_m"])
     profile = display.dual(profile)  # US: a column in feet beside each in metres
-    profile.to_csv(folder / "profile.csv", index=False, float_format=f"%.{STATION_DECIMALS}f")
+    write_csv(profile, folder / "profile.csv", STATION_DECIMALS)

@@ -178,7 +178,7 @@ def styles(result, display, layers) -> dict[str, ET.Element]:
     return out
 
 
-@writer("styles", figure=False)
+@writer("styles", layer=True)
 def write_styles(result, folder: Path, display) -> None:
     from .layers import layer_frames
 

@@ -4,6 +4,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from .csv import write_csv
 from . import writer
 from .profile_csv import STATION_DECIMALS
 
@@ -29,4 +30,4 @@ def surge_frame(surge) -> pd.DataFrame:
 
 @writer("surge.csv", applies=lambda result: getattr(result, "surge", None) is not None)
 def write_surge(result, folder, display):
-    surge_frame(result.surge).to_csv(folder / "surge.csv", index=False, float_format="%.6f")
+    write_csv(surge_frame(result.surge), folder / "surge.csv", 6)

@@ -2,6 +2,7 @@
 and ``high_low_points.csv``: the pipe's high and low points with why."""
 from __future__ import annotations
 
+from .csv import write_csv
 from . import writer
 
 #: valves.csv columns.
@@ -14,6 +15,6 @@ POINT_COLUMNS = ["station_m", "station", "kind", "elevation_m", "prominence_m", 
 def write_valves(result, folder, display):
     v = result.valves.assign(station=display.station(result.valves["station_m"].to_numpy(float)),
                              reason=[display.render(r) for r in result.valves["reason"]])
-    display.dual(v[VALVE_COLUMNS]).to_csv(folder / "valves.csv", index=False, float_format="%.4f")
+    write_csv(display.dual(v[VALVE_COLUMNS]), folder / "valves.csv", 4)
     p = result.points.assign(station=display.station(result.points["station_m"].to_numpy(float)))
-    display.dual(p[POINT_COLUMNS]).to_csv(folder / "high_low_points.csv", index=False, float_format="%.4f")
+    write_csv(display.dual(p[POINT_COLUMNS]), folder / "high_low_points.csv", 4)

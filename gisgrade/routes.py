@@ -1,0 +1,393 @@
+"""Many routes at once: the whole job per route, on Dask, compared in one table.
+
+The centerline layer holds several routes: ``[alignment] route_field``
+groups its features into routes by that attribute; with no field named,
+each feature is a route. Every route runs the same stages as ``gisgrade
+run`` (:func:`gisgrade.pipeline.compute` with the route's features in place
+of the ``[alignment]`` file), one task per route on a Dask cluster: a
+``LocalCluster`` on this machine by default or an existing scheduler by
+address. A worker reads only the DEM windows its route needs (the terrain
+stage reads by window); no raster is shipped. A route that fails becomes a
+row whose ``status`` is its one-line reason; the others go on.
+
+Results come back to this process (tables, layers and each route's own
+output files as bytes) and are written once, at the end, into one folder
+swapped in whole (:func:`gisgrade.output.atomic.atomic_folder`).
+"""
+from __future__ import annotations
+
+import logging
+import re
+import tempfile
+import warnings
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from .errors import InputError, first_line
+
+__all__ = ["read_routes", "run_routes", "route_rows", "RoutesResult", "COLUMNS"]
+
+log = logging.getLogger("gisgrade")
+
+#: The columns of ``routes.csv``, one row per route and scenario.
+COLUMNS = ("route", "scenario", "status", "length_m", "trench_volume_m3", "bends", "air_valves",
+           "crossings", "min_pressure_kpa", "max_pressure_kpa", "pump_head_m",
+           "annual_energy_kwh", "findings")
+
+#: Points kept per route for the comparison figure (a 20 km line at 0.5 m has 40 000).
+PLOT_POINTS = 1500
+
+
+# --------------------------------------------------------------------------
+# The routes of a layer
+# --------------------------------------------------------------------------
+
+
+def folder_name(name: str) -> str:
+    """A route's name as a folder name: letters, digits, ``-``, ``_`` and ``.``.
+
+    >>> folder_name("Route B / north")
+    'Route_B_north'
+    """
+    safe = re.sub(r"[^\w.-]+", "_", str(name), flags=re.ASCII).strip("._")
+    return safe or "route"
+
+
+def group_routes(gdf, field_name: str | None, key: str, file: str) -> list[tuple[str, object]]:
+    """``[(name, features)]``: the features of ``gdf`` grouped by ``field_name``
+    (in order of first appearance), or each feature a route (named by its
+    position, ``feature-1`` ...). Errors name the key and the file."""
+    kinds = sorted(set(gdf.geom_type) - {"LineString", "MultiLineString"})
+    if kinds:
+        raise InputError(f"{key}: {file} holds {kinds[0]} features; routes must be lines")
+    if len(gdf) == 0:
+        raise InputError(f"{key}: {file} holds no line feature")
+    if field_name is None:
+        return [(f"feature-{i + 1}", gdf.iloc[[i]]) for i in range(len(gdf))]
+    if field_name not in gdf.columns:
+        fields = ", ".join(c for c in gdf.columns if c != "geometry") or "none"
+        raise InputError(f"alignment.route_field: {file} has no field {field_name!r} "
+                         f"(its fields: {fields})")
+    values = gdf[field_name]
+    missing = np.flatnonzero(values.isna().to_numpy())
+    if len(missing):
+        raise InputError(f"alignment.route_field: feature {missing[0] + 1} of {file} has no "
+                         f"{field_name!r}: every feature needs a route name")
+    names = values.astype(str).to_numpy()
+    order = list(dict.fromkeys(names))
+    return [(n, gdf[names == n]) for n in order]
+
+
+def read_routes(project) -> list[tuple[str, object]]:
+    """The routes of the project's centerline layer (see :func:`group_routes`);
+    ``[alignment] where`` and ``feature`` still filter the features first."""
+    from .alignment import read_vector
+
+    cfg = project.alignment
+    gdf = read_vector(cfg.path, "alignment.path", layer=cfg.layer, where=cfg.where,
+                      fids=None if cfg.feature is None else [cfg.feature])
+    return group_routes(gdf, cfg.route_field, "alignment.path", cfg.path.name)
+
+
+def _unique_folders(names) -> list[str]:
+    seen, out = {}, []
+    for n in names:
+        base = folder_name(n)
+        k = seen.get(base.lower(), 0)
+        seen[base.lower()] = k + 1
+        out.append(base if k == 0 else f"{base}-{k + 1}")
+    return out
+
+
+# --------------------------------------------------------------------------
+# One route (runs on a worker)
+# --------------------------------------------------------------------------
+
+
+@dataclass
+class Outcome:
+    """What one route's task sends back: plain data, picklable."""
+
+    name: str
+    rows: list  #: routes.csv rows (dicts)
+    error: str | None = None
+    layers: dict = field(default_factory=dict)  #: layer name -> GeoDataFrame (output CRS)
+    files: dict = field(default_factory=dict)  #: relative path -> bytes of the route's outputs
+    plan: object = None  #: (n, 2) array of the route in the output CRS
+    profile: dict | None = None  #: station, ground, hgl arrays (thinned) for the figure
+    seconds: float = 0.0
+
+
+def route_rows(name: str, result) -> list[dict]:
+    """The ``routes.csv`` rows of one route's :class:`~gisgrade.result.Result`:
+    one per scenario (the static case included), figures in SI."""
+    s = result.summary
+    common = dict(route=name, status="ok", length_m=s.get("length_m"),
+                  trench_volume_m3=s.get("trench_volume_m3"), bends=s.get("bends"),
+                  air_valves=sum(v for k, v in s.get("valves", {}).items() if k != "drain")
+                  if "valves" in s else None,
+                  crossings=len(s.get("crossings", [])))
+    findings = result.findings
+    energy = {}
+    if result.energy is not None and result.grades is not None:
+        per = result.energy.per_scenario(result.grades.names)
+        energy = {r.scenario: r for r in per.itertuples()}
+    rows = []
+    for sc in s.get("scenarios", []):
+        name_sc = sc["scenario"]
+        e = energy.get(name_sc)
+        count = (int((findings["scenario"] == name_sc).sum()) if findings is not None
+                 and len(findings) else 0)
+        rows.append(dict(common, scenario=name_sc, min_pressure_kpa=sc["pressure_min_kpa"],
+                         max_pressure_kpa=sc["pressure_max_kpa"],
+                         pump_head_m=sc.get("pump_head_m", 0.0 if e is None else e.pump_head_m),
+                         annual_energy_kwh=None if e is None else e.energy_j / 3.6e6,
+                         findings=count))
+    return rows or [dict(common, scenario="")]
+
+
+def _thin(n: int, keep: int = PLOT_POINTS) -> np.ndarray:
+    return np.unique(np.linspace(0, n - 1, min(n, keep)).round().astype(int))
+
+
+def _figure_data(result):
+    """The route in the output CRS and its thinned profile, for the comparison figure."""
+    import pyproj
+
+    from .output.layers import output_crs
+
+    t = result.table
+    xy = np.column_stack([t["x"].to_numpy(), t["y"].to_numpy()])[_thin(len(t))]
+    fwd = pyproj.Transformer.from_crs(result.alignment.crs, output_crs(result), always_xy=True)
+    plan = np.column_stack(fwd.transform(xy[:, 0], xy[:, 1]))
+    k = _thin(len(t))
+    prof = {"station": t["station_m"].to_numpy()[k], "ground": t["ground_m"].to_numpy()[k]}
+    g = result.grades
+    if g is not None:
+        prof["hgl"] = g.hgl[0][k]
+        prof["scenario"] = g.names[0]
+        if "top_m" in t:
+            prof["pipe"] = t["top_m"].to_numpy()[k]
+    return plan, prof
+
+
+def _read_tree(folder: Path) -> dict:
+    return {str(p.relative_to(folder)): p.read_bytes()
+            for p in sorted(folder.rglob("*")) if p.is_file()}
+
+
+def run_route(project, name: str, frame, figures: bool = False,
+              layers: bool = False) -> Outcome:
+    """The whole job on one route: compute, its layers, its own output files
+    (as bytes; its figures with ``figures``, its own layer files with
+    ``layers``: every route's layers are in ``routes.gpkg`` anyway). A bad input or a failure of the route is caught and becomes
+    the ``status`` of its row; nothing here raises."""
+    import time
+
+    from .display import display_of
+    from .output.layers import geodataframes
+    from .pipeline import compute
+
+    t0 = time.perf_counter()
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            result = compute(project, frame=frame)
+            display = display_of(project)
+            frames = {n: g.assign(route=name) for n, g in geodataframes(result, display).items()}
+            with tempfile.TemporaryDirectory(prefix="gisgrade-route-") as tmp:
+                out = Path(tmp) / "out"
+                result.write(out, figures=figures, layers=layers)
+                files = _read_tree(out)
+            plan, prof = _figure_data(result)
+    except InputError as exc:
+        return Outcome(name, [_failed(name, str(exc))], error=str(exc),
+                       seconds=time.perf_counter() - t0)
+    except Exception as exc:  # a route's own failure must not stop the others
+        reason = f"failed: {type(exc).__name__}: {first_line(exc)}"
+        return Outcome(name, [_failed(name, reason)], error=reason,
+                       seconds=time.perf_counter() - t0)
+    return Outcome(name, route_rows(name, result), None, frames, files, plan, prof,
+                   time.perf_counter() - t0)
+
+
+def _failed(name: str, reason: str) -> dict:
+    return {**{c: None for c in COLUMNS}, "route": name, "scenario": "", "status": reason}
+
+
+# --------------------------------------------------------------------------
+# All routes
+# --------------------------------------------------------------------------
+
+
+@dataclass
+class RoutesResult:
+    """Every route's outcome, in the layer's order; :meth:`write` writes them."""
+
+    project: object
+    outcomes: list  #: :class:`Outcome` per route
+    folders: list  #: each route's folder name under OUT
+
+    @property
+    def table(self):
+        """``routes.csv`` as a DataFrame: one row per route and scenario (:data:`COLUMNS`)."""
+        import pandas as pd
+
+        rows = [r for o in self.outcomes for r in o.rows]
+        table = pd.DataFrame(rows, columns=list(COLUMNS))
+        numeric = [c for c in COLUMNS if c not in ("route", "scenario", "status")]
+        table[numeric] = table[numeric].apply(pd.to_numeric)  # failed rows: NaN, not None
+        return table
+
+    @property
+    def failed(self) -> list[str]:
+        return [o.name for o in self.outcomes if o.error is not None]
+
+    def write(self, outdir, parquet: bool = False) -> list[Path]:
+        """Write ``routes.csv``, ``routes.gpkg``, ``routes.png`` and each route's
+        outputs under ``<route>/``, all at once into ``outdir`` (swapped in whole).
+        ``parquet``: also ``routes.parquet`` (the table) and ``parquet/<layer>.parquet``
+        (every route's layers as GeoParquet), columnar files for large runs."""
+        from .display import display_of
+        from .output.atomic import atomic_folder
+        from .output.csv import write_csv
+
+        project = self.project
+        inputs = [project.path, *project.input_paths()]
+        with atomic_folder(outdir, inputs=inputs) as tmp:
+            write_csv(display_of(project).dual(self.table), tmp / "routes.csv")
+            merged = self._merged_layers()
+            self._write_layers(merged, tmp / "routes.gpkg")
+            if parquet:
+                self.table.to_parquet(tmp / "routes.parquet", index=False)
+                (tmp / "parquet").mkdir()
+                for name, gdf in merged.items():
+                    gdf.to_parquet(tmp / "parquet" / f"{name}.parquet", index=False)
+            self._write_figure(tmp / "routes.png")
+            for o, folder in zip(self.outcomes, self.folders):
+                for rel, data in o.files.items():
+                    path = tmp / folder / rel
+                    path.parent.mkdir(parents=True, exist_ok=True)
+                    path.write_bytes(data)
+        out = Path(outdir)
+        return sorted(p for p in out.rglob("*") if p.is_file())
+
+    def _merged_layers(self) -> dict:
+        """Each layer name -> one GeoDataFrame of every route's features
+        (``route`` first), in the first route's output CRS."""
+        import geopandas as gpd
+        import pandas as pd
+
+        from .output.layers import GEOMETRY
+
+        by_layer: dict[str, list] = {}
+        for o in self.outcomes:
+            for name, gdf in o.layers.items():
+                by_layer.setdefault(name, []).append(gdf)
+        out = {}
+        for name in [n for n in GEOMETRY if n in by_layer]:
+            parts = by_layer[name]
+            crs = parts[0].crs
+            gdf = gpd.GeoDataFrame(pd.concat([p.to_crs(crs) for p in parts], ignore_index=True),
+                                   geometry="geometry", crs=crs)
+            out[name] = gdf[["route", *[c for c in gdf.columns if c != "route"]]]
+        return out
+
+    def _write_layers(self, merged: dict, path: Path) -> None:
+        from .cautions import CAUTIONS
+        from .output.layers import GEOMETRY
+
+        for i, (name, gdf) in enumerate(merged.items()):
+            gdf.to_file(path, layer=name, driver="GPKG", engine="pyogrio", use_arrow=True,
+                        mode="w" if i == 0 else "a", geometry_type=GEOMETRY[name],
+                        layer_metadata={"DESCRIPTION": f"gisgrade {name}, every route. "
+                                                       f"CAUTION: {CAUTIONS}"})
+
+    def _write_figure(self, path: Path) -> None:
+        from .display import display_of
+        from .output.routes_figure import draw_routes
+
+        draw_routes(self.outcomes, self.table, display_of(self.project), path)
+
+
+def _cluster(workers: int | None, scheduler: str | None, n_routes: int):
+    """A Dask client: on ``scheduler`` (an address), else a LocalCluster of
+    ``workers`` processes (default: the machine's cores, at most one a route)."""
+    import os
+
+    from distributed import Client, LocalCluster
+
+    if scheduler:
+        try:
+            return Client(scheduler, timeout="10s"), None
+        except Exception as exc:  # OSError, TimeoutError, ValueError for a bad address
+            raise InputError(f"--scheduler {scheduler}: cannot reach a Dask scheduler there "
+                             f"({first_line(exc)})") from None
+    n = workers or min(os.cpu_count() or 1, n_routes)
+    cluster = LocalCluster(n_workers=max(1, n), threads_per_worker=1, processes=True,
+                           dashboard_address=None, silence_logs=logging.ERROR)
+    return Client(cluster), cluster
+
+
+def run_routes(project, lines=None, *, workers: int | None = None, scheduler: str | None = None,
+               figures: bool = False, layers: bool = False, progress=None) -> RoutesResult:
+    """The whole job on every route; writes nothing (see :meth:`RoutesResult.write`).
+
+    ``project``: a path or a loaded :class:`~gisgrade.project.Project`.
+    ``lines``: a GeoDataFrame with a ``route`` column (one or more features a
+    route) in place of the project's centerline layer (e.g. candidate
+    routes). ``workers``: LocalCluster processes (``0``: every route in this
+    process, no Dask); ``scheduler``: the address of an existing Dask
+    scheduler whose workers see the project's files at the same paths.
+    ``figures``: each route's figures too, ``layers``: each route's own layer
+    files too (both off by default in a batch; ``routes.gpkg`` has every
+    route's layers).
+    ``progress(done, total)`` is called as routes finish.
+    """
+    from .pipeline import _project
+
+    project = _project(project)
+    if lines is None:
+        routes = read_routes(project)
+    else:
+        routes = group_routes(lines, "route", "lines", "the candidate routes")
+    names = [n for n, _ in routes]
+    total = len(routes)
+    progress = progress or (lambda done, total: None)
+    progress(0, total)
+    if workers == 0 and not scheduler:
+        outcomes = []
+        for i, (name, frame) in enumerate(routes):
+            outcomes.append(run_route(project, name, frame, figures, layers))
+            progress(i + 1, total)
+    else:
+        outcomes = _on_dask(project, routes, workers, scheduler, figures, layers, progress)
+    return RoutesResult(project, outcomes, _unique_folders(names))
+
+
+def _on_dask(project, routes, workers, scheduler, figures, layers, progress) -> list[Outcome]:
+    from distributed import as_completed
+
+    client, cluster = _cluster(workers, scheduler, len(routes))
+    try:
+        shared = client.scatter(project, broadcast=True)
+        futures = [client.submit(run_route, shared, name, frame, figures, layers, pure=False,
+                                 key=f"gisgrade-route-{i}")
+                   for i, (name, frame) in enumerate(routes)]
+        index = {f.key: i for i, f in enumerate(futures)}
+        outcomes = [None] * len(futures)
+        for done, fut in enumerate(as_completed(futures), start=1):
+            i = index[fut.key]
+            try:
+                outcomes[i] = fut.result()
+            except Exception as exc:  # the worker itself died (memory, a killed process)
+                reason = f"failed: the worker was lost ({first_line(exc)})"
+                outcomes[i] = Outcome(routes[i][0], [_failed(routes[i][0], reason)], error=reason)
+            progress(done, len(futures))
+        return outcomes
+    finally:
+        client.close()
+        if cluster is not None:
+            cluster.close()

@@ -1,0 +1,264 @@
+"""``gisgrade routes``: many routes on Dask give exactly what each gives alone.
+
+The reference for every route's figures is ``gisgrade run`` of the same
+project with ``[alignment] where`` picking that route (the tool's own
+single-route path, whose numbers are checked against outside sources in
+the other test files); the equality here is exact, byte for byte for the
+tables. Layer contents are read back with pyogrio (an outside reader).
+The terrain and lines are invented for the test.
+"""
+from __future__ import annotations
+
+import json
+import shutil
+import sys
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from conftest import PROJECT, write_dem, write_lines
+
+Y0 = 4_650_000.0
+#: Three routes from one start to one end (C drawn as two touching features)
+#: and one that runs off the DEM.
+LINES = [[(500_100, Y0 - 1500), (502_500, Y0 - 1500)],
+         [(500_100, Y0 - 1500), (501_300, Y0 - 700), (502_500, Y0 - 1500)],
+         [(500_100, Y0 - 1500), (501_300, Y0 - 2300)], [(501_300, Y0 - 2300), (502_500, Y0 - 1500)],
+         [(500_100, Y0 - 1500), (504_500, Y0 - 1500)]]
+NAMES = ["A", "B/north", "C", "C", "D"]
+GOOD = ["A", "B/north", "C"]
+
+
+def make_site(folder, extra=""):
+    x = np.arange(300) * 10.0
+    X, Y = np.meshgrid(x, x)
+    z = 120 - 0.01 * X + 8 * np.exp(-((X - 1500) ** 2 + (Y - 1500) ** 2) / 4e5)
+    write_dem(folder / "dem.tif", z, x0=500_000.0, y0=Y0)
+    write_lines(folder / "lines.geojson", LINES, props=[{"name": n} for n in NAMES])
+    text = PROJECT.replace('path = "line.geojson"', 'path = "lines.geojson"\nroute_field = "name"')
+    (folder / "project.toml").write_text(text + extra)
+    return folder / "project.toml"
+
+
+@pytest.fixture(scope="module")
+def routes_run(tmp_path_factory):
+    """One ``routes`` run on a 2-worker LocalCluster."""
+    from gisgrade.cli import main
+
+    folder = tmp_path_factory.mktemp("routes")
+    project = make_site(folder)
+    before = {p.name: p.read_bytes() for p in folder.iterdir()}
+    out = folder / "out"
+    status = main(["routes", str(project), "-o", str(out), "--workers", "2", "-q"])
+    return project, out, status, before
+
+
+def test_exit_status_one_when_a_route_fails(routes_run):
+    project, out, status, before = routes_run
+    assert status == 1
+    # inputs untouched
+    assert {p.name: p.read_bytes() for p in project.parent.iterdir() if p.name != "out"} == before
+
+
+def test_routes_csv_has_a_row_per_route_and_scenario(routes_run):
+    from gisgrade.routes import COLUMNS
+
+    _, out, _, _ = routes_run
+    t = pd.read_csv(out / "routes.csv", keep_default_na=False, na_values=[""])
+    assert tuple(t.columns[: len(COLUMNS)]) == COLUMNS
+    assert list(dict.fromkeys(t["route"])) == GOOD + ["D"]
+    ok = t[t["route"].isin(GOOD)]
+    assert set(ok["status"]) == {"ok"}
+    assert sorted(set(ok["scenario"])) == ["design", "static"]
+    bad = t[t["route"] == "D"]
+    assert len(bad) == 1 and "outside every DEM" in bad["status"].iloc[0]
+    assert bad["length_m"].isna().all()
+
+
+@pytest.mark.parametrize("name", GOOD)
+def test_each_route_equals_running_it_alone(routes_run, tmp_path, name):
+    """The figures of a 2-worker LocalCluster run equal `gisgrade run` of the route alone."""
+    from gisgrade.cli import main
+    from gisgrade.routes import folder_name
+
+    project, out, _, _ = routes_run
+    alone = tmp_path / "alone"
+    shutil.copytree(project.parent, alone, ignore=shutil.ignore_patterns("out"))
+    text = (alone / "project.toml").read_text().replace(
+        'route_field = "name"', f"where = \"name = '{name}'\"")
+    (alone / "project.toml").write_text(text)
+    assert main(["run", str(alone / "project.toml"), "-o", str(alone / "o"), "-q"]) == 0
+    mine = out / folder_name(name)
+    for table in ("profile.csv", "gradelines.csv", "findings.csv", "fittings.csv", "valves.csv",
+                  "high_low_points.csv"):
+        assert (mine / table).read_bytes() == (alone / "o" / table).read_bytes(), table
+    summary = json.loads((alone / "o" / "summary.json").read_text())
+    row = pd.read_csv(out / "routes.csv").query("route == @name")
+    assert row["length_m"].iloc[0] == pytest.approx(summary["length_m"], abs=5e-7)
+    assert row["trench_volume_m3"].iloc[0] == pytest.approx(summary["trench_volume_m3"], abs=5e-7)
+    by = {s["scenario"]: s for s in summary["scenarios"]}
+    for r in row.itertuples():
+        assert r.min_pressure_kpa == pytest.approx(by[r.scenario]["pressure_min_kpa"], abs=5e-7)
+        assert r.max_pressure_kpa == pytest.approx(by[r.scenario]["pressure_max_kpa"], abs=5e-7)
+    assert row["bends"].iloc[0] == summary["bends"]
+    assert row["air_valves"].iloc[0] == sum(v for k, v in summary["valves"].items() if k != "drain")
+
+
+def test_layers_hold_every_route(routes_run):
+    import pyogrio
+
+    _, out, _, _ = routes_run
+    layers = [n for n, _ in pyogrio.list_layers(out / "routes.gpkg")]
+    assert "route" in layers and "pipe_pressure" in layers
+    for layer in ("route", "pipe_pressure"):
+        gdf = pyogrio.read_dataframe(out / "routes.gpkg", layer=layer)
+        assert list(dict.fromkeys(gdf["route"])) == GOOD
+    pipe = pyogrio.read_dataframe(out / "routes.gpkg", layer="route")
+    # C's two features were merged into one route line
+    assert (pipe["route"] == "C").sum() == 1
+
+
+def test_outputs_per_route_and_the_figure(routes_run):
+    _, out, _, _ = routes_run
+    assert sorted(p.name for p in out.iterdir() if p.is_dir()) == ["A", "B_north", "C"]
+    # figures and each route's own layer files only when asked (routes.gpkg has the layers)
+    assert not (out / "A" / "profile.png").exists() and not (out / "A" / "layers.gpkg").exists()
+    assert (out / "A" / "report.html").exists() and (out / "A" / "summary.json").exists()
+    import matplotlib.image as mpimg
+
+    img = mpimg.imread(out / "routes.png")
+    assert img.shape[0] > 500 and img.std() > 0.05  # drawn, not blank
+
+
+def test_each_feature_a_route_without_a_field(tmp_path):
+    from gisgrade.routes import run_routes
+
+    project = make_site(tmp_path)
+    (tmp_path / "project.toml").write_text(
+        project.read_text().replace('route_field = "name"\n', ""))
+    res = run_routes(tmp_path / "project.toml", workers=0)
+    assert [o.name for o in res.outcomes] == [f"feature-{i}" for i in range(1, 6)]
+    # the halves of C alone and D (off the DEM) fail or run, but each is its own row
+    assert res.table["route"].nunique() == 5
+
+
+def test_lines_given_in_place_of_the_layer(tmp_path):
+    """Candidate lines (a GeoDataFrame with a route field) run as the layer would."""
+    import geopandas as gpd
+    from shapely.geometry import LineString
+
+    from gisgrade.routes import run_routes
+
+    project = make_site(tmp_path)
+    lines = gpd.GeoDataFrame({"route": ["x", "y"]},
+                             geometry=[LineString(LINES[0]), LineString(LINES[1])],
+                             crs="EPSG:32633")
+    res = run_routes(project, lines, workers=0)
+    assert list(res.table.drop_duplicates("route")["route"]) == ["x", "y"]
+    assert (res.table["status"] == "ok").all()
+
+
+def test_figures_and_layers_when_asked_give_every_file_of_a_run(tmp_path):
+    import geopandas as gpd
+    from shapely.geometry import LineString
+
+    import gisgrade
+    from gisgrade.routes import run_routes
+
+    project = make_site(tmp_path)
+    lines = gpd.GeoDataFrame({"route": ["x"]}, geometry=[LineString(LINES[0])], crs="EPSG:32633")
+    res = run_routes(project, lines, workers=0, figures=True, layers=True)
+    res.write(tmp_path / "r", parquet=True)
+    # the columnar copies read back by pyarrow / geopandas equal the CSV and the GeoPackage
+    pd.testing.assert_frame_equal(pd.read_parquet(tmp_path / "r" / "routes.parquet"), res.table)
+    pq = gpd.read_parquet(tmp_path / "r" / "parquet" / "pipe_pressure.parquet")
+    gp = gpd.read_file(tmp_path / "r" / "routes.gpkg", layer="pipe_pressure")
+    assert len(pq) == len(gp) and pq.crs == gp.crs
+    np.testing.assert_allclose(pq["hgl_m"], gp["hgl_m"])
+    project.write_text(project.read_text().replace('route_field = "name"', "where = \"name = 'A'\""))
+    gisgrade.run(project, tmp_path / "alone")
+    names = lambda d: sorted(str(p.relative_to(d)) for p in d.rglob("*") if p.is_file())
+    assert names(tmp_path / "r" / "x") == names(tmp_path / "alone")
+
+
+def test_an_existing_scheduler_by_address(tmp_path):
+    """--scheduler ADDRESS runs on a cluster started elsewhere, with the same figures."""
+    from distributed import LocalCluster
+
+    from gisgrade.routes import run_routes
+
+    project = make_site(tmp_path)
+    with LocalCluster(n_workers=1, threads_per_worker=1, dashboard_address=None,
+                      processes=False) as cluster:
+        on = run_routes(project, scheduler=cluster.scheduler_address)
+    here = run_routes(project, workers=0)
+    pd.testing.assert_frame_equal(on.table, here.table)
+
+
+def _cli(args, capsys):
+    from gisgrade.cli import main
+
+    status = main(args)
+    return status, capsys.readouterr().err.strip().splitlines()
+
+
+@pytest.mark.parametrize("case, message", [
+    ("field", "has no field 'label'"),
+    ("inside", "input of this project"),
+    ("both", "one or the other"),
+    ("scheduler", "cannot reach a Dask scheduler"),
+    ("points", "routes must be lines"),
+])
+def test_bad_input_to_the_command(tmp_path, capsys, case, message):
+    project = make_site(tmp_path)
+    out = tmp_path / "o"
+    args = ["routes", str(project), "-o", str(out), "--workers", "0"]
+    if case == "field":
+        project.write_text(project.read_text().replace('route_field = "name"', 'route_field = "label"'))
+    elif case == "inside":
+        args[3] = str(tmp_path)
+    elif case == "both":
+        args += ["--scheduler", "tcp://127.0.0.1:1"]
+    elif case == "scheduler":
+        args = args[:4] + ["--scheduler", "tcp://127.0.0.1:9"]
+    elif case == "points":
+        (tmp_path / "lines.geojson").write_text(json.dumps({
+            "type": "FeatureCollection", "features": [{"type": "Feature", "properties": {"name": "a"},
+                                                       "geometry": {"type": "Point", "coordinates": [500_100, Y0 - 1500]}}],
+            "crs": {"type": "name", "properties": {"name": "urn:ogc:def:crs:EPSG::32633"}}}))
+    before = sorted(p.name for p in tmp_path.iterdir())
+    status, err = _cli(args, capsys)
+    assert status == 2
+    assert len(err) == 1 and message in err[0], err
+    assert "Traceback" not in "\n".join(err)
+    assert sorted(p.name for p in tmp_path.iterdir()) == before  # nothing written
+
+
+def test_progress_bar_counts_routes():
+    from gisgrade.cli.routes import RoutesBar
+
+    class Tty:
+        def __init__(self):
+            self.text = ""
+
+        def isatty(self):
+            return True
+
+        def write(self, s):
+            self.text += s
+
+        def flush(self):
+            pass
+
+    tty = Tty()
+    bar = RoutesBar(stream=tty)
+    for done in range(4):
+        bar(done, 3)
+    assert "3/3 routes" in tty.text and tty.text.endswith("\n")
+
+
+def test_folder_names_stay_apart():
+    from gisgrade.routes import _unique_folders
+
+    assert _unique_folders(["a b", "a_b", "A/B", ""]) == ["a_b", "a_b-2", "A_B-3", "route"]
