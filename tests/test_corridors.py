@@ -423,3 +423,33 @@ def test_no_go_closing_the_way_is_refused(tmp_path):
     p = site(tmp_path, np.full((100, 100), 100.0), 'no_go = ["band.geojson"]\n')
     with pytest.raises(InputError, match="no route between the points"):
         plan_corridors(p, [xy(50, 5), xy(50, 95)])
+
+
+def test_compare_runs_the_candidates_and_the_drawn_line_through_the_whole_job(tmp_path):
+    """--compare: one table from gisgrade routes, the drawn centerline (route
+    "drawn") beside each candidate, one row per route and scenario. The whole
+    job measures each line itself: its length equals the candidate's polyline
+    length and the drawn line's (shapely), and its crossings the count on the
+    written line."""
+    import pandas as pd
+
+    streams = [[xy(20, 50), xy(80, 50)]]
+    write_lines(tmp_path / "streams.geojson", streams, props=[{"bottom": 95.0}])
+    extra = (HYDRAULICS.format(head=140) + '\n[[crossings]]\npath = "streams.geojson"\n'
+             'bottom_field = "bottom"\nclearance = "0.3 m"\n')
+    site(tmp_path, np.full((100, 100), 100.0), 'k = 2\ncrossing_cost = "50 m"\n', extra)
+    a, b = xy(50, 5), xy(50, 95)
+    assert run_cli(["corridors", str(tmp_path / "project.toml"), "--from", "%f,%f" % a,
+                    "--to", "%f,%f" % b, "--compare", "--workers", "0", "-q",
+                    "-o", str(tmp_path / "out")]) == 0
+    table = pd.read_csv(tmp_path / "out" / "comparison.csv")
+    cands = pd.read_csv(tmp_path / "out" / "corridors.csv")
+    assert list(dict.fromkeys(table.route)) == ["drawn", "C1", "C2"]
+    assert set(table.status) == {"ok"}
+    assert set(table.scenario) == {"design", "static"}
+    first = table.drop_duplicates("route").set_index("route")
+    drawn = LineString([xy(50, 1), xy(50, 98)])
+    assert first.loc["drawn", "length_m"] == pytest.approx(drawn.length, rel=1e-9)
+    for row in cands.itertuples():
+        assert first.loc[row.route, "length_m"] == pytest.approx(row.length_m, rel=1e-6)
+        assert first.loc[row.route, "crossings"] == row.crossings

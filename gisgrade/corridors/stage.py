@@ -3,15 +3,12 @@ the grid, the hydraulics, and :func:`plan_corridors`, which puts the pure
 functions of :mod:`.cost` and :mod:`.path` together.
 
 Everything is read and computed before anything is written;
-:meth:`CorridorResult.write` writes every file into a temporary folder beside
-the output folder and moves them into place at the end.
+:meth:`CorridorResult.write` builds the output folder beside its place and
+swaps it in whole at the end.
 """
 from __future__ import annotations
 
 import math
-import os
-import shutil
-import tempfile
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -349,39 +346,25 @@ class CorridorResult:
 
     def write(self, outdir) -> list[Path]:
         """Write :data:`FILES` (and comparison.csv when compared) into ``outdir``,
-        all at once or none."""
+        all at once or none: the folder is built beside it and swapped in whole
+        (:func:`gisgrade.output.atomic.atomic_folder`). The tables carry US
+        columns beside the SI ones with ``[output] units = "US"``."""
+        from ..display import display_of
+        from ..output.atomic import atomic_folder
+        from ..output.csv import write_csv
         from .figure import corridor_figure
 
-        out = Path(outdir)
-        if out.exists() and not out.is_dir():
-            raise InputError(f"output folder {out} is a file; give -o a folder")
-        names = list(FILES) + (["comparison.csv"] if self.comparison is not None else [])
-        inputs = {p.resolve() for p in self.project.input_paths()}
-        clash = [n for n in names if (out / n).resolve() in inputs]
-        if clash:
-            raise InputError(f"output folder {out}: writing {clash[0]} there would replace an "
-                             "input of this project; choose another -o or output.dir")
-        parent = out.parent if str(out.parent) else Path(".")
-        try:
-            parent.mkdir(parents=True, exist_ok=True)
-            tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}-", dir=parent))
-        except OSError as exc:
-            raise InputError(f"output folder {out}: cannot write there ({exc.strerror})") from None
-        try:
+        d = display_of(self.project)
+        with atomic_folder(outdir, inputs=[self.project.path, *self.project.input_paths()]) as tmp:
             self.candidates.to_file(tmp / "candidates.gpkg", layer="candidates",
                                     driver="GPKG", engine="pyogrio")
             write_cost(tmp / "cost.tif", self.cost, self.grid)
-            fig = corridor_figure(self)
-            fig.savefig(tmp / "corridors.png", dpi=120)
-            self.table.to_csv(tmp / "corridors.csv", index=False, float_format="%.6g")
+            corridor_figure(self).savefig(tmp / "corridors.png", dpi=120)
+            write_csv(d.dual(self.table), tmp / "corridors.csv")
             if self.comparison is not None:
-                self.comparison.to_csv(tmp / "comparison.csv", index=False, float_format="%.6g")
-            out.mkdir(exist_ok=True)
-            for name in names:
-                os.replace(tmp / name, out / name)
-        finally:
-            shutil.rmtree(tmp, ignore_errors=True)
-        return [out / n for n in names]
+                write_csv(d.dual(self.comparison), tmp / "comparison.csv")
+        out = Path(outdir)
+        return sorted(p for p in out.iterdir() if p.is_file())
 
 
 def write_cost(path, cost, grid: Grid) -> None:
