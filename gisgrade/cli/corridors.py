@@ -40,6 +40,23 @@ def run_corridors(project_path, start, end, via, crs, k, outdir, compare=False, 
     return result, out
 
 
+def comparison_lines(project, table) -> list[str]:
+    """One line per route of the comparison: length, the lowest pressure of
+    any scenario and the most findings of one, or why it failed."""
+    from ..display import display_of
+
+    d, out = display_of(project), []
+    for route, rows in table.groupby("route", sort=False):
+        bad = rows[rows.status != "ok"]
+        if len(bad):
+            out.append(f"compared {route}: {bad.status.iloc[0]}")
+            continue
+        out.append(f"compared {route}: {d.text(rows.length_m.iloc[0], 'length', 0)}, lowest "
+                   f"pressure {d.text(rows.min_pressure_kpa.min() * 1e3, 'pressure')}, "
+                   f"{int(rows.findings.max())} findings in the worst scenario")
+    return out
+
+
 @click.command("corridors", short_help="propose candidate routes from the terrain",
                help=caution_help(
                    "Find the K cheapest distinct routes over PROJECT's DEM from --from to --to "
@@ -78,6 +95,9 @@ def command(project, start, end, via, crs, k, compare, workers, outdir, verbose,
         for row in result.table.itertuples():
             click.echo(f"{row.route}: {row.length_m:.0f} m, cost x{row.cost_ratio:.2f}, "
                        f"{row.crossings} crossings, {row.shared:.0%} shared with earlier routes")
+        if result.comparison is not None:
+            for line in comparison_lines(result.project, result.comparison):
+                click.echo(line)
         for note in result.notes:
             click.echo(f"note: {note}")
         click.echo(f"outputs written to {out}")
