@@ -27,7 +27,6 @@ from __future__ import annotations
 import argparse
 import json
 import os
-import subprocess
 import sys
 import tempfile
 import time
@@ -36,7 +35,7 @@ from pathlib import Path
 import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
-from bench_ground_profile import peak_rss_mb, rss_mb  # noqa: E402
+from bench_ground_profile import peak_rss_mb, rss_mb, run_child  # noqa: E402
 
 ROOT = Path(__file__).resolve().parents[1]
 DATA = Path(__file__).resolve().parent / "_data"
@@ -144,17 +143,6 @@ def child(kind: str, folder: str) -> None:
                       "peak_mb": peak_rss_mb()}))
 
 
-def run_child(kind: str, folder: str) -> dict:
-    t0 = time.perf_counter()
-    proc = subprocess.run([sys.executable, __file__, "--child", kind, "--out", folder],
-                          capture_output=True, text=True, cwd=ROOT)
-    if proc.returncode:
-        sys.exit(f"{kind} failed:\n{proc.stderr}")
-    result = json.loads(proc.stdout.strip().splitlines()[-1])
-    result["process_seconds"] = time.perf_counter() - t0
-    return result
-
-
 def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--regenerate", action="store_true")
@@ -173,7 +161,7 @@ def main() -> None:
     import rasterio
 
     with tempfile.TemporaryDirectory() as tmp:
-        results = {kind: run_child(kind, tmp) for kind in ("corridors", "run")}
+        results = {kind: run_child(kind, tmp, __file__) for kind in ("corridors", "run")}
         table = pd.read_csv(Path(tmp) / "corridors" / "corridors.csv")
         with rasterio.open(Path(tmp) / "corridors" / "cost.tif") as src:
             rows, cols, cell = src.height, src.width, src.res[0]
