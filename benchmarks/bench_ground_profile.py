@@ -164,10 +164,12 @@ def write_project(folder: Path) -> Path:
     return project
 
 
-def run_child(kind: str, out: str) -> dict:
+def run_child(kind: str, out: str, script: str = __file__) -> dict:
+    """Run ``script --child kind --out out`` in a fresh process; its JSON line
+    and the process's wall time."""
     t0 = time.perf_counter()
     proc = subprocess.run(
-        [sys.executable, __file__, "--child", kind, "--out", out],
+        [sys.executable, script, "--child", kind, "--out", out],
         capture_output=True, text=True, check=True, cwd=ROOT,
     )
     result = json.loads(proc.stdout.strip().splitlines()[-1])

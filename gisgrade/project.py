@@ -541,6 +541,65 @@ class OutputConfig:
         return self
 
 
+@dataclass(frozen=True)
+class CorridorsConfig:
+    """[corridors]: the cost of a route cell by cell, for ``gisgrade corridors`` (docs/corridors.md).
+
+    Costs are in metres of route: a step costs its length times (1 + the terms
+    of the cells it joins); a crossing costs a length once. Defaults: common
+    practice for screening, to be tuned to the place.
+    """
+
+    no_go: tuple = key("files", "polygon layers no route may enter", (), [])
+    preferred: tuple = key("files", "road, easement or corridor layers a route may follow at a "
+                           "discount (lines are widened by preferred_width)", (), [])
+    preferred_width: float = key("length>0", "width of a preferred line's corridor", 20.0, "20 m")
+    preferred_factor: float = key("dimensionless>0", "cost of a step inside a preferred corridor, "
+                                  "times its cost elsewhere (at most 1)", 0.5, 0.5)
+    crossing_cost: tuple = key("lengths", "cost of each crossing of a [[crossings]] layer's "
+                               "feature, as route length: one for every layer, or a list with "
+                               "one per [[crossings]] table", (200.0,), "200 m")
+    steep_slope: float = key("dimensionless>=0", "ground slope a route crosses at no extra cost "
+                             "(steeper: the pipe cannot follow the grade, or the trench runs "
+                             "across a side slope)", 0.15, "15 %")
+    steepness_weight: float = key("number>=0", "extra cost per metre for each 100 % of slope "
+                                  "above steep_slope", 20.0, 20)
+    roughness_window: float = key("length>0", "width of the window the ground's roughness is "
+                                  "measured over", 30.0, "30 m")
+    roughness_weight: float = key("per_length>=0", "extra cost per metre for each metre of "
+                                  "roughness (expected excavation through bumps)", 0.5, "0.5 / m")
+    hgl_weight: float = key("per_length>=0", "extra cost per metre for each metre of head the "
+                            "flow from the source lacks for the minimum pressure (0: off)", 1.0,
+                            "1 / m")
+    resolution: float | None = key("length>0", "cell size of the cost grid (default: the "
+                                   "DEM's, coarser when the window exceeds max_cells)", None)
+    max_cells: float = key("number>0", "most cells in the cost grid", 4e6, 4000000)
+    margin: float | None = key("length>=0", "DEM read around the points (default: a quarter of "
+                               "their span, at least 500 m)", None)
+    k: float = key("number>0", "how many distinct candidate routes", 3.0, 3)
+    separation: float = key("length>0", "routes closer than this share their length", 200.0,
+                            "200 m")
+    separation_factor: float = key("number>0", "cost near an earlier route, times its cost "
+                                   "(at least 1)", 4.0, 4)
+    max_shared: float = key("dimensionless>=0", "most of a route's length within separation of "
+                            "an earlier route (the distinctness measure)", 0.5, "50 %")
+    simplify_tolerance: float | None = key("length>=0", "Douglas-Peucker tolerance of the "
+                                           "polylines (default: twice the cell size)", None)
+
+    def _rules(self, t: _Table) -> CorridorsConfig:
+        if self.preferred_factor > 1:
+            raise InputError(f"{t.say('preferred_factor')}: a discount is at most 1")
+        if self.separation_factor < 1:
+            raise InputError(f"{t.say('separation_factor')}: must be at least 1")
+        if self.max_shared > 1:
+            raise InputError(f"{t.say('max_shared')}: a share is at most 100 %")
+        if self.k != int(self.k):
+            raise InputError(f"{t.say('k')}: expected a whole number of routes")
+        if self.max_cells < 100:
+            raise InputError(f"{t.say('max_cells')}: too few cells for a route")
+        return self
+
+
 def _section(cls, need: str = "optional", array: bool = False):
     """A [table] (or [[array of tables]]) of :class:`Project`: ``need`` ``always``,
     ``run`` (not for the ground profile alone) or ``optional`` (absent: the defaults)."""
@@ -573,6 +632,7 @@ class Project:
     energy: EnergyConfig = _section(EnergyConfig)
     size_candidates: tuple[SizeCandidateConfig, ...] = _section(SizeCandidateConfig, array=True)
     output: OutputConfig = _section(OutputConfig)
+    corridors: CorridorsConfig = _section(CorridorsConfig)
 
     @property
     def base_dir(self) -> Path:
@@ -582,6 +642,7 @@ class Project:
         """Every local file this project reads (for the never-overwrite check)."""
         layers = [*self.crossings, *self.cover_zones, *self.offtakes]
         paths = [self.path, self.alignment.path, *(c.path for c in layers if c.path)]
+        paths += [*self.corridors.no_go, *self.corridors.preferred]
         return paths + [d for d in self.terrain.dem if isinstance(d, Path)]
 
 
@@ -728,6 +789,8 @@ def _value(m: dict, value, key: str, base: Path):
         return _path(value, key, base, must_exist=kind == "file")
     if kind in ("dem", "accuracy"):
         return _terrain(kind, value, key, base)
+    if kind in ("files", "lengths"):
+        return _list(kind, value, key, base)
     return _angles(value, key) if kind == "angles" else _text(kind, value, key, m["choices"])
 
 
@@ -768,6 +831,18 @@ def _terrain(kind: str, value, key: str, base: Path):
         return _quantity(value, "length", key, ">=0")
     except InputError as exc:
         raise InputError(f"{exc} (or a DEM kind: {', '.join(kinds)})") from None
+
+
+def _list(kind: str, value, key: str, base: Path) -> tuple:
+    """``files``: a list of existing paths (one path alone is a list of one);
+    ``lengths``: a length, or a list of lengths (each >= 0), in m."""
+    items = value if isinstance(value, list) else [value]
+    if kind == "files":
+        return tuple(_path(v, f"{key}[{i}]" if isinstance(value, list) else key, base, True)
+                     for i, v in enumerate(items))
+    if not items:
+        raise InputError(f"{key} = {value!r}: expected a length or a list of them")
+    return tuple(_quantity(v, "length", key, ">=0") for v in items)
 
 
 def _angles(value, key: str) -> tuple:
@@ -932,6 +1007,11 @@ def _value_schema(m: dict) -> dict:
         return {"anyOf": [_TEXT, {"type": "array", "minItems": 1, "items": _TEXT}]}
     if kind == "angles":
         return {"type": "array", "minItems": 1, "items": _quantity_schema(">0")}
+    if kind == "files":
+        return {"anyOf": [_TEXT, {"type": "array", "items": _TEXT}]}
+    if kind == "lengths":
+        return {"anyOf": [_quantity_schema(">=0"),
+                          {"type": "array", "minItems": 1, "items": _quantity_schema(">=0")}]}
     if kind == "accuracy":
         return {"anyOf": [_quantity_schema(">=0"), {"enum": list(VERTICAL_ACCURACY_BY_KIND)}]}
     if kind in ("unit", "flow_unit"):

@@ -115,6 +115,9 @@ TODAY = {
     "offtakes": "station flow path flow_field flow_unit layer",
     "checks": "min_pressure max_pressure min_velocity max_velocity",
     "output": "dir units name crs sheet_length sheet_overlap paper",
+    "corridors": "no_go preferred preferred_width preferred_factor crossing_cost steep_slope "
+                 "steepness_weight roughness_window roughness_weight hgl_weight resolution "
+                 "max_cells margin k separation separation_factor max_shared simplify_tolerance",
 }
 
 #: Defaults the README's project-file block states: those it calls the
@@ -134,6 +137,13 @@ README_DEFAULTS = {
     ("valves", "slope_window"): "50 m",
     ("surge", "restraint"): "anchored", ("energy", "efficiency"): 0.7,
     ("output", "units"): "SI", ("output", "sheet_overlap"): "50 m", ("output", "paper"): "A3",
+    ("corridors", "preferred_width"): "20 m", ("corridors", "preferred_factor"): 0.5,
+    ("corridors", "crossing_cost"): "200 m", ("corridors", "steep_slope"): "15 %",
+    ("corridors", "steepness_weight"): 20, ("corridors", "roughness_window"): "30 m",
+    ("corridors", "roughness_weight"): "0.5 / m", ("corridors", "hgl_weight"): "1 / m",
+    ("corridors", "max_cells"): 4000000, ("corridors", "k"): 3,
+    ("corridors", "separation"): "200 m", ("corridors", "separation_factor"): 4,
+    ("corridors", "max_shared"): "50 %",
 }
 
 #: A table for every section (two where a section has two shapes or an
@@ -196,6 +206,13 @@ FULL = {
                 "max_velocity": "10 ft/s"}],
     "output": [{"dir": "out", "units": "US", "name": "Test main", "crs": "EPSG:2229",
                 "sheet_length": "2000 ft", "sheet_overlap": "100 ft", "paper": "tabloid"}],
+    "corridors": [{"no_go": ["line.geojson"], "preferred": ["line.geojson"],
+                   "preferred_width": "10 m", "preferred_factor": 0.6,
+                   "crossing_cost": ["100 m", "50 m"], "steep_slope": "20 %",
+                   "steepness_weight": 10, "roughness_window": "40 m",
+                   "roughness_weight": "1 / m", "hgl_weight": "2 / m", "resolution": "20 m",
+                   "max_cells": 1000000, "margin": "1 km", "k": 4, "separation": "150 m",
+                   "separation_factor": 3, "max_shared": "40 %", "simplify_tolerance": "5 m"}],
 }
 
 ARRAYS = {"cover_zones", "crossings", "scenarios", "sections", "fittings", "offtakes",
@@ -362,6 +379,10 @@ def test_defaults_round_trip():
                 assert back == pytest.approx(f.default, rel=1e-15)
             elif kind == "unit":
                 assert parse_quantity(f"1 {shown}", "length", f.name) == f.default
+            elif kind == "files":
+                assert tuple(shown) == f.default, (name, f.name)
+            elif kind == "lengths":
+                assert (parse_quantity(shown, "length", f.name),) == f.default
             else:
                 assert shown == f.default, (name, f.name)
     for (name, key), value in README_DEFAULTS.items():

@@ -36,11 +36,12 @@ examples:
   gisgrade profile project.toml      the ground profile alone (no pipe data needed)
   gisgrade routes project.toml -o out   every route of the centerline layer, on Dask
   gisgrade sizes project.toml --candidates "250 mm, 300 mm"   compare pipe sizes
+  gisgrade corridors project.toml --from X,Y --to X,Y -o c   candidate routes
   gisgrade schema > project.schema.json   the project file's JSON Schema
 """
 
 #: The command modules, each defining ``command`` (a click command).
-COMMANDS = ("run", "profile", "routes", "demo", "sizes", "schema")
+COMMANDS = ("run", "profile", "routes", "demo", "sizes", "corridors", "schema")
 
 
 def caution_help(text: str, example: str) -> str:
