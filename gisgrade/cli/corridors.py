@@ -92,8 +92,11 @@ def command(project, start, end, via, crs, k, compare, workers, outdir, verbose,
                            workers, echo)
     if status == 0 and not quiet:
         result, out = done
+        from ..display import display_of
+
+        d = display_of(result.project)
         for row in result.table.itertuples():
-            click.echo(f"{row.route}: {row.length_m:.0f} m, cost x{row.cost_ratio:.2f}, "
+            click.echo(f"{row.route}: {d.text(row.length_m, 'length', 0)}, cost x{row.cost_ratio:.2f}, "
                        f"{row.crossings} crossings, {row.shared:.0%} shared with earlier routes")
         if result.comparison is not None:
             for line in comparison_lines(result.project, result.comparison):

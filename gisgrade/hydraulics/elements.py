@@ -385,7 +385,7 @@ def suggest_elements(station, axis, hgl, hgl_upstream, egl, flowing, names, p_mi
     from ..display import Display
     d = display or Display()
     label = lambda s: d.station([s])[0]  # noqa: E731
-    kpa = lambda p: d.text(p, "pressure", 1)  # noqa: E731
+    kpa = lambda p, decimals=1: d.text(p, "pressure", decimals)  # noqa: E731
     rho_g = density * G
     flowing = np.asarray(flowing, dtype=bool)
     lo, hi = _band(axis, p_min, p_max, density, len(names), check_min)
@@ -493,8 +493,14 @@ def _why(H, Hu, axis, j, p_min, p_max, rho_g, names, kpa, check_min):
         p_lo = np.where(check_min, p_lo, np.inf)
     k_hi, k_lo = int(np.argmax(p_hi)), int(np.argmin(p_lo))
     if p_hi[k_hi] > p_max:
-        return f"{names[k_hi]}: {kpa(p_hi[k_hi])}, above {kpa(p_max)}"
-    return f"{names[k_lo]}: {kpa(p_lo[k_lo])}, below {kpa(p_min)}"
+        return f"{names[k_hi]}: {_apart(kpa, p_hi[k_hi], p_max)}, above {_apart(kpa, p_max, p_hi[k_hi])}"
+    return f"{names[k_lo]}: {_apart(kpa, p_lo[k_lo], p_min)}, below {_apart(kpa, p_min, p_lo[k_lo])}"
+
+
+def _apart(kpa, p, other) -> str:
+    """``kpa(p)``, with more decimals where it would read the same as ``other``
+    (34.96 psi below a 35 psi minimum is not "35.0 psi, below 35.0 psi")."""
+    return kpa(p) if kpa(p) != kpa(other) else kpa(p, 3)
 
 
 def _stretches(bad, station, label, kpa, p_min, p_max):
