@@ -15,6 +15,7 @@ import pytest
 
 from conftest import flat_site
 from gisgrade.cli import main
+from gisgrade.output.atomic import verify_folder
 from gisgrade.sizes import COLUMNS
 
 G = 9.80665
@@ -57,7 +58,8 @@ def test_candidates_from_the_command_line(tmp_path, capsys):
     table = pd.read_csv(out / "sizes.csv")
     assert list(table.columns[:len(COLUMNS)]) == COLUMNS
     assert len(table) == 3 * 2  # candidates x (design, static)
-    assert {p.name for p in out.iterdir()} == {"sizes.csv", "sizes.png", "sizes.txt"}
+    assert {p.name for p in out.iterdir()} == {"sizes.csv", "sizes.png", "sizes.txt", "MANIFEST.json"}
+    verify_folder(out)  # written whole, checksums last
     w = IAPWS95(T=288.15, P=0.101325)
     design = table[table["scenario"] == "design"]
     for d, loss in zip(design["inside_diameter_m"], design["head_loss_m"]):
