@@ -13,6 +13,8 @@ A new output file is a module with a registered writer, and one line in
 from __future__ import annotations
 
 import importlib
+import logging
+import time
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Callable
@@ -20,6 +22,8 @@ from typing import Callable
 from ..errors import InputError
 
 __all__ = ["write_all", "writer", "output_names", "WRITERS"]
+
+log = logging.getLogger("gisgrade")
 
 
 @dataclass(frozen=True)
@@ -89,6 +93,8 @@ def write_all(result, outdir, figures: bool = True) -> list[Path]:
     with atomic_folder(outdir, inputs=inputs) as tmp:
         for w in WRITERS:
             if w.applies(result) and (figures or not w.figure):
+                t0 = time.perf_counter()
                 w.write(result, tmp, display)
+                log.debug("writer %-22s %7.3f s", w.files[0], time.perf_counter() - t0)
         written = [Path(outdir) / f.name for f in sorted(tmp.iterdir())]
     return written + [Path(outdir) / MANIFEST]
