@@ -198,10 +198,18 @@ def screen_hydraulics(project, table) -> list[Problem]:
     return out
 
 
+def screen_sections(project, line) -> list[Problem]:
+    """[[sections]] that reach beyond the line (a section not on the line is never used)."""
+    s0, s1 = line.start_station, line.start_station + line.length
+    return [error(f"{sec.key}: from {sec.start:.1f} m to {sec.end:.1f} m reaches beyond the line "
+                  f"(stations {s0:.1f} to {s1:.1f} m); give stations on the line")
+            for sec in project.sections if sec.start < s0 - 1e-3 or sec.end > s1 + 1e-3]
+
+
 def screen(project, line, crossings, table) -> list[Problem]:
     """Every problem this stage finds, errors first."""
     problems = (screen_config(project) + screen_dems(project, project.alignment.spacing)
-                + screen_ground(project, table))
+                + screen_sections(project, line) + screen_ground(project, table))
     if not any(p.level == "error" for p in problems):
         problems += screen_crossings(crossings, table) + screen_hydraulics(project, table)
     return sorted(problems, key=lambda p: p.level != "error")

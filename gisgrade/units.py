@@ -166,6 +166,9 @@ def parse_quantity(value, kind: str, key: str) -> float:
     if not unit and kind == "dimensionless":
         raise InputError(f"{key} = {value!r}: a number in quotes needs a unit, e.g. {example}; "
                          f"or write it unquoted as a fraction ({key} = {number or value})")
+    if q.dimensionless and kind not in ("angle", "dimensionless") and unit:
+        raise InputError(f"{key} = {value!r}: expected a {kind} (e.g. {example}); {unit!r} is "
+                         "an angle or a plain ratio, not a unit of it")
     if q.dimensionless and kind not in ("angle", "dimensionless"):
         raise InputError(
             f"{key} = {value!r}: a unit is required, e.g. {key} = {example}"

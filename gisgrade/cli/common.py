@@ -60,6 +60,7 @@ def compute_and_write(project_path, outdir, quiet, *, ground=False):
     from ..output.summary import summary_text
     from ..pipeline import compute, compute_ground
     from ..project import load
+    from ..output.atomic import refuse_outdir
     from ..result import resolve_outdir
 
     log = logging.getLogger("gisgrade")
@@ -67,6 +68,7 @@ def compute_and_write(project_path, outdir, quiet, *, ground=False):
     def work():
         project = load(project_path, ground_only=ground)
         out = resolve_outdir(project, outdir)
+        refuse_outdir(out, inputs=project.input_paths())  # before the long part
         result = (compute_ground if ground else compute)(project, progress=Progress(enabled=not quiet))
         t0 = time.perf_counter()
         result.write(out)

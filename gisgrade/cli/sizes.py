@@ -20,12 +20,13 @@ def run_sizes(project_path, candidates_text, outdir, echo=lambda s: None):
     from ..hydraulics.surge import SCREENING
     from ..pipeline import compute
     from ..project import load
-    from ..output.atomic import atomic_folder
+    from ..output.atomic import atomic_folder, refuse_outdir
     from ..sizes import (candidate_project, candidates_from_project, candidates_from_text,
                          compare, comparison_figure)
 
     project = load(project_path)
     out = sizes_outdir(project, outdir)
+    refuse_outdir(out, inputs=project.input_paths())  # before the candidates are run
     if candidates_text is not None:
         candidates = candidates_from_text(project, candidates_text)
     elif project.size_candidates:

@@ -38,7 +38,7 @@ from pathlib import Path
 
 from ..errors import InputError
 
-__all__ = ["atomic_folder", "verify_folder", "MANIFEST"]
+__all__ = ["atomic_folder", "verify_folder", "refuse_outdir", "MANIFEST"]
 
 #: The manifest's file name, written last into every result folder.
 MANIFEST = "MANIFEST.json"
@@ -192,12 +192,13 @@ def _refuse(outdir: Path, raw, inputs) -> tuple[Path, Path]:
             raise InputError(f"output folder {raw} holds {p.name}, an input of this project "
                              "(the folder is replaced whole); choose another -o or output.dir")
     parent = target.parent
-    try:
-        parent.mkdir(parents=True, exist_ok=True)
-    except OSError as exc:
-        raise InputError(f"output folder {raw}: cannot make {parent} ({exc.strerror})") from None
-    if not os.access(parent, os.W_OK | os.X_OK):
-        raise InputError(f"output folder {raw}: cannot write in {parent} (permission denied)")
+    existing = parent
+    while not existing.exists():
+        existing = existing.parent
+    if not existing.is_dir():
+        raise InputError(f"output folder {raw}: cannot make {parent} ({existing} is a file)")
+    if not os.access(existing, os.W_OK | os.X_OK):
+        raise InputError(f"output folder {raw}: cannot write in {existing} (permission denied)")
     if target.is_dir():
         if not os.access(target, os.W_OK | os.X_OK):
             raise InputError(f"output folder {raw} is read-only; choose another -o")
@@ -212,6 +213,12 @@ def _refuse(outdir: Path, raw, inputs) -> tuple[Path, Path]:
                 raise InputError(f"output folder {raw} holds {foreign[0]}, which no gisgrade run "
                                  f"wrote (not in its {MANIFEST}); move it or choose another -o")
     return target, parent
+
+
+def refuse_outdir(outdir, *, inputs=()) -> None:
+    """The refusals of :func:`atomic_folder`, checked early (before a long
+    computation); raises InputError, writes nothing (the parent folder aside)."""
+    _refuse(Path(outdir), outdir, inputs)
 
 
 @contextlib.contextmanager
@@ -232,6 +239,10 @@ def atomic_folder(outdir, *, inputs=()):
     """
     raw = outdir
     target, parent = _refuse(Path(outdir), raw, inputs)
+    try:
+        parent.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise InputError(f"output folder {raw}: cannot make {parent} ({exc.strerror})") from None
     _clean(parent, target)
     pid = os.getpid()
     try:
