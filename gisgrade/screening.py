@@ -199,11 +199,19 @@ def screen_hydraulics(project, table) -> list[Problem]:
 
 
 def screen_sections(project, line) -> list[Problem]:
-    """[[sections]] that reach beyond the line (a section not on the line is never used)."""
+    """[[sections]] wholly off the line (never used: refused) or reaching beyond
+    an end (cut there: warned)."""
     s0, s1 = line.start_station, line.start_station + line.length
-    return [error(f"{sec.key}: from {sec.start:.1f} m to {sec.end:.1f} m reaches beyond the line "
-                  f"(stations {s0:.1f} to {s1:.1f} m); give stations on the line")
-            for sec in project.sections if sec.start < s0 - 1e-3 or sec.end > s1 + 1e-3]
+    out = []
+    for sec in project.sections:
+        span = f"{sec.key}: from {sec.start:.1f} m to {sec.end:.1f} m"
+        if sec.end <= s0 + 1e-3 or sec.start >= s1 - 1e-3:
+            out.append(error(f"{span} lies wholly off the line (stations {s0:.1f} to {s1:.1f} m); "
+                             "give stations on the line"))
+        elif sec.start < s0 - 1e-3 or sec.end > s1 + 1e-3:
+            out.append(warning(f"{span} reaches beyond the line (stations {s0:.1f} to "
+                               f"{s1:.1f} m); it is cut at the line's end"))
+    return out
 
 
 def screen(project, line, crossings, table) -> list[Problem]:

@@ -278,9 +278,9 @@ CASES = [
          ("hydraulics.temperature", "0-40 degC")),
     Case("scenario named static", "project file", add('[[scenarios]]\nname = "static"\nmultiplier = 1.0'),
          ("scenarios[0].name", "static")),
-    Case("section beyond the line", "contradictory",
-         add('[[sections]]\nfrom = "800 m"\nto = "3 km"\ninside_diameter = "250 mm"'),
-         ("sections[0]", "beyond the line")),
+    Case("section off the line", "contradictory",
+         add('[[sections]]\nfrom = "2 km"\nto = "3 km"\ninside_diameter = "250 mm"'),
+         ("sections[0]", "wholly off the line")),
     Case("fitting off the line", "contradictory", add('[[fittings]]\nstation = "9 km"\nk = 0.5'),
          ("fittings[0].station", "not on the line")),
     Case("spacing far too fine", "crashes", edit('spacing = "10 m"', 'spacing = "0.01 mm"'),
@@ -366,6 +366,10 @@ CASES = [
          ("scenario 'design'", "m/s"), level="warning"),
     Case("source head below the ground", "warnings", edit('source_head = "200 m"', 'source_head = "90 m"'),
          ("hydraulics.source_head", "below the ground"), level="warning"),
+    Case("section reaching beyond the end", "warnings",
+         add('[[sections]]\nfrom = "800 m"\nto = "3 km"\ninside_diameter = "250 mm"\n'
+             'outside_diameter = "270 mm"'),
+         ("sections[0]", "reaches beyond the line", "cut"), level="warning"),
     Case("earlier output without a manifest", "warnings", earlier_output,
          ("earlier output", "MANIFEST.json"), level="warning"),
 ]
