@@ -16,36 +16,13 @@ from typing import Callable
 
 import numpy as np
 
-from conftest import write_dem, write_lines
+from conftest import CROSSING_X, PROJECT, write_dem, write_lines
 
 UTM = "EPSG:32633"
 X0, Y = 500_100.0, 4_649_000.0
 
-SITE = """\
-[alignment]
-path = "line.geojson"
-spacing = "10 m"
-
-[terrain]
-dem = "dem.tif"
-
-[pipe]
-inside_diameter = "300 mm"
-outside_diameter = "320 mm"
-roughness = "0.1 mm"
-
-[cover]
-minimum = "1.2 m"
-
-[hydraulics]
-source_head = "200 m"
-flow = "50 L/s"
-
-[[crossings]]
-path = "x.geojson"
-bottom_field = "bottom"
-clearance = "0.3 m"
-"""
+#: The site's project file: the shared test project with one crossing layer.
+SITE = PROJECT + CROSSING_X
 
 
 def make_site(folder):
@@ -230,7 +207,7 @@ CASES = [
          ("pipe.inside_diameter", "something follows the unit")),
     Case("wrong dimension", "units", edit('minimum = "1.2 m"', 'minimum = "1.2 L/s"'),
          ("cover.minimum", "expected a length")),
-    Case("temperature in degrees of angle", "units", edit('flow = "50 L/s"', 'flow = "50 L/s"\ntemperature = "15 deg"'),
+    Case("temperature in degrees of angle", "units", edit('temperature = "15 degC"', 'temperature = "15 deg"'),
          ("hydraulics.temperature", "expected a temperature")),
     Case("quoted bare number as an angle", "unitless numbers",
          add('[design]\nmax_joint_deflection = "3"'), ("design.max_joint_deflection", "radians")),
@@ -264,7 +241,7 @@ CASES = [
     Case("roughness at the diameter", "cannot be right", edit('roughness = "0.1 mm"', 'roughness = "300 mm"'),
          ("pipe.roughness", "at or above")),
     Case("absurd Hazen-Williams C", "cannot be right",
-         edit('roughness = "0.1 mm"', 'friction = "hazen-williams"\nhazen_williams_c = 1000'),
+         edit('friction = "darcy-weisbach"', 'friction = "hazen-williams"\nhazen_williams_c = 1000'),
          ("pipe.hazen_williams_c", "not a pipe")),
     Case("cover of tens of metres", "cannot be right", edit('minimum = "1.2 m"', 'minimum = "30 m"'),
          ("cover.minimum", "tunnel")),
@@ -274,7 +251,7 @@ CASES = [
          edit('outside_diameter = "320 mm"', 'outside_diameter = "280 mm"'),
          ("pipe.outside_diameter", "smaller")),
     Case("temperature beyond 40 degC", "cannot be right",
-         edit('flow = "50 L/s"', 'flow = "50 L/s"\ntemperature = "80 degC"'),
+         edit('temperature = "15 degC"', 'temperature = "80 degC"'),
          ("hydraulics.temperature", "0-40 degC")),
     Case("scenario named static", "project file", add('[[scenarios]]\nname = "static"\nmultiplier = 1.0'),
          ("scenarios[0].name", "static")),
@@ -356,7 +333,7 @@ CASES = [
     Case("DEM in feet declared metres", "warnings", feet_band, ("dem.tif", "'ft'", "vertical_unit"),
          level="warning"),
     Case("unusual Hazen-Williams C", "warnings",
-         edit('roughness = "0.1 mm"', 'friction = "hazen-williams"\nhazen_williams_c = 40'),
+         edit('friction = "darcy-weisbach"', 'friction = "hazen-williams"\nhazen_williams_c = 40'),
          ("pipe.hazen_williams_c", "usual"), level="warning"),
     Case("deep cover", "warnings", edit('minimum = "1.2 m"', 'minimum = "5 m"'),
          ("cover.minimum", "deeper than"), level="warning"),

@@ -123,7 +123,8 @@ def test_common_flow_and_temperature_spellings_are_accepted(tmp_path, flow, temp
     from gisgrade.project import load
 
     project = make_site(tmp_path)
-    project.write_text(SITE.replace('flow = "50 L/s"', f"flow = {flow}\ntemperature = {temp}"))
+    project.write_text(SITE.replace('flow = "50 L/s"', f"flow = {flow}")
+                       .replace('temperature = "15 degC"', f"temperature = {temp}"))
     p = load(project)
     assert p.hydraulics.flow == pytest.approx(q_m3_s, rel=1e-12)
     assert p.hydraulics.temperature == pytest.approx(t_k, rel=1e-12)

@@ -65,7 +65,7 @@ def test_candidates_from_the_command_line(tmp_path, capsys):
     for d, loss in zip(design["inside_diameter_m"], design["head_loss_m"]):
         v = 0.05 / (np.pi * d ** 2 / 4)
         f = fluids.friction.friction_factor(Re=w.rho * v * d / w.mu, eD=0.1e-3 / d)
-        assert loss == pytest.approx(f * 1000.0 / d * v ** 2 / (2 * G), rel=2e-3)
+        assert loss == pytest.approx(f * 1000.0 / d * v ** 2 / (2 * G), rel=2e-4)  # 6.1e-5 measured
     assert np.all(np.diff(design["head_loss_m"]) < 0)  # a bigger pipe loses less head
     text = (out / "sizes.txt").read_text()
     assert "screening" in text and "licensed professional engineer" in text

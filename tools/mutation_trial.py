@@ -10,9 +10,10 @@ survivors, and exits 1 if any survived.
     python tools/mutation_trial.py --list     # what would be tried
     python tools/mutation_trial.py butterfly  # only those whose name holds the word
 
-The source files are restored after each mutation (and on Ctrl-C); the trial
-refuses to start on a worktree with uncommitted changes to gisgrade/, so a
-restore can never lose work.
+First each set of tests runs on the unmutated code and must pass (else a
+"caught" would mean nothing). The source files are restored after each
+mutation (and on Ctrl-C); the trial refuses to start on a worktree with
+uncommitted changes to gisgrade/, so a restore can never lose work.
 """
 from __future__ import annotations
 
@@ -122,6 +123,14 @@ def main(argv=None) -> int:
     if not _clean():
         print("mutation_trial: gisgrade/ has uncommitted changes; commit them first", file=sys.stderr)
         return 2
+    for tests in dict.fromkeys(m.tests for m in chosen):  # the tests must pass unmutated
+        proc = subprocess.run([sys.executable, "-m", "pytest", "-q", "-x", "-p", "no:cacheprovider",
+                               *tests], cwd=ROOT, capture_output=True, text=True)
+        if proc.returncode != 0:
+            print(f"mutation_trial: the unmutated code fails {' '.join(tests)}; fix that first",
+                  file=sys.stderr)
+            return 2
+    print(f"baseline: the {len(set(m.tests for m in chosen))} test sets pass unmutated", flush=True)
     survivors, applied = [], 0
     for m in chosen:
         fate, dt = trial(m, args.timeout)
