@@ -128,3 +128,36 @@ def test_common_flow_and_temperature_spellings_are_accepted(tmp_path, flow, temp
     p = load(project)
     assert p.hydraulics.flow == pytest.approx(q_m3_s, rel=1e-12)
     assert p.hydraulics.temperature == pytest.approx(t_k, rel=1e-12)
+
+
+def test_verbosity_levels_differ(tmp_path, capsys):
+    # -v: each stage's time, writing too; -vv: each writer's time as well
+    project = make_site(tmp_path)
+    assert main(["-v", "run", str(project), "-o", str(tmp_path / "a")]) == 0
+    one = capsys.readouterr().err
+    assert "stage write" in one and "writer " not in one
+    assert main(["-vv", "run", str(project), "-o", str(tmp_path / "b")]) == 0
+    two = capsys.readouterr().err
+    assert "stage write" in two and "writer profile.csv" in two
+
+
+def test_library_warnings_never_precede_the_one_line_error(tmp_path, capsys, monkeypatch):
+    # A library warning raised on the way to a refusal stays off stderr (logged at -vv).
+    import warnings
+
+    import gisgrade.project as pj
+
+    project = make_site(tmp_path)
+    real = pj.load
+
+    def noisy(*a, **k):
+        warnings.warn("a library's deprecation", DeprecationWarning)
+        warnings.warn("shapely: invalid value encountered", RuntimeWarning)
+        return real(*a, **k)
+
+    monkeypatch.setattr(pj, "load", noisy)
+    project.write_text(SITE.replace('minimum = "1.2 m"', 'minimum = "30 m"'))
+    capsys.readouterr()  # what making the site logged (an earlier -vv in this process)
+    assert main(["run", str(project), "-o", str(tmp_path / "o")]) == 2
+    err = capsys.readouterr().err
+    assert err.startswith("gisgrade: error: cover.minimum") and err.count("\n") == 1, err

@@ -68,7 +68,7 @@ def setup_logging(verbose: int, quiet: bool) -> tuple[int, bool]:
     level = logging.ERROR if quiet else (logging.WARNING, logging.INFO, logging.DEBUG)[min(verbose, 2)]
     log = logging.getLogger("gisgrade")
     log.handlers[:] = []
-    handler = logging.StreamHandler(sys.stderr)
+    handler = _Stderr()
     handler.setFormatter(logging.Formatter("gisgrade: %(message)s"))
     log.addHandler(handler)
     log.setLevel(level)
@@ -85,6 +85,19 @@ def setup_logging(verbose: int, quiet: bool) -> tuple[int, bool]:
 
 #: Loggers of the libraries gisgrade calls.
 LIBRARY_LOGGERS = ("rasterio", "pyogrio", "fiona", "shapely", "geopandas", "pyproj", "matplotlib")
+
+
+class _Stderr(logging.StreamHandler):
+    """A handler writing to whatever ``sys.stderr`` is when a record comes
+    (never to a stream that was replaced and closed since)."""
+
+    @property
+    def stream(self):
+        return sys.stderr
+
+    @stream.setter
+    def stream(self, value):
+        pass
 
 
 class _Group(click.Group):
