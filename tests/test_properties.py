@@ -20,7 +20,7 @@ results alone:
   an InputError.
 
 The normal suite runs a few examples (the ``fast`` profile, well under 30 s);
-``pytest -m slow`` runs the long profile (hundreds of examples).
+``pytest -m slow`` runs the long profiles (2000 random projects, 3000 random values).
 """
 from __future__ import annotations
 
@@ -39,7 +39,7 @@ UTM = "EPSG:32633"
 X0, Y = 500_200.0, 4_649_000.0
 FAST = settings(max_examples=4, deadline=None, derandomize=True,
                 suppress_health_check=[HealthCheck.function_scoped_fixture, HealthCheck.too_slow])
-LONG = settings(max_examples=300, deadline=None,
+LONG = settings(max_examples=2000, deadline=None,
                 suppress_health_check=[HealthCheck.function_scoped_fixture, HealthCheck.too_slow])
 
 
