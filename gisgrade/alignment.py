@@ -285,14 +285,18 @@ def working_crs(crs: pyproj.CRS, lon: float, lat: float, scale_error: float = 0.
     datum (WGS 84 zones as fallback). A line in feet is therefore stationed
     in UTM metres, not in feet read as metres.
     """
-    if crs.is_projected and metres_per_unit(crs) == 1.0 and abs(scale_error) <= MAX_SCALE_ERROR:
-        return crs
+    if crs.is_projected and abs(scale_error) <= MAX_SCALE_ERROR:
+        return crs if metres_per_unit(crs) == 1.0 else in_metres(crs)
     from pyproj.aoi import AreaOfInterest
     from pyproj.database import query_utm_crs_info
 
     aoi = AreaOfInterest(lon, lat, lon, lat)
-    datum = crs.datum.name if crs.datum is not None else "WGS 84"
-    for name in (datum, "WGS 84"):
+    geodetic = crs.geodetic_crs
+    # The database knows a datum by its short name ("NAD83"), not always by its
+    # long one ("North American Datum 1983"): try both, then WGS 84.
+    tried = [geodetic.name if geodetic is not None else None,
+             crs.datum.name if crs.datum is not None else None, "WGS 84"]
+    for name in dict.fromkeys(n for n in tried if n):
         try:
             infos = query_utm_crs_info(datum_name=name, area_of_interest=aoi)
         except Exception:  # unknown datum name in the database
@@ -301,6 +305,22 @@ def working_crs(crs: pyproj.CRS, lon: float, lat: float, scale_error: float = 0.
             return pyproj.CRS.from_authority(infos[0].auth_name, infos[0].code)
     zone = int((lon + 180.0) // 6.0) % 60 + 1
     return pyproj.CRS.from_epsg((32600 if lat >= 0 else 32700) + zone)
+
+
+def in_metres(crs: pyproj.CRS) -> pyproj.CRS:
+    """The projected ``crs`` (e.g. a State Plane zone in US survey feet) with its
+    axes in metres: the same datum, projection and grid, coordinates x 0.3048...
+
+    >>> m = in_metres(pyproj.CRS("EPSG:2229"))
+    >>> metres_per_unit(m), m.datum.name
+    (1.0, 'North American Datum 1983')
+    """
+    doc = crs.to_json_dict()
+    for axis in doc["coordinate_system"]["axis"]:
+        axis["unit"] = "metre"
+    doc.pop("id", None)
+    doc["name"] = f"{doc['name']} (metres)"
+    return pyproj.CRS.from_json_dict(doc)
 
 
 def merge_parts(geom, key: str, file: str, distance=None, unit="CRS units") -> LineString:
@@ -367,6 +387,10 @@ def align_frame(gdf, name: str, *, reverse=False, start_station=0.0,
     :func:`read_alignment` after the reading, and each route of a
     ``routes`` run."""
     path = Path(name)
+    kinds = sorted(set(gdf.geom_type) - {"LineString", "MultiLineString"})
+    if kinds:
+        raise InputError(f"{key}: {path.name} holds {kinds[0]} features; the centerline must be "
+                         "a line (LineString)")
     notes = []
     geom = gdf.geometry.iloc[0]
     if len(gdf) > 1:  # joined in feature order: the first feature's free end is the start
@@ -418,6 +442,7 @@ def align_frame(gdf, name: str, *, reverse=False, start_station=0.0,
         raise InputError(f"{key}: {path.name}: coordinates do not transform to {work.name}")
     line = LineString(coords)
     length = float(line.length)
+    check_route_shape(coords, key, path.name)
     from .display import token
 
     notes.append(  # quantities as tokens: the summary shows them in the reader's units
@@ -427,8 +452,56 @@ def align_frame(gdf, name: str, *, reverse=False, start_station=0.0,
     return Alignment(line, work, src, length, geodesic, start_station, tuple(notes))
 
 
+#: Cosine of the turn beyond which a vertex turns back on the line (a spike, a retraced leg).
+_BACK = math.cos(math.radians(170.0))
+
+
+def check_route_shape(coords: np.ndarray, key: str, file: str) -> None:
+    """Refuse a centerline that closes into a ring, turns back on itself (a
+    spike or a retraced leg: a vertex turning more than 170 deg) or crosses
+    itself (a loop): a main runs from one end to the other once.
+
+    >>> check_route_shape(np.array([[0.0, 0], [10, 0], [10, 10], [0, 10], [0, 0]]), "k", "f")
+    Traceback (most recent call last):
+    ...
+    gisgrade.errors.InputError: k: f: the centerline closes into a ring (it ends where it starts); a main runs from one end to the other
+    """
+    seg = np.diff(coords, axis=0)
+    size = float(np.hypot(*seg.T).sum())
+    if np.hypot(*(coords[-1] - coords[0])) <= 1e-6 * max(size, 1.0):
+        raise InputError(f"{key}: {file}: the centerline closes into a ring (it ends where it "
+                         "starts); a main runs from one end to the other")
+    seg = seg[np.hypot(*seg.T) > 0]
+    if len(seg) >= 2:
+        a, b = seg[:-1], seg[1:]
+        cos = (a * b).sum(axis=1) / (np.hypot(*a.T) * np.hypot(*b.T))
+        back = np.flatnonzero(cos < _BACK)
+        if back.size:
+            x, y = coords[1:][back[0]] if len(seg) == len(coords) - 1 else (np.nan, np.nan)
+            raise InputError(f"{key}: {file}: the centerline turns back on itself at "
+                             f"({x:.2f}, {y:.2f}) (a spike or a retraced leg); draw it once, "
+                             "from one end to the other")
+    line = LineString(coords)
+    if not line.is_simple:
+        import shapely.ops
+
+        pieces = shapely.get_parts(shapely.ops.unary_union(line))
+        ends = shapely.get_coordinates(shapely.boundary(pieces))
+        counts = {}
+        for x, y in map(tuple, np.round(ends, 6)):
+            counts[(x, y)] = counts.get((x, y), 0) + 1
+        at = next(((x, y) for (x, y), n in counts.items()
+                   if n > 2 and (x, y) not in {tuple(np.round(coords[0], 6)), tuple(np.round(coords[-1], 6))}),
+                  None)
+        where = f" at ({at[0]:.2f}, {at[1]:.2f})" if at else ""
+        raise InputError(f"{key}: {file}: the centerline crosses or runs over itself{where} (a "
+                         "loop or a retraced stretch); draw it once, from one end to the other")
+
+
 def _field_values(gdf, cfg_key: str, field: str | None, factor: float, path: Path):
-    """A numeric attribute as metres (nan where absent), errors naming the key."""
+    """A numeric attribute as metres (nan where absent), errors naming the key:
+    a value of the wrong kind (true/false, text such as "3.0 m") is refused
+    with its feature, never read as 1 or as missing."""
     if field is None:
         return np.full(len(gdf), np.nan)
     if field not in gdf.columns:
@@ -436,8 +509,26 @@ def _field_values(gdf, cfg_key: str, field: str | None, factor: float, path: Pat
         raise InputError(f"{cfg_key} = {field!r}: no such attribute in {path.name} (has {have})")
     import pandas as pd
 
-    values = pd.to_numeric(gdf[field], errors="coerce").to_numpy(dtype=float)
+    column = gdf[field]
+    given = column.notna().to_numpy()
+    kinds = np.array([isinstance(v, (bool, np.bool_)) for v in column], dtype=bool)
+    if pd.api.types.is_bool_dtype(column) or kinds.any():
+        i = int(np.flatnonzero(kinds)[0]) if kinds.any() else 0
+        raise InputError(f"{cfg_key} = {field!r}: feature {i} of {path.name} holds "
+                         f"{_shown(column.iloc[i])}, a true/false value, not a number")
+    values = pd.to_numeric(column, errors="coerce").to_numpy(dtype=float)
+    bad = np.flatnonzero(given & np.isnan(values))
+    if bad.size:
+        i = int(bad[0])
+        raise InputError(f"{cfg_key} = {field!r}: feature {i} of {path.name} holds "
+                         f"{_shown(column.iloc[i])}, not a number; give numbers in the attribute "
+                         "and their unit in field_unit")
     return values * factor
+
+
+def path_name(path: Path, i: int) -> str:
+    """``feature i of FILE``, for messages."""
+    return f"feature {i} of {path.name}"
 
 
 def _shown(value) -> str:
@@ -486,6 +577,12 @@ def locate_crossings(alignment: Alignment, layers, vertical_factor: float = 1.0)
         for i, hit in enumerate(hits):
             if hit.is_empty:
                 continue
+            along = sum(g.length for g in shapely.get_parts(hit) if g.geom_type == "LineString")
+            if along > 1e-3:
+                name = gdf["name"].iloc[i] if "name" in gdf.columns else f"feature {i}"
+                raise InputError(f"{cfg.key}: {name} ({path_name(cfg.path, i)}) runs along the "
+                                 f"centerline for {along:.1f} m instead of crossing it; a crossed "
+                                 "feature must cross the line")
             points = shapely.get_parts(shapely.extract_unique_points(hit))
             if len(points) == 0:
                 continue

@@ -26,6 +26,7 @@ from .operations import stage_operations
 from .pipe import stage_pipe
 from .project import Project, load
 from .result import Result, resolve_outdir
+from .screening import enforce, screen
 from .terrain import stage_terrain
 
 __all__ = ["compute", "compute_ground", "run", "run_ground", "resolve_outdir", "stage_alignment",
@@ -84,6 +85,7 @@ def _compute(project, progress, frame=None) -> Result:
         line, crossings, table = stage_alignment(project, frame)
     with clock("terrain"):
         table, notes = stage_terrain(project, line, table)
+        enforce(screen(project, line, crossings, table))
     with clock("pipe"):
         table = stage_pipe(project, table)
     with clock("design"):
@@ -121,6 +123,7 @@ def _compute_ground(project, progress) -> Result:
         line, crossings, table = stage_alignment(project)
     with clock("terrain"):
         table, notes = stage_terrain(project, line, table)
+        enforce(screen(project, line, crossings, table))
         # a feature given by its depth below ground has its bottom once the ground is known
         st, gr = table["station_m"].to_numpy(), table["ground_m"].to_numpy()
         crossings = crossings.resolve(lambda x: np.interp(x, st, gr))

@@ -33,6 +33,14 @@ QUANTITIES = ("length", "flow", "velocity", "pressure", "temperature", "angle", 
               "volume", "time", "per_energy", "per_length", "mass_per_energy")
 FRICTION_METHODS = ("darcy-weisbach", "hazen-williams")
 BOUNDARIES = ("source-head", "two-heads", "min-pressure")
+#: The largest station magnitude taken (m): a quarter of the Earth's circumference.
+MAX_STATION = 1.0e7
+#: Shortest and longest pipe joint taken (m; common practice: 6-13 m joints, 20 m strings).
+JOINT_LENGTH_RANGE = (1.0, 50.0)
+#: Hazen-Williams C outside this range cannot be a pipe (common practice: 60-150 in service).
+HW_C_RANGE = (20.0, 200.0)
+#: Least cover beyond this along the whole line is refused (m; common practice: 0.8-2 m).
+MAX_MIN_COVER = 10.0
 
 
 def key(kind: str, doc: str, default=MISSING, shown=None, *, toml=None, choices=(),
@@ -79,6 +87,9 @@ class AlignmentConfig:
         if self.where is not None and self.feature is not None:
             raise InputError(f"{t.file.name}: {t.key('where')} and {t.key('feature')} both pick "
                              "the route; give one of them (an attribute filter or a feature id)")
+        if abs(self.start_station) > MAX_STATION:
+            raise InputError(f"{t.say('start_station')}: beyond any real line (more than "
+                             f"{MAX_STATION / 1e3:.0f} km); give the station of the first point")
         return self
 
 
@@ -166,6 +177,13 @@ def _pipe_data(cfg, t: _Table):
         raise InputError(f"{t.say('outside_diameter')}: smaller than {t.say('inside_diameter')}")
     if cfg.poisson_ratio is not None and cfg.poisson_ratio >= 0.5:
         raise InputError(f"{t.say('poisson_ratio')}: must be below 0.5")
+    c = cfg.hazen_williams_c
+    if c is not None and not HW_C_RANGE[0] <= c <= HW_C_RANGE[1]:
+        raise InputError(f"{t.say('hazen_williams_c')}: outside {HW_C_RANGE[0]:g}-"
+                         f"{HW_C_RANGE[1]:g}, not a pipe (60-150 is usual)")
+    if cfg.roughness is not None and inside is not None and cfg.roughness >= inside:
+        raise InputError(f"{t.say('roughness')}: at or above {t.key('inside_diameter')}; absolute "
+                         "roughness is the wall's bumps (0.0015-3 mm), not a size")
     if cfg.material is None:
         return cfg
     from .hydraulics.materials import material
@@ -264,6 +282,10 @@ class CoverConfig:
     def _rules(self, t: _Table) -> CoverConfig:
         if self.maximum is not None and self.maximum < self.minimum:
             raise InputError(f"{t.say('maximum')}: less than {t.say('minimum')}")
+        if self.minimum > MAX_MIN_COVER:
+            raise InputError(f"{t.say('minimum')}: more than {MAX_MIN_COVER:g} m of cover along "
+                             "the whole line is a tunnel, not a trench (a unit slip? \"1.2 m\", "
+                             "\"4 ft\"); deep stretches go in [[cover_zones]]")
         return self
 
 
@@ -319,9 +341,9 @@ class DesignConfig:
     bend_angles: tuple = key("angles", "the standard bend fittings",
                              tuple(math.radians(a) for a in (11.25, 22.5, 45.0, 90.0)),
                              ["11.25 deg", "22.5 deg", "45 deg", "90 deg"])
-    min_grade: float | None = key("dimensionless>0", "least grade, so air moves to the high "
-                                  "points", None)
-    max_grade: float | None = key("dimensionless>0", "steepest grade (never above 45 deg)", None)
+    min_grade: float | None = key("grade>0", "least grade, so air moves to the high points "
+                                  "(with its unit: \"0.1 %\", \"0.001 m/m\")", None)
+    max_grade: float | None = key("grade>0", "steepest grade (never above 45 deg)", None)
     trench_width: float | None = key("length>0", "trench width (default: outside diameter + "
                                      "0.6 m)", None)
     grade_break_cost: float = key("volume>=0", "excavation a grade break of 1 % must save "
@@ -333,6 +355,12 @@ class DesignConfig:
                               "fitting is used", 3.0, 3)
 
     def _rules(self, t: _Table) -> DesignConfig:
+        lo, hi = JOINT_LENGTH_RANGE
+        if "joint_length" in t.raw and not lo <= self.joint_length <= hi:
+            raise InputError(f"{t.say('joint_length')}: a pipe joint is {lo:g}-{hi:g} m long "
+                             "(6 m is usual)")
+        if self.curve_joints != int(self.curve_joints) or self.curve_joints < 1:
+            raise InputError(f"{t.say('curve_joints')}: expected a whole number of joints (1 or more)")
         if self.max_joint_deflection > math.radians(15):
             raise InputError(f"{t.say('max_joint_deflection')}: more than 15 deg per joint is "
                              "not a pipe joint")
@@ -397,6 +425,15 @@ class ChecksConfig:
     max_velocity: float = key("velocity>=0", "upper end even in fire flow (common practice)", 3.0,
                               "3 m/s")
 
+    def _rules(self, t: _Table) -> ChecksConfig:
+        if self.min_pressure > self.max_pressure:
+            low = t.say("min_pressure") if "min_pressure" in t.raw else "checks.min_pressure (default 140 kPa)"
+            high = t.say("max_pressure") if "max_pressure" in t.raw else "checks.max_pressure (default 550 kPa)"
+            raise InputError(f"{t.file.name}: {low} is above {high}; no pressure could pass")
+        if self.min_velocity and self.max_velocity and self.min_velocity > self.max_velocity:
+            raise InputError(f"{t.say('min_velocity')}: above checks.max_velocity")
+        return self
+
 
 @dataclass(frozen=True)
 class ValvesConfig:
@@ -405,10 +442,8 @@ class ValvesConfig:
 
     interval: float = key("length>0", "longest run without an air valve (400-800 m is usual)",
                           500.0, "500 m")
-    grade_change: float = key("dimensionless>0", "a change of slope that needs a valve", 0.01,
-                              "1 %")
-    flat_grade: float = key("dimensionless>=0", "flatter runs are near-horizontal", 0.001,
-                            "0.1 %")
+    grade_change: float = key("grade>0", "a change of slope that needs a valve", 0.01, "1 %")
+    flat_grade: float = key("grade>=0", "flatter runs are near-horizontal", 0.001, "0.1 %")
     flat_run: float = key("length>0", "a near-horizontal run this long gets valves at both ends",
                           100.0, "100 m")
     hgl_margin: float = key("length>=0", "the HGL this close above the pipe needs an air-vacuum "
@@ -456,6 +491,9 @@ class PressureElementConfig:
             raise InputError(f"{t.key(extra[0])}: not used with {t.key('kind')} = {self.kind!r}")
         if self.kind == "prv" and self.setting is None:
             raise t.missing("setting")
+        if self.setting is not None and self.setting < 0:
+            raise InputError(f"{t.say('setting')}: below atmospheric; a {self.kind} setting is a "
+                             "gauge pressure above zero")
         if self.kind == "booster" and len(given) != 1:
             raise InputError(f"{t.file.name}: {t.name} needs exactly one of {t.key('head')} (a "
                              f"fixed head) or {t.key('setting')} (a pressure to keep)")
@@ -483,6 +521,9 @@ class EnergyConfig:
     def _rules(self, t: _Table) -> EnergyConfig:
         if self.efficiency > 1:
             raise InputError(f"{t.say('efficiency')}: more than 100 %")
+        if self.discount_rate is not None and self.discount_rate > 1:
+            raise InputError(f"{t.say('discount_rate')}: more than 100 % a year (a bare number is "
+                             "a fraction: 5 % is \"5 %\" or 0.05)")
         return self
 
 
@@ -506,6 +547,8 @@ class SizeCandidateConfig:
     def _rules(self, t: _Table) -> SizeCandidateConfig:
         if self.outside_diameter is not None and self.outside_diameter < self.inside_diameter:
             raise InputError(f"{t.say('outside_diameter')}: smaller than {t.say('inside_diameter')}")
+        if self.roughness is not None and self.roughness >= self.inside_diameter:
+            raise InputError(f"{t.say('roughness')}: at or above {t.key('inside_diameter')}")
         return self
 
 
@@ -651,11 +694,15 @@ class Project:
 # --------------------------------------------------------------------------
 
 
-def load(path, *, ground_only: bool = False) -> Project:
+def load(path, *, ground_only: bool = False, problems: list | None = None) -> Project | None:
     """Read and check a project file; every error names the file and key.
 
     With ``ground_only`` (the ``profile`` command) the pipe, cover and
     hydraulics sections may be absent; if present they are still checked.
+    With a list ``problems`` (``gisgrade check``), every problem is appended
+    to it as an InputError instead of the first being raised: each bad key,
+    each table's rules and unknown keys; returns None when the project
+    cannot be built.
 
     >>> load("no-such-project.toml")
     Traceback (most recent call last):
@@ -663,37 +710,100 @@ def load(path, *, ground_only: bool = False) -> Project:
     gisgrade.errors.InputError: no-such-project.toml: project file not found
     """
     file = Path(path)
-    if not file.is_file():
-        raise InputError(f"{file}: project file not found")
-    try:
-        with open(file, "rb") as fh:
-            data = tomllib.load(fh)
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(f"{file.name}: not valid TOML ({exc})") from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(f"{file.name}: cannot read ({exc})") from None
+    data = _read_toml(file)
     file = file.resolve()
     sections = {f.name: f.metadata for f in fields(Project) if "cls" in f.metadata}
-    unknown = [k for k in data if k not in sections]
-    if unknown:
-        raise InputError(f"{file.name}: unknown section [{unknown[0]}]"
-                         f"{names.suggest(unknown[0], sections)}")
-    project = Project(path=file, **{name: _read_section(m, data, name, file, ground_only)
-                                    for name, m in sections.items()})
-    _check_hydraulic_cases(project)
+    collect = _Collector(problems)
+    for k in data:
+        if k in sections:
+            continue
+        if not isinstance(data[k], (dict, list)):
+            owner = next((f"[{n}]" for n, m in sections.items()
+                          if k in [toml_name(f) for f in declared(m["cls"])]), "its table")
+            collect.add(InputError(f"{file.name}: key {k} = {data[k]!r} sits above the first "
+                                   f"[table], so it belongs to no section; move it under {owner}"))
+        else:
+            collect.add(InputError(f"{file.name}: unknown section [{k}]"
+                                   f"{names.suggest(k, sections)}"))
+    values = {}
+    for name, m in sections.items():
+        try:
+            values[name] = _read_section(m, data, name, file, ground_only, collect)
+        except (InputError, _Skip) as exc:
+            collect.add(exc)
+            values[name] = _Skip
+    if any(v is _Skip for v in values.values()) or collect.seen:
+        return None
+    project = Project(path=file, **values)
+    try:
+        _check_hydraulic_cases(project)
+    except InputError as exc:
+        collect.add(exc)
     return project
 
 
-def _read_section(m: dict, data: dict, name: str, file: Path, ground_only: bool):
+class _Skip(Exception):
+    """A table whose problems are already collected: leave it out."""
+
+
+class _Collector:
+    """Raises the first problem, or (given a list) gathers them all."""
+
+    def __init__(self, problems):
+        self.problems, self.seen = problems, 0
+
+    def add(self, exc):
+        if isinstance(exc, _Skip):
+            return
+        if self.problems is None:
+            raise exc
+        self.problems.append(exc)
+        self.seen += 1
+
+
+#: What a byte-order mark at the start of a file is.
+_BOM = b"\xef\xbb\xbf"
+
+
+def _read_toml(file: Path) -> dict:
+    """The TOML of ``file``; a byte-order mark or bad TOML said plainly."""
+    if not file.is_file():
+        raise InputError(f"{file}: project file not found")
+    try:
+        raw = file.read_bytes()
+    except OSError as exc:
+        raise InputError(f"{file.name}: cannot read ({exc})") from None
+    if raw.startswith(_BOM):
+        raise InputError(f"{file.name}: starts with a UTF-8 byte-order mark (BOM), which TOML does "
+                         "not allow; save the file as UTF-8 without BOM")
+    try:
+        return tomllib.loads(raw.decode("utf-8"))
+    except UnicodeDecodeError as exc:
+        raise InputError(f"{file.name}: not UTF-8 text (byte {exc.start}); save it as UTF-8") from None
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(f"{file.name}: not valid TOML ({exc})") from None
+
+
+def _read_section(m: dict, data: dict, name: str, file: Path, ground_only: bool, collect=None):
     """Section ``name`` of ``data``, a table or an array of tables (``m``: its field's metadata)."""
+    collect = collect or _Collector(None)
     if m["array"]:
         raw = data.get(name, [])
         raw = [raw] if isinstance(raw, dict) else raw
         if not isinstance(raw, list):
             raise InputError(f"{file.name}: [[{name}]] must be a list of tables")
-        return tuple(read_table(m["cls"], tab, f"{name}[{i}]", file) for i, tab in enumerate(raw))
+        out, bad = [], False
+        for i, tab in enumerate(raw):
+            try:
+                out.append(read_table(m["cls"], tab, f"{name}[{i}]", file, collect))
+            except (InputError, _Skip) as exc:
+                collect.add(exc)
+                bad = True
+        if bad:
+            raise _Skip()
+        return tuple(out)
     if name in data:
-        return read_table(m["cls"], data[name], name, file)
+        return read_table(m["cls"], data[name], name, file, collect)
     if m["need"] == "always" or (m["need"] == "run" and not ground_only):
         raise InputError(f"{file.name}: missing required section [{name}]")
     return None if m["need"] == "run" else m["cls"]()
@@ -733,29 +843,46 @@ def toml_name(f) -> str:
     return f.metadata["toml"] or f.name
 
 
-def read_table(cls, raw, name: str, file: Path):
+def read_table(cls, raw, name: str, file: Path, collect=None):
     """Read one TOML table ``raw`` (``name`` in messages) into ``cls`` from its
-    declared keys: each value checked and converted, then its rules."""
+    declared keys: each value checked and converted, then its rules.
+    ``collect`` (a :class:`_Collector` gathering every problem): each bad key
+    and unknown key is added to it, and the table left out."""
+    collect = collect or _Collector(None)
     if not isinstance(raw, dict):
         raise InputError(f"{file.name}: [{name}] must be a table of keys")
-    t, keys, values = _Table(raw, name, file), declared(cls, raw), {}
+    t, keys, values, bad = _Table(raw, name, file), declared(cls, raw), {}, 0
+    known = [toml_name(f) for f in keys]
     for f in keys:
-        if toml_name(f) in raw:
-            values[f.name] = _value(f.metadata, raw[toml_name(f)], t.key(toml_name(f)), file.parent)
-        elif f.metadata["required"]:
-            raise t.missing(toml_name(f))
+        try:
+            if toml_name(f) in raw:
+                values[f.name] = _value(f.metadata, raw[toml_name(f)], t.key(toml_name(f)),
+                                        file.parent)
+            elif f.metadata["required"]:
+                raise t.missing(toml_name(f))
+        except InputError as exc:
+            collect.add(exc)
+            bad += 1
+    if bad:
+        for k in sorted(set(raw) - set(known)):
+            collect.add(InputError(f"{file.name}: unknown key {t.key(k)}{names.suggest(k, known)}"))
+        raise _Skip()
     one_of = getattr(cls, "_one_of", None)
     if one_of and (one_of[0][0] in raw) == (one_of[1][0] in raw):
         (a, what_a), (b, what_b) = one_of
         raise InputError(f"{file.name}: {name} needs exactly one of {t.key(a)} ({what_a}) or "
                          f"{t.key(b)} ({what_b})")
     cfg = cls(**values, **({"key": name} if "key" in cls.__dataclass_fields__ else {}))
-    cfg = cfg._rules(t) if hasattr(cfg, "_rules") else cfg
-    known = [toml_name(f) for f in keys]
-    unknown = sorted(set(raw) - set(known))
-    if unknown:
-        raise InputError(f"{file.name}: unknown key {t.key(unknown[0])}"
-                         f"{names.suggest(unknown[0], known)}")
+    try:
+        cfg = cfg._rules(t) if hasattr(cfg, "_rules") else cfg
+    except InputError as exc:
+        collect.add(exc)
+        bad += 1
+    for k in sorted(set(raw) - set(known)):
+        collect.add(InputError(f"{file.name}: unknown key {t.key(k)}{names.suggest(k, known)}"))
+        bad += 1
+    if bad:
+        raise _Skip()
     return cfg
 
 
@@ -771,6 +898,8 @@ def _value(m: dict, value, key: str, base: Path):
     kind, sign = m["kind"], m["sign"]
     if kind in QUANTITIES:
         return _quantity(value, kind, key, sign)
+    if kind == "grade":
+        return _grade(value, key, sign)
     if kind == "number":
         if isinstance(value, bool) or not isinstance(value, (int, float)):
             raise InputError(f"{key} = {value!r}: expected a plain number")
@@ -804,6 +933,18 @@ def _quantity(value, kind: str, key: str, sign=None) -> float:
         raise InputError(f"{key} = {value!r}: must be greater than zero")
     if sign == ">=0" and out < 0:
         raise InputError(f"{key} = {value!r}: must not be negative")
+    return out
+
+
+def _grade(value, key: str, sign=None) -> float:
+    """A grade or slope with its unit ("0.5 %", "0.005 m/m", "2 percent"), as a
+    fraction, at most 100 % (a bare number is refused: 0.5 could mean 0.5 %)."""
+    if isinstance(value, bool) or not isinstance(value, str):
+        raise InputError(f"{key} = {value!r}: a grade needs its unit, e.g. {key} = \"0.5 %\" "
+                         "or \"0.005 m/m\" (a bare number could be a fraction or a percentage)")
+    out = _quantity(value, "dimensionless", key, sign)
+    if out > 1.0:
+        raise InputError(f"{key} = {value!r}: a grade above 100 % (45 deg) is not a pipe grade")
     return out
 
 
@@ -999,6 +1140,8 @@ def _value_schema(m: dict) -> dict:
     bound = {">0": {"exclusiveMinimum": 0}, ">=0": {"minimum": 0}}.get(sign, {})
     if kind == "dimensionless":  # a plain number, or a number and an optional unit ("0.1 %")
         return {**_quantity_schema(sign, "?"), "type": ["number", "string"], **bound}
+    if kind == "grade":  # a number and its unit ("0.1 %", "0.001 m/m")
+        return _quantity_schema(sign)
     if kind in QUANTITIES:
         return _quantity_schema(sign)
     if kind in ("number", "bool", "feature"):

@@ -66,6 +66,9 @@ def resolve_outdir(project, outdir=None) -> Path:
     """The output folder: ``outdir``, else ``[output] dir``, else
     ``gisgrade-out`` beside the project file."""
     if outdir is not None:
+        from .output.atomic import refuse_empty
+
+        refuse_empty(outdir)
         return Path(outdir)
     if project.output.dir is not None:
         return project.output.dir

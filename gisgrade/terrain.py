@@ -653,7 +653,14 @@ def sample_ground(
             todo = np.flatnonzero(np.isnan(z))
             if todo.size == 0:
                 continue
-            raw, inside = _sample_one(src, xd, yd, todo, method, path, key)
+            try:
+                raw, inside = _sample_one(src, xd, yd, todo, method, path, key)
+            except InputError:
+                raise
+            except Exception as exc:  # GDAL/rasterio read errors: a damaged or truncated file
+                raise InputError(f"{key}: DEM {str(path)!r} cannot be read along the line "
+                                 f"({first_line(exc)}); the file is damaged or truncated: "
+                                 "download or export it again") from None
             covered[todo[inside]] = True
             scale = float(src.scales[0]) if src.scales else 1.0
             offset = float(src.offsets[0]) if src.offsets else 0.0
@@ -684,7 +691,8 @@ def sample_ground(
             msgs = []
             if outside_any.any():
                 o_starts, o_ends = _runs(~covered)
-                msgs.append("outside every DEM at stations " + _fmt_ranges(station, o_starts, o_ends))
+                msgs.append("outside every DEM at stations " + _fmt_ranges(station, o_starts, o_ends)
+                            + where_line_lies(x, y, in_crs, dem_paths, all_out=not covered.any()))
             sel = ~outside_any & at_end
             if sel.any():
                 msgs.append(
@@ -705,6 +713,59 @@ def sample_ground(
         z[invalid] = np.interp(station[invalid], station[valid], z[valid])
         bridged = invalid
     return GroundProfile(z=z, bridged=bridged, source=source, max_gap=max_gap, cell_size=finest)
+
+
+def _box(x, y) -> str:
+    return (f"x {np.nanmin(x):.6g} to {np.nanmax(x):.6g}, y {np.nanmin(y):.6g} to "
+            f"{np.nanmax(y):.6g}")
+
+
+def _inside(x, y, b) -> float:
+    """Share of the points (x, y) inside the bounds ``b`` (left, bottom, right, top)."""
+    ok = (x >= b[0]) & (x <= b[2]) & (y >= b[1]) & (y <= b[3])
+    return float(np.mean(ok)) if len(ok) else 0.0
+
+
+def where_line_lies(x, y, crs, dem_paths, all_out: bool = True) -> str:
+    """Where the line (x, y in ``crs``) lies against the first DEM, in both CRSs,
+    and the likely cause when the whole line misses it: longitude and latitude
+    swapped, or coordinates of another UTM zone than the one the file states."""
+    import rasterio
+    from pyproj import CRS, Transformer
+
+    try:
+        with rasterio.open(dem_paths[0]) as src:
+            dem_crs, b = CRS.from_user_input(src.crs), tuple(src.bounds)
+    except Exception:
+        return ""
+    crs = CRS.from_user_input(crs)
+    to_dem = Transformer.from_crs(crs, dem_crs, always_xy=True)
+    back = Transformer.from_crs(dem_crs, crs, always_xy=True)
+    xd, yd = (np.asarray(v, dtype=float) for v in to_dem.transform(x, y, errcheck=False))
+    bx, by = back.transform([b[0], b[2], b[0], b[2]], [b[1], b[1], b[3], b[3]], errcheck=False)
+    text = (f" (the line lies at {_box(xd, yd)} in the DEM's {dem_crs.name}, {_box(x, y)} in "
+            f"{crs.name}; the DEM covers {_box([b[0], b[2]], [b[1], b[3]])}, that is "
+            f"{_box(bx, by)} in {crs.name})")
+    if not all_out:
+        return text
+    cause = ""
+    ll = CRS.from_epsg(4326)
+    lon, lat = Transformer.from_crs(crs, ll, always_xy=True).transform(x, y, errcheck=False)
+    swapped = Transformer.from_crs(ll, dem_crs, always_xy=True).transform(lat, lon, errcheck=False)
+    if _inside(np.asarray(swapped[0]), np.asarray(swapped[1]), b) > 0.5:
+        cause = "; likely cause: longitude and latitude swapped in the centerline file"
+    elif crs.utm_zone or getattr(crs, "utm_zone", None):
+        zone, north = int(crs.utm_zone[:-1]), crs.utm_zone[-1].upper() == "N"
+        for z in range(1, 61):
+            if z == zone:
+                continue
+            other = CRS.from_epsg((32600 if north else 32700) + z)
+            tx, ty = Transformer.from_crs(other, dem_crs, always_xy=True).transform(x, y, errcheck=False)
+            if _inside(np.asarray(tx), np.asarray(ty), b) > 0.5:
+                cause = (f"; likely cause: the coordinates are of UTM zone {z}{'N' if north else 'S'}"
+                         f", not zone {crs.utm_zone} as the file says")
+                break
+    return text + (cause or "; check the CRS the centerline file states")
 
 
 def accuracy_95(rmse: float) -> float:

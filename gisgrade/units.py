@@ -9,6 +9,7 @@ an :class:`~gisgrade.errors.InputError` naming the key.
 from __future__ import annotations
 
 import functools
+import re
 
 import pint
 
@@ -86,8 +87,10 @@ def example(kind: str, key: str) -> str:
 def registry() -> pint.UnitRegistry:
     """The package's unit registry, with a few trade units pint lacks."""
     ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
-    ureg.define("gallon_per_minute = gallon / minute = gpm")
+    ureg.define("gallon_per_minute = gallon / minute = gpm = GPM")
     ureg.define("million_gallons_per_day = 1e6 gallon / day = mgd = MGD")
+    ureg.define("cubic_foot_per_second = foot ** 3 / second = cfs = CFS")
+    ureg.define("litre_per_second_ = liter / second = lps = LPS")
     ureg.define("megalitre_per_day = megaliter / day = MLD = MLd")
     ureg.define("cubic_metre_ = meter ** 3 = m3")  # the trade writes volumes m3, yd3, ft3
     ureg.define("cubic_yard_ = yard ** 3 = yd3")
@@ -95,16 +98,51 @@ def registry() -> pint.UnitRegistry:
     return ureg
 
 
+#: Spellings offered in the hint for an unknown unit, per dimension.
+SPELLINGS = {
+    "length": ("m", "mm", "cm", "km", "ft", "in", "yd", "mi"),
+    "flow": ("L/s", "m3/s", "m3/h", "L/min", "gpm", "cfs", "MGD", "MLD"),
+    "velocity": ("m/s", "ft/s"),
+    "pressure": ("kPa", "MPa", "bar", "psi", "Pa"),
+    "temperature": ("degC", "degF", "K"),
+    "angle": ("deg", "rad"),
+    "dimensionless": ("%", "m/m", "percent"),
+    "volume": ("m3", "L", "ft3", "yd3", "gallon"),
+    "time": ("s", "min", "h", "day", "year"),
+}
+
+#: A temperature written with the bare letter of its scale ("60 F" is 60 farad to pint).
+_SCALES = {"F": "degF", "C": "degC", "°F": "degF", "°C": "degC"}
+
+_LEADING = re.compile(r"^\s*[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?")
+
+
+def _split(text: str) -> tuple[str, str]:
+    """(number, unit) of a quantity string ("300 mm" -> ("300", "mm")); ("", text) if it
+    does not start with a number."""
+    m = _LEADING.match(text)
+    return (m.group(0).strip(), text[m.end():].strip()) if m else ("", text.strip())
+
+
 def parse_quantity(value, kind: str, key: str) -> float:
     """Read ``value`` (a quantity string) as ``kind`` and return it in SI.
 
     ``kind`` is one of :data:`SI_UNITS`. ``key`` names the project-file key
-    for the error message, e.g. ``"pipe.inside_diameter"``.
+    for the error message, e.g. ``"pipe.inside_diameter"``. The number must
+    come first and the unit after it, with nothing else ("300 mm 5" is
+    refused, not read as 1.5 m); an angle needs its unit (a bare number
+    would be radians), and so does a fraction written as text ("0.5" as a
+    string: write 0.5 or "50 %"). "60 F" is a temperature in degF, and
+    "cfs", "GPM", "gpm", "MGD", "L/s", "lps" are flows.
 
     >>> parse_quantity("300 mm", "length", "pipe.inside_diameter")
     0.3
     >>> round(parse_quantity("15 degC", "temperature", "hydraulics.temperature"), 2)
     288.15
+    >>> round(parse_quantity("60 F", "temperature", "hydraulics.temperature"), 3)
+    288.706
+    >>> round(parse_quantity("1 cfs", "flow", "hydraulics.flow"), 6)
+    0.028317
     """
     example_ = example(kind, key)
     if isinstance(value, bool) or not isinstance(value, str):
@@ -114,20 +152,53 @@ def parse_quantity(value, kind: str, key: str) -> float:
             f"{key} = {value!r}: give a quantity with units as a string, e.g. {key} = {example_}"
         )
     ureg = registry()
+    number, unit = _split(value)
+    if kind == "temperature" and unit in _SCALES:
+        unit = _SCALES[unit]
+    text = f"{number} {unit}".strip()
+    if number and unit:
+        try:
+            rest = ureg.parse_expression(unit)
+        except Exception:
+            rest = None
+        if isinstance(rest, ureg.Quantity) and rest.magnitude != 1:
+            raise InputError(f"{key} = {value!r}: something follows the unit (a number "
+                             f"{rest.magnitude:g} in {unit!r}); give one number and its unit, "
+                             f"e.g. {example_}")
     try:
-        q = ureg.Quantity(value.strip())
+        q = ureg.Quantity(text)
+    except pint.UndefinedUnitError as exc:
+        known = SPELLINGS.get(kind, ())
+        from .names import suggest
+
+        hint = suggest(unit, known) or (f" (known: {', '.join(known)})" if known else "")
+        if kind == "temperature" and unit.lower() in ("f", "c"):
+            hint = " (did you mean 'degF' or 'degC'?)"
+        raise InputError(f"{key} = {value!r}: unknown unit {unit!r}{hint}") from None
     except Exception as exc:  # pint raises many kinds on malformed text
         raise InputError(f"{key} = {value!r}: cannot read it as a quantity ({first_line(exc)})") from None
     if not isinstance(q, ureg.Quantity):
         q = ureg.Quantity(q)
+    if not unit and kind == "angle":
+        raise InputError(f"{key} = {value!r}: a unit is required, e.g. {key} = {example_} (a bare "
+                         "number would be read as radians)")
+    if not unit and kind == "dimensionless":
+        raise InputError(f"{key} = {value!r}: a number in quotes needs a unit, e.g. {example_}; "
+                         f"or write it unquoted as a fraction ({key} = {number or value})")
+    if q.dimensionless and kind not in ("angle", "dimensionless") and unit:
+        raise InputError(f"{key} = {value!r}: expected a {kind} (e.g. {example_}); {unit!r} is "
+                         "an angle or a plain ratio, not a unit of it")
     if q.dimensionless and kind not in ("angle", "dimensionless"):
         raise InputError(
             f"{key} = {value!r}: a unit is required, e.g. {key} = {example_}"
         )
     want = _DIMENSIONALITY[kind]
     if want and not q.check(want):
+        hint = (" ('F' is farad: did you mean 'degF'?)" if kind == "temperature"
+                and q.check("[current] ** 2 * [time] ** 4 / [mass] / [length] ** 2") else "")
         raise InputError(
-            f"{key} = {value!r}: expected a {kind} (e.g. {example_}), got units of {q.dimensionality}"
+            f"{key} = {value!r}: expected a {kind} (e.g. {example_}), got units of "
+            f"{q.dimensionality}{hint}"
         )
     if kind in ("angle", "dimensionless"):
         if not q.dimensionless:

@@ -137,20 +137,24 @@ def test_a_feature_crossed_twice_and_a_crossing_at_a_vertex(tmp_path):
     assert at_vertex & al.VERTEX and at_vertex & al.CROSSING  # one station, both kinds
 
 
-@pytest.mark.parametrize("epsg, why", [
-    (2227, "US survey foot"),   # California zone 3, ftUS (EPSG registry)
-    (3857, "stretches"),        # Web Mercator: scale 1/cos(lat), ~1.37 at 43 N
+@pytest.mark.parametrize("epsg, why, working", [
+    # California zone 3, ftUS: the same zone in metres, NAD83 / California zone 3 (EPSG:26943)
+    (2227, "US survey foot", (26943,)),
+    (3857, "stretches", (26910, 32610)),  # Web Mercator: scale 1/cos(lat), ~1.37 at 43 N: UTM 10N
 ])
-def test_projected_lines_not_in_true_metres_are_stationed_in_utm(tmp_path, epsg, why):
+def test_projected_lines_not_in_true_metres_are_stationed_in_metres(tmp_path, epsg, why, working):
     # Reference: pyproj.Geod (Karney 2013). The same ground line, given in a
-    # feet CRS or in Web Mercator, must get the same metres of stationing.
+    # feet CRS or in Web Mercator, must get the same metres of stationing; a
+    # State Plane line in feet keeps its own zone and datum, in metres (the
+    # EPSG registry's metre twin of the zone is what pyproj identifies).
     lonlat = np.array([(-122.30, 37.80), (-122.25, 37.82), (-122.20, 37.81)])
     to = pyproj.Transformer.from_crs("EPSG:4326", f"EPSG:{epsg}", always_xy=True)
     xy = np.column_stack(to.transform(lonlat[:, 0], lonlat[:, 1]))
     path = write_lines(tmp_path / "l.geojson", [xy.tolist()], crs=f"EPSG:{epsg}")
     line = al.read_alignment(path)
     geod = pyproj.Geod(ellps="GRS80").line_length(lonlat[:, 0], lonlat[:, 1])
-    assert line.crs.to_epsg() in (26910, 32610)  # UTM zone 10N holds 122.3 W
+    assert line.crs.to_epsg() in working
+    assert al.metres_per_unit(line.crs) == 1.0
     assert line.length == pytest.approx(geod, rel=1e-3)
     assert any(why in n for n in line.notes)
 
@@ -184,3 +188,24 @@ def test_utm_fallback_beyond_the_database_zones(lon, lat):
     # and the zone's central meridian (PROJ's own parameters) is within 3 deg of the line
     cm = {p.name: p.value for p in crs.coordinate_operation.params}["Longitude of natural origin"]
     assert abs(lon - cm) <= 3.0
+
+
+def test_a_nad83_line_keeps_its_datum_in_the_working_crs(tmp_path):
+    # A line in NAD83 longitude/latitude (EPSG:4269) and one in NAD83 Web-Mercator-like
+    # stretch both go to a NAD83 UTM zone (EPSG:26910, the EPSG registry), not WGS 84.
+    lonlat = [(-122.30, 37.80), (-122.25, 37.82)]
+    path = write_lines(tmp_path / "g.geojson", [lonlat], crs="EPSG:4269")
+    line = al.read_alignment(path)
+    assert line.crs.to_epsg() == 26910 and "1983" in line.crs.datum.name
+
+
+@pytest.mark.parametrize("coords, words", [
+    ([(0, 0), (100, 0), (100, 100), (0, 100), (0, 0)], "closes into a ring"),
+    ([(0, 0), (100, 0), (50, 0.1), (200, 0)], "turns back on itself"),  # a spike
+    ([(0, 0), (100, 0), (100, 50), (50, 50), (50, -50), (200, -50)], "crosses or runs over itself"),
+])
+def test_routes_that_cross_retrace_or_close_are_refused(tmp_path, coords, words):
+    # Exact plane geometry: each shape is drawn so that the named fault is the first one met.
+    path = write_lines(tmp_path / "l.geojson", [[(500000.0 + x, 4649000.0 + y) for x, y in coords]])
+    with pytest.raises(InputError, match=words):
+        al.read_alignment(path)

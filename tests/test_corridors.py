@@ -319,7 +319,7 @@ def test_cli_writes_the_candidates(tmp_path, capsys):
     assert run_cli(["corridors", str(tmp_path / "project.toml"), "--from", "%f,%f" % a,
                     "--to", "%f,%f" % b, "--crs", UTM, "-o", str(tmp_path / "out")]) == 0
     assert {f.name for f in (tmp_path / "out").iterdir()} == {
-        "candidates.gpkg", "cost.tif", "corridors.png", "corridors.csv"}
+        "candidates.gpkg", "cost.tif", "corridors.png", "corridors.csv", "MANIFEST.json"}
     assert "C1:" in capsys.readouterr().out
 
 

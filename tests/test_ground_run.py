@@ -85,7 +85,8 @@ def test_profile_command_writes_ground_outputs(routes):
     assert main(["profile", str(project(routes, "feature = 2")), "-o", str(out), "-q"]) == 0
     assert {p.name for p in out.iterdir()} == {"profile.csv", "layers.gpkg", "profile.png",
                                                "summary.json", "summary.txt", "geojson",
-                                               "layers.kml", "styles", "map.png", "report.html"}
+                                               "layers.kml", "styles", "map.png", "report.html",
+                                               "MANIFEST.json"}
     prof = pd.read_csv(out / "profile.csv")
     assert prof["station"].iloc[1] == "0+025.00"
     summary = json.loads((out / "summary.json").read_text())

@@ -109,7 +109,8 @@ def test_a_new_writer_is_one_registered_function(tmp_path):
 
 def test_findings_table_order_follows_the_scopes(tmp_path):
     # the laid pipe first, then each scenario in turn, then the design rules
-    r = gisgrade.compute(flat_site(tmp_path, '\n[checks]\nmax_pressure = "100 kPa"\n'))
+    r = gisgrade.compute(flat_site(tmp_path, '\n[checks]\nmin_pressure = "50 kPa"\n'
+                                           'max_pressure = "100 kPa"\n'))
     scen = [s for s in r.findings["scenario"] if s != "design"]
     assert scen == sorted(scen, key=r.grades.names.index)
 

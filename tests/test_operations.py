@@ -402,7 +402,7 @@ def test_a_bigger_pipe_loses_less_head_and_energy(tmp_path):
         axis_end = float(r.table["axis_m"].iloc[-1])
         pump = r.summary["energy"][0]
         assert pump["pump_head_m"] == pytest.approx(
-            axis_end + 140e3 / (rho * G) + loss - 100.0, rel=2e-3)
+            axis_end + 140e3 / (rho * G) + loss - 100.0, rel=1e-4)  # 1.8e-5 measured
         kwh = rho * G * 0.05 * pump["pump_head_m"] / 0.7 * 8760 / 1e3
         assert pump["annual_energy_kwh"] == pytest.approx(kwh, rel=1e-6)
         assert r.summary["energy_year"]["annual_cost"] == pytest.approx(0.2 * kwh, rel=1e-6)

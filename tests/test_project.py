@@ -168,7 +168,7 @@ FULL = {
                    "width": "2 m", "field_unit": "ft", "layer": "c"},
                   {"path": "line.geojson", "depth_field": "d", "clearance": "18 in"}],
     "design": [{"joint_length": "5.5 m", "max_joint_deflection": "4 deg",
-                "bend_angles": ["45 deg", "90 deg"], "min_grade": "0.1 %", "max_grade": 0.25,
+                "bend_angles": ["45 deg", "90 deg"], "min_grade": "0.1 %", "max_grade": "25 %",
                 "trench_width": "0.9 m", "grade_break_cost": "5 m3", "high_point_tolerance": "0.5 m",
                 "curve_joints": 2}],
     "valves": [{"interval": "0.25 mi", "grade_change": "2 %", "flat_grade": "0.2 %",
@@ -372,8 +372,9 @@ def test_defaults_round_trip():
             shown = prop[pj.toml_name(f)].get("default", MISSING)
             if f.default in (None, MISSING):
                 assert shown is MISSING, (name, f.name)
-            elif kind in pj.QUANTITIES:
-                assert parse_quantity(shown, kind, f.name) == pytest.approx(f.default, rel=1e-15)
+            elif kind in pj.QUANTITIES or kind == "grade":
+                unit_kind = "dimensionless" if kind == "grade" else kind
+                assert parse_quantity(shown, unit_kind, f.name) == pytest.approx(f.default, rel=1e-15)
             elif kind == "angles":
                 back = tuple(sorted(parse_quantity(a, "angle", f.name) for a in shown))
                 assert back == pytest.approx(f.default, rel=1e-15)

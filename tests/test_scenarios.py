@@ -104,7 +104,7 @@ def test_two_heads_tank_to_tank_matches_energy_balance_and_both_heads(flat_proje
         return (k_in + f * L / D + k_out) * V * V / (2 * G) - 10.0
 
     q_ref = brentq(balance, 1e-6, 1.0, xtol=1e-14)
-    assert q == pytest.approx(q_ref, rel=2e-3)  # our water correlations vs IAPWS: < 0.2 %
+    assert q == pytest.approx(q_ref, rel=1e-4)  # our water correlations vs IAPWS: 2.7e-5 measured
     # Both heads to 1 mm (issue 5): the EGL leaving the source is the tank level less the
     # entrance loss; after the exit loss the EGL is the receiving tank's level.
     v0 = g["velocity_m_s"].iloc[0]
@@ -203,7 +203,7 @@ def test_scenarios_scale_inflow_and_offtakes_and_static_is_always_last(flat_proj
         V = q / (math.pi * 0.09 / 4)
         f = fluids.friction.friction_factor(Re=rho * V * 0.3 / mu, eD=1e-4 / 0.3)
         slope = -np.diff(g["hgl_m"].to_numpy()[:50]) / 10.0
-        assert np.allclose(slope, f / 0.3 * V * V / (2 * G), rtol=2e-3)  # viscosity vs IAPWS
+        assert np.allclose(slope, f / 0.3 * V * V / (2 * G), rtol=4e-4)  # viscosity vs IAPWS: 1.3e-4 measured
 
 
 def test_offtakes_lower_the_friction_slope_downstream(flat_project):
@@ -223,7 +223,7 @@ def test_offtakes_lower_the_friction_slope_downstream(flat_project):
         f = fluids.friction.friction_factor(Re=rho * V * 0.3 / mu, eD=1e-4 / 0.3)
         expected.append(f / 0.3 * V * V / (2 * G))  # Darcy-Weisbach with fluids' f
     for part, e in zip(parts, expected):
-        assert np.allclose(part, e, rtol=2e-3)
+        assert np.allclose(part, e, rtol=3e-4)  # viscosity vs IAPWS: 9.5e-5 measured
     assert expected[0] > expected[1] > expected[2]
     # Junction rule: the HGL is continuous at an offtake (common practice of network analysis).
     i = int(np.flatnonzero(s == 300.0)[0])

@@ -1,7 +1,8 @@
 """Command line: a thin layer over the stages (:mod:`gisgrade.pipeline`).
 
 One module per command (:data:`COMMANDS`), each a click command with a
-runnable example. ``-v`` shows each stage's time (``-vv`` more), ``-q``
+runnable example. ``-v`` shows each stage's time (writing too), ``-vv`` adds
+each writer's time and the libraries' warnings and log records, ``-q``
 prints nothing on success; a progress bar shows on a terminal only. Exit
 status 0 on success, 2 on bad input (one line naming the file, key or
 value; no traceback; nothing written).
@@ -33,6 +34,7 @@ low, too high or below atmospheric. It writes tables (CSV), map layers
 examples:
   gisgrade demo -o demo-out          run the bundled invented scenario
   gisgrade run project.toml -o out   run your own project file
+  gisgrade check project.toml        every problem of a project file at once, nothing written
   gisgrade profile project.toml      the ground profile alone (no pipe data needed)
   gisgrade routes project.toml -o out   every route of the centerline layer, on Dask
   gisgrade sizes project.toml --candidates "250 mm, 300 mm"   compare pipe sizes
@@ -41,7 +43,7 @@ examples:
 """
 
 #: The command modules, each defining ``command`` (a click command).
-COMMANDS = ("run", "profile", "routes", "demo", "sizes", "corridors", "schema")
+COMMANDS = ("run", "check", "profile", "routes", "demo", "sizes", "corridors", "schema")
 
 
 def caution_help(text: str, example: str) -> str:
@@ -55,7 +57,7 @@ def verbosity(fn):
     accepted before the command (``gisgrade -v run``) or after it."""
     fn = click.option("-q", "--quiet", is_flag=True, help="print nothing on success")(fn)
     return click.option("-v", "--verbose", count=True,
-                        help="show each stage's time (-vv: more detail)")(fn)
+                        help="show each stage's time (-vv: each writer's time and the libraries' warnings)")(fn)
 
 
 def setup_logging(verbose: int, quiet: bool) -> tuple[int, bool]:
@@ -68,12 +70,36 @@ def setup_logging(verbose: int, quiet: bool) -> tuple[int, bool]:
     level = logging.ERROR if quiet else (logging.WARNING, logging.INFO, logging.DEBUG)[min(verbose, 2)]
     log = logging.getLogger("gisgrade")
     log.handlers[:] = []
-    handler = logging.StreamHandler(sys.stderr)
+    handler = _Stderr()
     handler.setFormatter(logging.Formatter("gisgrade: %(message)s"))
     log.addHandler(handler)
     log.setLevel(level)
     log.propagate = False
+    # The libraries' own log records (GDAL through rasterio, pyogrio, ...) go to
+    # our handler at -vv only, never to Python's last-resort stderr handler.
+    for name in LIBRARY_LOGGERS:
+        lib = logging.getLogger(name)
+        lib.handlers[:] = [handler] if verbose >= 2 and not quiet else [logging.NullHandler()]
+        lib.setLevel(logging.DEBUG if verbose >= 2 else logging.CRITICAL)
+        lib.propagate = False
     return verbose, quiet
+
+
+#: Loggers of the libraries gisgrade calls.
+LIBRARY_LOGGERS = ("rasterio", "pyogrio", "fiona", "shapely", "geopandas", "pyproj", "matplotlib")
+
+
+class _Stderr(logging.StreamHandler):
+    """A handler writing to whatever ``sys.stderr`` is when a record comes
+    (never to a stream that was replaced and closed since)."""
+
+    @property
+    def stream(self):
+        return sys.stderr
+
+    @stream.setter
+    def stream(self, value):
+        pass
 
 
 class _Group(click.Group):

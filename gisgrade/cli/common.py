@@ -2,6 +2,7 @@
 contract, the progress bar, and the printed summary."""
 from __future__ import annotations
 
+import logging
 import sys
 import time
 
@@ -34,12 +35,24 @@ class Progress:
 
 
 def guarded(fn, *args, **kwargs):
-    """Call ``fn``; an InputError becomes one line on stderr and exit status 2."""
-    try:
-        return fn(*args, **kwargs), 0
-    except InputError as exc:
-        click.echo(f"gisgrade: error: {exc}", err=True)
-        return None, 2
+    """Call ``fn``; an InputError becomes one line on stderr and exit status 2.
+    Warnings the libraries raise on the way (shapely, rasterio, geopandas)
+    never reach stderr ahead of it: they are logged at debug level (``-vv``)."""
+    import logging
+    import warnings
+
+    log = logging.getLogger("gisgrade")
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        try:
+            return fn(*args, **kwargs), 0
+        except InputError as exc:
+            click.echo(f"gisgrade: error: {exc}", err=True)
+            return None, 2
+        finally:
+            for w in caught:
+                log.debug("library warning: %s: %s", w.category.__name__,
+                          " ".join(str(w.message).split()))
 
 
 def compute_and_write(project_path, outdir, quiet, *, ground=False, figures=True):
@@ -47,13 +60,19 @@ def compute_and_write(project_path, outdir, quiet, *, ground=False, figures=True
     from ..output.summary import summary_text
     from ..pipeline import compute, compute_ground
     from ..project import load
+    from ..output.atomic import refuse_outdir
     from ..result import resolve_outdir
+
+    log = logging.getLogger("gisgrade")
 
     def work():
         project = load(project_path, ground_only=ground)
         out = resolve_outdir(project, outdir)
+        refuse_outdir(out, inputs=project.input_paths())  # before the long part
         result = (compute_ground if ground else compute)(project, progress=Progress(enabled=not quiet))
+        t0 = time.perf_counter()
         result.write(out, figures=figures)
+        log.info("stage %-10s %7.3f s", "write", time.perf_counter() - t0)
         return result, out
 
     done, status = guarded(work)

@@ -18,7 +18,7 @@ def demo_project() -> Path:
 @click.command("demo", short_help="run the bundled invented demo scenario (Sallow Creek)",
                help=caution_help("Run the bundled demo project, an invented scenario on a "
                                  "synthetic DEM.", "gisgrade demo -o demo-out"))
-@click.option("-o", "--outdir", type=click.Path(path_type=Path), default=Path("gisgrade-demo"),
+@click.option("-o", "--outdir", type=click.Path(), default="gisgrade-demo",
               show_default=True, help="output folder")
 @verbosity
 def command(outdir, verbose, quiet):

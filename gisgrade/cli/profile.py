@@ -18,7 +18,7 @@ from .common import compute_and_write
                    "[alignment] and [terrain] are needed in PROJECT.",
                    "gisgrade profile project.toml -o ground"))
 @click.argument("project", type=click.Path(path_type=Path))
-@click.option("-o", "--outdir", type=click.Path(path_type=Path), default=None,
+@click.option("-o", "--outdir", type=click.Path(), default=None,
               help="output folder (default: [output] dir, else gisgrade-out beside PROJECT)")
 @verbosity
 def command(project, outdir, verbose, quiet):

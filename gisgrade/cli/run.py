@@ -17,7 +17,7 @@ from .common import compute_and_write
                    "summary files.",
                    "gisgrade run project.toml -o out"))
 @click.argument("project", type=click.Path(path_type=Path))
-@click.option("-o", "--outdir", type=click.Path(path_type=Path), default=None,
+@click.option("-o", "--outdir", type=click.Path(), default=None,
               help="output folder (default: [output] dir, else gisgrade-out beside PROJECT)")
 @click.option("--no-figures", is_flag=True,
               help="leave out the figures (profile.png, sheets/, map.png), the costly part")

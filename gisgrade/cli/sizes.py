@@ -1,9 +1,6 @@
 """``gisgrade sizes``: the whole job per candidate pipe size, compared."""
 from __future__ import annotations
 
-import os
-import shutil
-import tempfile
 from pathlib import Path
 
 import click
@@ -23,12 +20,13 @@ def run_sizes(project_path, candidates_text, outdir, echo=lambda s: None):
     from ..hydraulics.surge import SCREENING
     from ..pipeline import compute
     from ..project import load
-    from ..result import resolve_outdir
+    from ..output.atomic import atomic_folder, refuse_outdir
     from ..sizes import (candidate_project, candidates_from_project, candidates_from_text,
                          compare, comparison_figure)
 
     project = load(project_path)
-    out = resolve_outdir(project, outdir)
+    out = sizes_outdir(project, outdir)
+    refuse_outdir(out, inputs=project.input_paths())  # before the candidates are run
     if candidates_text is not None:
         candidates = candidates_from_text(project, candidates_text)
     elif project.size_candidates:
@@ -36,8 +34,6 @@ def run_sizes(project_path, candidates_text, outdir, echo=lambda s: None):
     else:
         raise InputError(f"{project.path.name}: no candidates: give --candidates \"200 mm, 250 mm\" "
                          "or [[size_candidates]] tables")
-    if out.exists() and not out.is_dir():
-        raise InputError(f"output folder {out} is a file; give -o a folder")
     results = []
     for c in candidates:
         echo(f"candidate {c.name} ...")
@@ -46,20 +42,26 @@ def run_sizes(project_path, candidates_text, outdir, echo=lambda s: None):
     notes = ([f"[[sections]] of the project are not used: each candidate is the pipe along the "
               f"whole line"] if project.sections else [])
     text = "\n".join(lines + notes + [SCREENING, "CAUTION: " + CAUTIONS]) + "\n"
-    out.parent.mkdir(parents=True, exist_ok=True)
-    tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}-", dir=out.parent))
-    try:
+    with atomic_folder(out, inputs=project.input_paths()) as tmp:
         from ..display import Display
-        Display(project.output.units).dual(table).to_csv(tmp / "sizes.csv", index=False,
-                                                         float_format="%.6f")
+        from ..output.csv import write_csv
+
+        write_csv(Display(project.output.units).dual(table), tmp / "sizes.csv", 6)
         comparison_figure(table, project, lines).savefig(tmp / "sizes.png", dpi=120)
         (tmp / "sizes.txt").write_text(text)
-        out.mkdir(exist_ok=True)
-        for name in FILES:
-            os.replace(tmp / name, out / name)
-    finally:
-        shutil.rmtree(tmp, ignore_errors=True)
     return lines + notes, out
+
+
+def sizes_outdir(project, outdir=None) -> Path:
+    """The comparison's folder: ``outdir``, else the run's output folder
+    with ``-sizes`` added (``gisgrade-out-sizes``), so a comparison never
+    replaces a run's result (each folder is replaced whole)."""
+    from ..result import resolve_outdir
+
+    if outdir is not None:
+        return resolve_outdir(project, outdir)
+    run_out = resolve_outdir(project)
+    return run_out.with_name(run_out.name + "-sizes")
 
 
 @click.command("sizes", short_help="run the whole job per candidate pipe size and compare them",
@@ -74,8 +76,9 @@ def run_sizes(project_path, candidates_text, outdir, echo=lambda s: None):
 @click.argument("project", type=click.Path(path_type=Path))
 @click.option("--candidates", default=None,
               help='inside diameters, e.g. "200 mm, 250 mm, 300 mm" (default: [[size_candidates]])')
-@click.option("-o", "--outdir", type=click.Path(path_type=Path), default=None,
-              help="output folder (default: [output] dir, else gisgrade-out beside PROJECT)")
+@click.option("-o", "--outdir", type=click.Path(), default=None,
+              help="output folder (default: the run's output folder with -sizes added, "
+                   "e.g. gisgrade-out-sizes beside PROJECT)")
 @verbosity
 def command(project, candidates, outdir, verbose, quiet):
     verbose, quiet = setup_logging(verbose, quiet)

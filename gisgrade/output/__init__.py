@@ -3,9 +3,9 @@
 A writer is a function in one module of this package, registered with
 :func:`writer` under the file names it writes and a test of whether the
 result has what it needs. :func:`write_all` calls every writer that applies
-into a temporary folder beside OUTDIR and moves the files into place only
-when all are written, so a failed run leaves nothing behind and a good run
-never leaves a half-written file.
+into a temporary folder beside OUTDIR, which replaces OUTDIR whole once all
+are written, with a checksum manifest written last (:mod:`.atomic`): a
+failed or killed run leaves the earlier result, never a mix.
 
 A new output file is a module with a registered writer, and one line in
 :data:`WRITER_MODULES`.
@@ -13,9 +13,8 @@ A new output file is a module with a registered writer, and one line in
 from __future__ import annotations
 
 import importlib
-import os
-import shutil
-import tempfile
+import logging
+import time
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Callable
@@ -23,6 +22,8 @@ from typing import Callable
 from ..errors import InputError
 
 __all__ = ["write_all", "writer", "output_names", "WRITERS"]
+
+log = logging.getLogger("gisgrade")
 
 
 @dataclass(frozen=True)
@@ -68,8 +69,7 @@ def _load() -> list[Writer]:
 
 
 def output_names() -> tuple[str, ...]:
-    """Every file name a run may write; a name this run did not write is
-    removed from OUTDIR so no stale table from an earlier run sits beside new ones."""
+    """Every file (and folder) name a run may write."""
     return tuple(f for w in _load() for f in w.files)
 
 
@@ -78,44 +78,28 @@ def write_all(result, outdir, figures: bool = True, layers: bool = True) -> list
     ``figures=False`` skips the writers registered with ``figure=True``,
     ``layers=False`` those with ``layer=True``.
 
+    The writers fill a temporary folder that replaces OUTDIR whole, with a
+    ``MANIFEST.json`` written last (:func:`gisgrade.output.atomic.atomic_folder`):
+    a run that fails or is killed leaves the earlier result as it was.
     Refuses (InputError, nothing written) an OUTDIR that is a file, cannot be
-    made, or holds an input under an output's name.
+    made, holds an input or holds files no gisgrade run wrote.
     """
     from ..display import display_of
+    from .atomic import MANIFEST, atomic_folder
 
-    outdir = Path(outdir)
     names = output_names()
-    if outdir.exists() and not outdir.is_dir():
-        raise InputError(f"output folder {outdir} is a file; give -o a folder")
-    inputs = {p.resolve() for p in result.project.input_paths()}
-    clash = [n for n in names if (outdir / n).resolve() in inputs]
+    inputs = [p for p in result.project.input_paths()]
+    resolved = {Path(p).resolve() for p in inputs}
+    clash = [n for n in names if (Path(outdir) / n).resolve() in resolved] if str(outdir) else []
     if clash:
         raise InputError(f"output folder {outdir}: writing {clash[0]} there would replace an "
                          "input of this project; choose another -o or output.dir")
-    parent = outdir.parent if str(outdir.parent) else Path(".")
-    try:
-        parent.mkdir(parents=True, exist_ok=True)
-        tmp = Path(tempfile.mkdtemp(prefix=f".{outdir.name}-", dir=parent))
-    except OSError as exc:
-        raise InputError(f"output folder {outdir}: cannot write there ({exc.strerror})") from None
     display = display_of(result.project)
-    try:
+    with atomic_folder(outdir, inputs=inputs) as tmp:
         for w in WRITERS:
             if w.applies(result) and (figures or not w.figure) and (layers or not w.layer):
+                t0 = time.perf_counter()
                 w.write(result, tmp, display)
-        outdir.mkdir(exist_ok=True)
-        written = []
-        for f in sorted(tmp.iterdir()):
-            if f.is_dir() and (outdir / f.name).is_dir():  # a listed folder (sheets/): replaced whole
-                shutil.rmtree(outdir / f.name)
-            os.replace(f, outdir / f.name)
-            written.append(outdir / f.name)
-        for name in names:
-            stale = outdir / name
-            if stale not in written and stale.is_file():
-                stale.unlink()
-            elif stale not in written and stale.is_dir():
-                shutil.rmtree(stale)
-        return written
-    finally:
-        shutil.rmtree(tmp, ignore_errors=True)
+                log.debug("writer %-22s %7.3f s", w.files[0], time.perf_counter() - t0)
+        written = [Path(outdir) / f.name for f in sorted(tmp.iterdir())]
+    return written + [Path(outdir) / MANIFEST]

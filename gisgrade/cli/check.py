@@ -1,0 +1,102 @@
+"""``gisgrade check``: every problem of a project file at once, nothing written."""
+from __future__ import annotations
+
+import logging
+from pathlib import Path
+
+import click
+
+from . import caution_help, setup_logging, verbosity
+
+
+def check_project(path, *, ground_only: bool = False) -> list:
+    """Every problem of the project file at ``path`` as
+    :class:`~gisgrade.screening.Problem` records, errors first: each bad key
+    (all of them, not the first), then what the files show (the line, the
+    DEM, the ground, the crossings, the pipe and flows: the stages run up to
+    the hydraulics), then an earlier result folder without a valid manifest.
+    Writes nothing."""
+    from ..display import display_of, using
+    from ..errors import InputError
+    from ..output.atomic import verify_folder
+    from ..project import load
+    from ..result import resolve_outdir
+    from ..screening import error, screen, screen_config, screen_dems, warning
+
+    found: list[InputError] = []
+    try:
+        project = load(path, ground_only=ground_only, problems=found)
+    except InputError as exc:  # the file itself: missing, not TOML, a byte-order mark
+        return [error(str(exc))]
+    problems = [error(str(e)) for e in found]
+    if project is None:
+        return problems
+    with using(display_of(project)):
+        problems += _stages(project, ground_only, error, screen, screen_config, screen_dems)
+    out = resolve_outdir(project)
+    if out.is_dir():
+        try:
+            verify_folder(out)
+        except InputError as exc:
+            problems.append(warning(f"earlier output {exc}"))
+    unique = list(dict.fromkeys(problems))
+    return sorted(unique, key=lambda p: p.level != "error")
+
+
+def _stages(project, ground_only, error, screen, screen_config, screen_dems) -> list:
+    from ..alignment import stage_alignment
+    from ..errors import InputError
+    from ..terrain import stage_terrain
+
+    early = screen_config(project) + screen_dems(project, project.alignment.spacing)
+    try:
+        line, crossings, table = stage_alignment(project)
+        table, _ = stage_terrain(project, line, table)
+    except InputError as exc:
+        return early + [error(str(exc))]
+    problems = screen(project, line, crossings, table)
+    if ground_only or project.pipe is None or any(p.level == "error" for p in problems):
+        return problems
+    from ..design import stage_design
+    from ..hydraulics.stage import stage_hydraulics
+    from ..pipe import stage_pipe
+
+    try:
+        table = stage_pipe(project, table)
+        table, design = stage_design(project, table, crossings)
+        stage_hydraulics(project, table, design.bends)
+    except InputError as exc:
+        problems.append(error(str(exc)))
+    return problems
+
+
+@click.command("check", short_help="every problem of a project file at once, nothing written",
+               help=caution_help(
+                   "Check PROJECT (TOML) and the files it names without writing anything: every "
+                   "bad key at once, each naming the file, key or feature with a hint, then "
+                   "what the files show (the line's shape, the DEM's bands, voids and units, "
+                   "crossings, velocities, the source head against the ground). Errors are "
+                   "what a run would refuse; warnings are possible but suspicious input (a run "
+                   "prints the same warnings). Exit status 0 without errors, 2 with any.",
+                   "gisgrade check project.toml"))
+@click.argument("project", type=click.Path(path_type=Path))
+@click.option("--ground", is_flag=True, help="check as for gisgrade profile (no pipe data needed)")
+@verbosity
+def command(project, ground, verbose, quiet):
+    import warnings
+
+    verbose, quiet = setup_logging(verbose, quiet)
+    log = logging.getLogger("gisgrade")
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        problems = check_project(project, ground_only=ground)
+    for w in caught:
+        log.debug("library warning: %s: %s", w.category.__name__, " ".join(str(w.message).split()))
+    for p in problems:
+        click.echo(p.line(), err=True)
+    errors = sum(p.level == "error" for p in problems)
+    if not quiet:
+        warned = len(problems) - errors
+        click.echo(f"{Path(project).name}: " + (f"{errors} error(s), {warned} warning(s)"
+                                                if problems else "no problems found"))
+    return 2 if errors else 0
