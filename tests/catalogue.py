@@ -322,7 +322,7 @@ CASES = [
     Case("-o the project's own folder", "output paths", lambda f: None, ("an input of this project",),
          outdir=lambda f: str(f)),
     Case("-o a folder of the user's files", "output paths", foreign_files,
-         ("notes.txt", "which no gisgrade run wrote")),
+         ("notes.txt", "which no gisgrade run recorded")),
     Case("sizes into the project's folder", "output paths", lambda f: None, ("an input of this project",),
          command=("sizes", "--candidates", "250 mm, 300 mm"), outdir=lambda f: str(f)),
     Case("sizes with trailing junk", "units", lambda f: None, ("something follows the unit",),

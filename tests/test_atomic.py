@@ -105,7 +105,7 @@ def test_refusals(tmp_path, monkeypatch):
     refused(tmp_path / "proj" / "project.toml", "is a file")
     (tmp_path / "mine").mkdir()
     (tmp_path / "mine" / "notes.txt").write_text("keep me")
-    refused(tmp_path / "mine", "holds notes.txt, which no gisgrade run wrote")
+    refused(tmp_path / "mine", "holds notes.txt, which no gisgrade run recorded")
     assert (tmp_path / "mine" / "notes.txt").read_text() == "keep me"
     assert (tmp_path / "proj" / "project.toml").read_text() == "x"
     assert not (tmp_path / "nowhere").exists()

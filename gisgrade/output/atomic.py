@@ -210,8 +210,12 @@ def _refuse(outdir: Path, raw, inputs) -> tuple[Path, Path]:
                 listed = {}
             foreign = [rel for rel in present if rel not in listed]
             if foreign:
+                why = (f"not in its {MANIFEST}" if listed else
+                       f"the folder has no {MANIFEST}: not a gisgrade result, or one written "
+                       "before results carried a manifest")
                 raise InputError(f"output folder {raw} holds {foreign[0]}, which no gisgrade run "
-                                 f"wrote (not in its {MANIFEST}); move it or choose another -o")
+                                 f"recorded ({why}); the folder is replaced whole, so move it "
+                                 "or choose another -o")
     return target, parent
 
 
