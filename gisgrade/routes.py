@@ -32,7 +32,7 @@ __all__ = ["read_routes", "run_routes", "route_rows", "RoutesResult", "COLUMNS"]
 log = logging.getLogger("gisgrade")
 
 #: The columns of ``routes.csv``, one row per route and scenario.
-COLUMNS = ("route", "scenario", "status", "length_m", "trench_volume_m3", "bends", "air_valves",
+COLUMNS = ("route", "folder", "scenario", "status", "length_m", "trench_volume_m3", "bends", "air_valves",
            "crossings", "min_pressure_kpa", "max_pressure_kpa", "pump_head_m",
            "annual_energy_kwh", "findings")
 
@@ -46,12 +46,13 @@ PLOT_POINTS = 1500
 
 
 def folder_name(name: str) -> str:
-    """A route's name as a folder name: letters, digits, ``-``, ``_`` and ``.``.
+    """A route's name as a folder name: letters (any script), digits, ``-``,
+    ``_`` and ``.``; every other run of characters one ``_``.
 
-    >>> folder_name("Route B / north")
-    'Route_B_north'
+    >>> folder_name("Route B / north"), folder_name("Zürich – Ost ✓"), folder_name("..")
+    ('Route_B_north', 'Zürich_Ost', 'route')
     """
-    safe = re.sub(r"[^\w.-]+", "_", str(name), flags=re.ASCII).strip("._")
+    safe = re.sub(r"[^\w.-]+", "_", str(name)).strip("._")
     return safe or "route"
 
 
@@ -77,7 +78,12 @@ def group_routes(gdf, field_name: str | None, key: str, file: str) -> list[tuple
                          f"{field_name!r}: every feature needs a route name")
     names = values.astype(str).to_numpy()
     order = list(dict.fromkeys(names))
-    return [(n, gdf[names == n]) for n in order]
+    out = []
+    for n in order:
+        part = gdf[names == n].copy()
+        part.attrs.update(route=n, field=field_name)  # for the alignment's messages
+        out.append((n, part))
+    return out
 
 
 def read_routes(project) -> list[tuple[str, object]]:
@@ -92,12 +98,25 @@ def read_routes(project) -> list[tuple[str, object]]:
 
 
 def _unique_folders(names) -> list[str]:
-    seen, out = {}, []
-    for n in names:
-        base = folder_name(n)
-        k = seen.get(base.lower(), 0)
-        seen[base.lower()] = k + 1
-        out.append(base if k == 0 else f"{base}-{k + 1}")
+    """A folder per route, apart even on a case-blind file system: a name that
+    is already a folder name keeps it; the others get theirs made safe, with
+    ``-2``, ``-3`` ... where it is taken (``routes.csv`` has each route's folder).
+
+    >>> _unique_folders(["Route/B", "Route_B", "a", "A"])
+    ['Route_B-2', 'Route_B', 'a', 'A-2']
+    """
+    taken, out = set(), [None] * len(names)
+    for i, n in enumerate(names):  # exact names first, in order
+        if folder_name(n) == str(n) and str(n).lower() not in taken:
+            out[i] = str(n)
+            taken.add(str(n).lower())
+    for i, n in enumerate(names):
+        if out[i] is None:
+            base, k = folder_name(n), 1
+            while (f"{base}-{k}" if k > 1 else base).lower() in taken:
+                k += 1
+            out[i] = f"{base}-{k}" if k > 1 else base
+            taken.add(out[i].lower())
     return out
 
 
@@ -235,9 +254,10 @@ class RoutesResult:
         """``routes.csv`` as a DataFrame: one row per route and scenario (:data:`COLUMNS`)."""
         import pandas as pd
 
-        rows = [r for o in self.outcomes for r in o.rows]
+        rows = [dict(r, folder=folder if o.files else "")
+                for o, folder in zip(self.outcomes, self.folders) for r in o.rows]
         table = pd.DataFrame(rows, columns=list(COLUMNS))
-        numeric = [c for c in COLUMNS if c not in ("route", "scenario", "status")]
+        numeric = [c for c in COLUMNS if c not in ("route", "folder", "scenario", "status")]
         table[numeric] = table[numeric].apply(pd.to_numeric)  # failed rows: NaN, not None
         return table
 
@@ -325,7 +345,11 @@ def _cluster(workers: int | None, scheduler: str | None, n_routes: int):
         except Exception as exc:  # OSError, TimeoutError, ValueError for a bad address
             raise InputError(f"--scheduler {scheduler}: cannot reach a Dask scheduler there "
                              f"({first_line(exc)})") from None
-    n = workers or min(os.cpu_count() or 1, n_routes)
+    cores = os.cpu_count() or 1
+    if workers and workers > cores:
+        log.warning("--workers %d: more worker processes than the %d cores only adds start-up "
+                    "time and memory", workers, cores)
+    n = min(workers or cores, n_routes)  # never more workers than routes
     cluster = LocalCluster(n_workers=max(1, n), threads_per_worker=1, processes=True,
                            dashboard_address=None, silence_logs=logging.ERROR)
     return Client(cluster), cluster

@@ -261,4 +261,46 @@ def test_progress_bar_counts_routes():
 def test_folder_names_stay_apart():
     from gisgrade.routes import _unique_folders
 
-    assert _unique_folders(["a b", "a_b", "A/B", ""]) == ["a_b", "a_b-2", "A_B-3", "route"]
+    assert _unique_folders(["a b", "a_b", "A/B", ""]) == ["a_b-2", "a_b", "A_B-3", "route"]
+
+
+def test_interrupt_exits_130_and_says_the_folder_is_untouched(tmp_path, capsys, monkeypatch):
+    """Ctrl-C: 128 + SIGINT (the shell's convention), not 1 ("a route failed")."""
+    import gisgrade.routes
+    from gisgrade.cli import main
+
+    project = make_site(tmp_path)
+
+    def interrupted(*a, **k):
+        raise KeyboardInterrupt
+
+    monkeypatch.setattr(gisgrade.routes, "run_routes", interrupted)
+    assert main(["routes", str(project), "-o", str(tmp_path / "o"), "--workers", "0"]) == 130
+    assert "interrupted" in capsys.readouterr().err
+    assert not (tmp_path / "o").exists()
+
+
+def test_never_more_workers_than_routes(monkeypatch):
+    import distributed
+
+    from gisgrade import routes
+
+    seen = {}
+
+    class FakeCluster:
+        def __init__(self, n_workers, **kw):
+            seen["n"] = n_workers
+
+    monkeypatch.setattr(distributed, "LocalCluster", FakeCluster)
+    monkeypatch.setattr(distributed, "Client", lambda cluster: None)
+    routes._cluster(500, None, 3)
+    assert seen["n"] == 3
+
+
+def test_routes_csv_names_each_route_folder(routes_run):
+    _, out, _, _ = routes_run
+    t = pd.read_csv(out / "routes.csv", keep_default_na=False)
+    ok = t[t["status"] == "ok"].drop_duplicates("route")
+    for r in ok.itertuples():
+        assert (out / r.folder / "summary.json").exists()
+    assert (t[t["route"] == "D"]["folder"] == "").all()  # a failed route has no folder

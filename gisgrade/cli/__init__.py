@@ -126,7 +126,7 @@ def main(argv=None) -> int:
     except click.UsageError as exc:
         exc.show()
         return 2
-    except click.Abort:
-        click.echo("gisgrade: aborted", err=True)
-        return 1
+    except (click.Abort, KeyboardInterrupt):  # Ctrl-C: the shell's 128 + SIGINT
+        click.echo("gisgrade: interrupted; the output folder is as it was before", err=True)
+        return 130
     return rv or 0

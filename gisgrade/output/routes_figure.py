@@ -18,6 +18,10 @@ __all__ = ["draw_routes"]
 
 #: Line styles taken in turn with the colours (a colour is never the only cue).
 DASHES = ("-", "--", "-.", ":")
+#: Routes named in the plan's legend and on the bars; more are drawn thin and unnamed,
+#: and the bars show the routes with the lowest pressures.
+MAX_NAMED = 12
+MAX_BARS = 25
 
 
 def _looks(n: int):
@@ -39,15 +43,16 @@ def draw_routes(outcomes, table, display, path, project=None) -> None:
                             wspace=0.3, hspace=0.32)
     plan, prof = fig.add_subplot(grid[:, 0]), fig.add_subplot(grid[0, 1:])
     bars = (fig.add_subplot(grid[1, 1]), fig.add_subplot(grid[1, 2]))
-    fig.suptitle(f"{len(outcomes)} routes compared" + (f", {len(failed)} failed" if failed else ""),
-                 fontsize=13, x=0.06, ha="left")
+    n = len(outcomes)
+    fig.suptitle(f"{n} route{'s' if n != 1 else ''} compared"
+                 + (f", {len(failed)} failed" if failed else ""), fontsize=13, x=0.06, ha="left")
+    named = len(ok) <= MAX_NAMED  # beyond it, names in plan and legend are unreadable
     L, E = display.unit("length"), display.unit("elevation")
     for o in ok:
         colour, dash = looks[o.name]
-        plan.plot(o.plan[:, 0], o.plan[:, 1], color=colour, ls=dash, lw=1.8, label=o.name)
-        plan.plot(*o.plan[0], "o", color=colour, ms=5)
-        plan.annotate(o.name, o.plan[len(o.plan) // 2], xytext=(4, 4), textcoords="offset points", fontsize=8,
-                      color=colour)
+        plan.plot(o.plan[:, 0], o.plan[:, 1], color=colour, ls=dash, lw=1.8 if named else 0.8,
+                  label=o.name if named else None)
+        plan.plot(*o.plan[0], "o", color=colour, ms=5 if named else 2)
         p = o.profile
         st = display.value(p["station"], "length")
         prof.plot(st, display.value(p["ground"], "elevation"), color=colour, ls=dash, lw=1.0,
@@ -58,9 +63,15 @@ def draw_routes(outcomes, table, display, path, project=None) -> None:
     plan.set_title("plan (a dot marks each start)", fontsize=10, loc="left")
     plan.tick_params(labelsize=7)
     plan.ticklabel_format(useOffset=False, style="plain")
+    from matplotlib.ticker import MaxNLocator
+
+    plan.xaxis.set_major_locator(MaxNLocator(4))  # long grid coordinates: few ticks
     plan.grid(alpha=0.25)
-    if ok:
-        plan.legend(fontsize=8, loc="best", ncol=1 + len(ok) // 12)
+    if ok and named:
+        plan.legend(fontsize=8, loc="best")
+    elif ok:
+        plan.set_title(f"plan of {len(ok)} routes (too many to name; routes.csv lists them)",
+                       fontsize=10, loc="left")
     scen = next((o.profile.get("scenario") for o in ok if "scenario" in o.profile), None)
     prof.set_title("ground (thin) and HGL (thick)" + (f", scenario {scen}" if scen else ""),
                    fontsize=10, loc="left")
@@ -79,32 +90,48 @@ def draw_routes(outcomes, table, display, path, project=None) -> None:
 
 
 def _bars(axes, ok, looks, table, display, project=None) -> None:
-    """Length and lowest pressure of each route's first scenario, as bars."""
-    names = [o.name for o in ok]
-    if not names:
+    """Each route's length, and the range of its pressures over every scenario
+    (lowest to highest) against the limits; with many routes, the
+    :data:`MAX_BARS` whose lowest pressure is lowest."""
+    if not ok:
         for ax in axes:
             ax.set_axis_off()
         return
-    first = table[table["status"] == "ok"].groupby("route", sort=False).first()
-    values = (display.value(first.loc[names, "length_m"].to_numpy(float), "length"),
-              display.value(first.loc[names, "min_pressure_kpa"].to_numpy(float) * 1e3, "pressure"))
-    titles = (f"length ({display.unit('length')})",
-              f"lowest pressure ({display.unit('pressure')}), first scenario")
+    good = table[table["status"] == "ok"]
+    per = good.groupby("route", sort=False).agg(length=("length_m", "first"),
+                                                low=("min_pressure_kpa", "min"),
+                                                high=("max_pressure_kpa", "max"))
+    names = [o.name for o in ok]
+    per = per.loc[names]
+    shown = per if len(per) <= MAX_BARS else per.nsmallest(MAX_BARS, "low")
+    names = list(shown.index)
     y = np.arange(len(names))
     colours = [looks[n][0] for n in names]
-    for ax, v, title in zip(axes, values, titles):
-        ax.barh(y, v, 0.7, color=colours, edgecolor="black", lw=0.5)
+    length = display.value(shown["length"].to_numpy(float), "length")
+    low = display.value(shown["low"].to_numpy(float) * 1e3, "pressure")
+    high = display.value(shown["high"].to_numpy(float) * 1e3, "pressure")
+    axes[0].barh(y, length, 0.7, color=colours, edgecolor="black", lw=0.5)
+    axes[0].set_title(f"length ({display.unit('length')})", fontsize=9, loc="left")
+    axes[1].barh(y, high - low, 0.7, left=low, color=colours, edgecolor="black", lw=0.5)
+    title = f"pressure range, every scenario ({display.unit('pressure')})"
+    checks = getattr(project, "checks", None)
+    limits = [(getattr(checks, "min_pressure", None), "minimum"),
+              (getattr(checks, "max_pressure", None), "maximum")]
+    said = []
+    for value, word in limits:
+        if value is not None:
+            axes[1].axvline(display.value(value, "pressure"), color="#7a2e00", lw=1.2, ls="--")
+            said.append(f"{word} {display.text(value, 'pressure')}")
+    if said:
+        title += "\n(dashed: " + ", ".join(said) + ")"
+    axes[1].set_title(title, fontsize=9, loc="left")
+    for ax in axes:
         ax.axvline(0, color="black", lw=0.6)
-        ax.set_title(title, fontsize=9, loc="left")
         ax.invert_yaxis()
         ax.tick_params(labelsize=7)
         ax.grid(axis="x", alpha=0.25)
-    many = len(names) > 30
-    axes[0].set_yticks(y if not many else y[:: len(names) // 15 + 1],
-                       names if not many else names[:: len(names) // 15 + 1], fontsize=7)
+    axes[0].set_yticks(y, names, fontsize=7 if len(names) <= 12 else 5.5)
     axes[1].set_yticks([])
-    low = getattr(getattr(project, "checks", None), "min_pressure", None)
-    if low is not None:  # the minimum the bars are judged against
-        axes[1].axvline(display.value(low, "pressure"), color="#7a2e00", lw=1.2, ls="--")
-        axes[1].set_title(f"{axes[1].get_title(loc='left')}\n(dashed: the minimum, "
-                          f"{display.text(low, 'pressure')})", fontsize=9, loc="left")
+    if len(shown) < len(per):
+        axes[0].set_xlabel(f"the {len(shown)} of {len(per)} routes with the lowest pressure",
+                           fontsize=7)
