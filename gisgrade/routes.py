@@ -241,6 +241,18 @@ def _failed(name: str, reason: str) -> dict:
 # --------------------------------------------------------------------------
 
 
+def _put(outcome: Outcome, folder: Path) -> None:
+    """Write the route's files into ``folder`` and let go of their bytes (a
+    written file stays listed, its bytes ``None``)."""
+    for rel, data in outcome.files.items():
+        if data is None:
+            continue
+        path = folder / rel
+        path.parent.mkdir(parents=True, exist_ok=True)
+        path.write_bytes(data)
+    outcome.files = dict.fromkeys(outcome.files)
+
+
 @dataclass
 class RoutesResult:
     """Every route's outcome, in the layer's order; :meth:`write` writes them."""
@@ -270,29 +282,33 @@ class RoutesResult:
         outputs under ``<route>/``, all at once into ``outdir`` (swapped in whole).
         ``parquet``: also ``routes.parquet`` (the table) and ``parquet/<layer>.parquet``
         (every route's layers as GeoParquet), columnar files for large runs."""
-        from .display import display_of
         from .output.atomic import atomic_folder
-        from .output.csv import write_csv
 
         project = self.project
-        inputs = [project.path, *project.input_paths()]
-        with atomic_folder(outdir, inputs=inputs) as tmp:
-            write_csv(display_of(project).dual(self.table), tmp / "routes.csv")
-            merged = self._merged_layers()
-            self._write_layers(merged, tmp / "routes.gpkg")
-            if parquet:
-                self.table.to_parquet(tmp / "routes.parquet", index=False)
-                (tmp / "parquet").mkdir()
-                for name, gdf in merged.items():
-                    gdf.to_parquet(tmp / "parquet" / f"{name}.parquet", index=False)
-            self._write_figure(tmp / "routes.png")
-            for o, folder in zip(self.outcomes, self.folders):
-                for rel, data in o.files.items():
-                    path = tmp / folder / rel
-                    path.parent.mkdir(parents=True, exist_ok=True)
-                    path.write_bytes(data)
+        with atomic_folder(outdir, inputs=[project.path, *project.input_paths()]) as tmp:
+            self.write_into(tmp, parquet)
         out = Path(outdir)
         return sorted(p for p in out.rglob("*") if p.is_file())
+
+    def write_into(self, tmp: Path, parquet: bool = False) -> None:
+        """:meth:`write` into the folder ``tmp`` being built (a route's files
+        already written there as it finished, see ``run_routes(sink=...)``, are not
+        written again)."""
+        from .display import display_of
+        from .output.csv import write_csv
+
+        write_csv(display_of(self.project).dual(self.table), tmp / "routes.csv")
+        merged = self._merged_layers()
+        self._write_layers(merged, tmp / "routes.gpkg")
+        if parquet:
+            self.table.to_parquet(tmp / "routes.parquet", index=False)
+            (tmp / "parquet").mkdir()
+            for name, gdf in merged.items():
+                gdf.to_parquet(tmp / "parquet" / f"{name}.parquet", index=False)
+        self._write_figure(tmp / "routes.png")
+        for o, folder in zip(self.outcomes, self.folders):
+            _put(o, tmp / folder)
+
 
     def _merged_layers(self) -> dict:
         """Each layer name -> one GeoDataFrame of every route's features
@@ -356,8 +372,12 @@ def _cluster(workers: int | None, scheduler: str | None, n_routes: int):
 
 
 def run_routes(project, lines=None, *, workers: int | None = None, scheduler: str | None = None,
-               figures: bool = False, layers: bool = False, progress=None) -> RoutesResult:
-    """The whole job on every route; writes nothing (see :meth:`RoutesResult.write`).
+               figures: bool = False, layers: bool = False, progress=None,
+               sink=None) -> RoutesResult:
+    """The whole job on every route; writes nothing (see :meth:`RoutesResult.write`),
+    unless ``sink`` is given: a folder being built (``atomic_folder``) that
+    takes each route's own files as the route finishes, so their bytes are
+    not all held until the end (:meth:`RoutesResult.write_into` then adds the rest).
 
     ``project``: a path or a loaded :class:`~gisgrade.project.Project`.
     ``lines``: a GeoDataFrame with a ``route`` column (one or more features a
@@ -378,20 +398,27 @@ def run_routes(project, lines=None, *, workers: int | None = None, scheduler: st
     else:
         routes = group_routes(lines, "route", "lines", "the candidate routes")
     names = [n for n, _ in routes]
+    folders = _unique_folders(names)
     total = len(routes)
-    progress = progress or (lambda done, total: None)
-    progress(0, total)
+    shown = progress or (lambda done, total: None)
+
+    def arrived(i, outcome, done):
+        if sink is not None:
+            _put(outcome, Path(sink) / folders[i])
+        shown(done, total)
+
+    shown(0, total)
     if workers == 0 and not scheduler:
         outcomes = []
         for i, (name, frame) in enumerate(routes):
             outcomes.append(run_route(project, name, frame, figures, layers))
-            progress(i + 1, total)
+            arrived(i, outcomes[-1], i + 1)
     else:
-        outcomes = _on_dask(project, routes, workers, scheduler, figures, layers, progress)
-    return RoutesResult(project, outcomes, _unique_folders(names))
+        outcomes = _on_dask(project, routes, workers, scheduler, figures, layers, arrived)
+    return RoutesResult(project, outcomes, folders)
 
 
-def _on_dask(project, routes, workers, scheduler, figures, layers, progress) -> list[Outcome]:
+def _on_dask(project, routes, workers, scheduler, figures, layers, arrived) -> list[Outcome]:
     from distributed import as_completed
 
     client, cluster = _cluster(workers, scheduler, len(routes))
@@ -409,7 +436,7 @@ def _on_dask(project, routes, workers, scheduler, figures, layers, progress) -> 
             except Exception as exc:  # the worker itself died (memory, a killed process)
                 reason = f"failed: the worker was lost ({first_line(exc)})"
                 outcomes[i] = Outcome(routes[i][0], [_failed(routes[i][0], reason)], error=reason)
-            progress(done, len(futures))
+            arrived(i, outcomes[i], done)
         return outcomes
     finally:
         client.close()

@@ -67,10 +67,14 @@ def command(project, outdir, workers, scheduler, figures, layers, parquet, verbo
         from ..project import load
         from ..routes import run_routes
 
+        from ..output.atomic import atomic_folder
+
         loaded = load(project)
-        result = run_routes(loaded, workers=workers, scheduler=scheduler, figures=figures,
-                            layers=layers, progress=RoutesBar(enabled=not quiet))
-        result.write(outdir, parquet=parquet)
+        # built beside OUT as routes finish (their files leave memory), swapped in at the end
+        with atomic_folder(outdir, inputs=[loaded.path, *loaded.input_paths()]) as tmp:
+            result = run_routes(loaded, workers=workers, scheduler=scheduler, figures=figures,
+                                layers=layers, progress=RoutesBar(enabled=not quiet), sink=tmp)
+            result.write_into(tmp, parquet)
         return result
 
     result, status = guarded(work)
