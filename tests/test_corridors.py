@@ -482,7 +482,7 @@ def test_default_margin_holds_a_pass_half_a_leg_off_the_line(tmp_path):
     old rule (a quarter of the span, 750 m) does not, and climbs the ridge
     at a higher cost. Plane geometry: any route up to sqrt 2 x 3000 m =
     4243 m long lies within 1500 m of the line; through the pass, the
-    8-neighbour route is 2 x (100 sqrt 2 + 48) x 10 m + 50 m = 3878 m, under
+    8-neighbour route is about 2 x (100 sqrt 2 + 48) x 10 m + 50 m = 3878 m, under
     that."""
     from gisgrade.corridors import plan_corridors
     from gisgrade.corridors.stage import default_margin
