@@ -98,7 +98,7 @@ def command(project, start, end, via, crs, k, compare, workers, outdir, verbose,
         d = display_of(result.project)
         for row in result.table.itertuples():
             click.echo(f"{row.route}: {d.text(row.length_m, 'length', 0)}, cost x{row.cost_ratio:.2f}, "
-                       f"{row.crossings} crossings, {row.shared:.0%} shared with earlier routes")
+                       f"{row.crossings} crossings, {row.shared:.0%} shared with cheaper routes")
         if result.comparison is not None:
             for line in comparison_lines(result.project, result.comparison):
                 click.echo(line)
