@@ -4,7 +4,8 @@ corridors, the crossed features and the hand-drawn line when there is one.
 
 Colours: the Okabe-Ito palette (:data:`gisgrade.output.style.OKABE_ITO`), one
 colour per candidate, and after every six colours the next line style
-(:func:`route_style`), so no two candidates look alike; figures through matplotlib's object API only.
+(:func:`route_style`), so no two candidates look alike; figures through
+matplotlib's object API only.
 """
 from __future__ import annotations
 

@@ -545,9 +545,10 @@ def plan_corridors(project, points, *, crs=None, k=None) -> CorridorResult:
         raise InputError(f"{names[i]} ({xy[i][0]:.2f}, {xy[i][1]:.2f}): {apart[i - 1]:.3g} m "
                          f"from the point before it, closer than {MIN_CELLS_APART} cost-grid "
                          f"cells ({MIN_CELLS_APART * grid.cell:.3g} m); move the points apart")
-    for i in np.flatnonzero(turn_angles(xy) > DOUBLE_BACK):
+    turns = turn_angles(xy)
+    for i in np.flatnonzero(turns > DOUBLE_BACK):
         notes.append(f"--via ({xy[i + 1][0]:.2f}, {xy[i + 1][1]:.2f}) turns the route back "
-                     f"by {turn_angles(xy)[i]:.0f} degrees: the legs before and after it run "
+                     f"by {turns[i]:.0f} degrees: the legs before and after it run "
                      "over the same ground; check the order of the --via points")
     reach, why = hydraulic_reach(project)
     if why:
