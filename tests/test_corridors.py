@@ -535,7 +535,7 @@ def test_head_deficit_named_on_the_console_and_in_the_table(tmp_path, capsys):
     table = pd.read_csv(tmp_path / "out" / "corridors.csv")
     deficit = table.max_head_deficit_m.iloc[0]
     assert deficit >= 140.0 - 113.08 - 0.5  # the ground's top is sampled within a cell
-    said = f"C1 runs over ground the design flow cannot serve: up to {deficit:.2f} m"
+    said = f"C1: the design flow cannot serve its ground, up to {deficit:.2f} m"
     assert said in table.note.iloc[0]
     assert f"note: {said}" in capsys.readouterr().out
 

@@ -616,8 +616,8 @@ def plan_corridors(project, points, *, crs=None, k=None) -> CorridorResult:
         said = []
         worst = float(np.max(deficit[r, c]))
         if worst > 0:
-            said.append(f"C{i + 1} runs over ground the design flow cannot serve: up to "
-                        f"{d.text(worst, 'head')} of head lacking for the minimum pressure "
+            said.append(f"C{i + 1}: the design flow cannot serve its ground, up to "
+                        f"{d.text(worst, 'head')} of head short of the minimum pressure "
                         "(max_head_deficit_m)")
         for side, n in edge_runs(alt.cells, z.shape).items():
             where = "DEM's" if side in grid.dem_edges else "window's"
