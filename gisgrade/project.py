@@ -617,8 +617,8 @@ class CorridorsConfig:
     resolution: float | None = key("length>0", "cell size of the cost grid (default: the "
                                    "DEM's, coarser when the window exceeds max_cells)", None)
     max_cells: float = key("number>0", "most cells in the cost grid", 4e6, 4000000)
-    margin: float | None = key("length>=0", "DEM read around the points (default: a quarter of "
-                               "their span, at least 500 m)", None)
+    margin: float | None = key("length>=0", "DEM read around the points (default: half the "
+                               "longest straight leg between them, at least 500 m)", None)
     k: float = key("number>0", "how many distinct candidate routes", 3.0, 3)
     separation: float = key("length>0", "routes closer than this share their length", 200.0,
                             "200 m")

@@ -73,3 +73,13 @@ def resolve_outdir(project, outdir=None) -> Path:
     if project.output.dir is not None:
         return project.output.dir
     return project.base_dir / "gisgrade-out"
+
+
+def command_outdir(project, outdir, suffix: str) -> Path:
+    """A command's own folder: ``outdir``, else the run's output folder
+    (:func:`resolve_outdir`) with ``suffix`` added (``gisgrade-out-corridors``),
+    so the command never replaces a run's result (each folder is replaced whole)."""
+    if outdir is not None:
+        return resolve_outdir(project, outdir)
+    run_out = resolve_outdir(project)
+    return run_out.with_name(run_out.name + suffix)

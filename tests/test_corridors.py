@@ -453,3 +453,184 @@ def test_compare_runs_the_candidates_and_the_drawn_line_through_the_whole_job(tm
     for row in cands.itertuples():
         assert first.loc[row.route, "length_m"] == pytest.approx(row.length_m, rel=1e-6)
         assert first.loc[row.route, "crossings"] == row.crossings
+
+
+# --------------------------------------------------------------------------
+# Findings of the hostile trial
+# --------------------------------------------------------------------------
+
+
+def test_default_folder_is_the_runs_with_corridors_added(tmp_path, capsys):
+    """With no -o the candidates go to gisgrade-out-corridors beside the
+    project (as sizes goes to gisgrade-out-sizes), so a run's folder
+    gisgrade-out is left as it was."""
+    site(tmp_path, np.full((40, 60), 100.0), "k = 1\n")
+    run_out = tmp_path / "gisgrade-out"
+    run_out.mkdir()
+    (run_out / "profile.csv").write_text("station_m\n0\n")
+    assert run_cli(["corridors", str(tmp_path / "project.toml"), "--from", "%f,%f" % xy(20, 5),
+                    "--to", "%f,%f" % xy(20, 55)]) == 0
+    assert (tmp_path / "gisgrade-out-corridors" / "corridors.csv").is_file()
+    assert [f.name for f in run_out.iterdir()] == ["profile.csv"]
+    assert "gisgrade-out-corridors" in capsys.readouterr().out
+
+
+def test_default_margin_holds_a_pass_half_a_leg_off_the_line(tmp_path):
+    """An 80 m ridge across the line between points 3000 m apart, with its
+    only pass 1000 m off the straight line. The default margin (half the
+    longest leg: 1500 m) holds the pass and the route goes through it; the
+    old rule (a quarter of the span, 750 m) does not, and climbs the ridge
+    at a higher cost. Plane geometry: any route up to sqrt 2 x 3000 m =
+    4243 m long lies within 1500 m of the line; through the pass, the
+    8-neighbour route is about 2 x (100 sqrt 2 + 48) x 10 m + 50 m = 3878 m, under
+    that."""
+    from gisgrade.corridors import plan_corridors
+    from gisgrade.corridors.stage import default_margin
+
+    z = np.full((400, 360), 100.0)
+    z[:, 178:183] = 180.0
+    z[96:104, 178:183] = 100.0  # the pass, rows 96..103: 1000 m north of row 200
+    a, b = xy(200, 30), xy(200, 330)
+    assert default_margin(np.array([a, b])) == pytest.approx(1500.0)
+    res = plan_corridors(site(tmp_path, z, 'k = 1\nroughness_weight = "0 / m"\n'), [a, b])
+    assert res.table.max_ground_m.iloc[0] == pytest.approx(100.0)  # never on the ridge
+    old = plan_corridors(site(tmp_path, z, 'k = 1\nroughness_weight = "0 / m"\n'
+                              'margin = "750 m"\n'), [a, b])
+    assert old.table.max_ground_m.iloc[0] == pytest.approx(180.0)
+    assert res.table.cost_m.iloc[0] < old.table.cost_m.iloc[0]
+
+
+def test_a_route_along_the_window_edge_gets_a_note(tmp_path):
+    """A ridge that is lowest at the north end of the DEM: with a small
+    margin the cheapest route crosses at the window's north edge and a note
+    says the window may be too small; the window's sides that are the DEM's
+    own edges are told apart (with 2 km the window is the whole DEM)."""
+    from gisgrade.corridors import plan_corridors
+
+    z = np.full((100, 161), 100.0)
+    z[:, 78:83] = 100.0 + 0.8 * np.arange(100)[:, None]  # 0.8 m higher per row southward
+    pts = [xy(50, 27), xy(50, 133)]
+    res = plan_corridors(site(tmp_path, z, 'k = 1\nmargin = "200 m"\n'), pts)
+    note = res.table.note.iloc[0]
+    assert "C1 runs along the window's north edge" in note and "corridors.margin" in note
+    assert any(n.startswith("C1 runs along the window's north edge") for n in res.notes)
+    assert "north" not in res.grid.dem_edges  # the window ends inside the DEM
+    res = plan_corridors(site(tmp_path, z, 'k = 1\nmargin = "2 km"\n'), pts)
+    assert set(res.grid.dem_edges) == {"north", "south", "west", "east"}  # the whole DEM
+
+
+def test_head_deficit_named_on_the_console_and_in_the_table(tmp_path, capsys):
+    """The hill of the HGL test with the HGL term off: the route goes over
+    the 140 m top where the flow serves at most 113.08 m of ground (hand
+    calculation in that test, before friction), so the deficit is at least
+    26.9 m and both the console and corridors.csv name C1 and the deficit."""
+    import pandas as pd
+
+    rows, cols = np.mgrid[0:100, 0:140]
+    z = 100.0 + 40.0 * np.exp(-((rows - 50) ** 2 + (cols - 70) ** 2) / (2 * 12.0 ** 2))
+    site(tmp_path, z, 'hgl_weight = "0 / m"\nk = 1\nsteepness_weight = 0\n'
+         'roughness_weight = "0 / m"\n', extra=HYDRAULICS.format(head=126))
+    assert run_cli(["corridors", str(tmp_path / "project.toml"), "--from", "%f,%f" % xy(50, 5),
+                    "--to", "%f,%f" % xy(50, 135), "-o", str(tmp_path / "out")]) == 0
+    table = pd.read_csv(tmp_path / "out" / "corridors.csv")
+    deficit = table.max_head_deficit_m.iloc[0]
+    assert deficit >= 140.0 - 113.08 - 0.5  # the ground's top is sampled within a cell
+    said = f"C1: the design flow cannot serve its ground, up to {deficit:.2f} m"
+    assert said in table.note.iloc[0]
+    assert f"note: {said}" in capsys.readouterr().out
+
+
+def test_candidates_are_written_cheapest_first_in_every_output(tmp_path):
+    """Over the ridge with its pass, 100 m separation and k = 8, the
+    penalised search finds a dearer route before a cheaper one; the written
+    candidates are ordered by cost (C1 cheapest), and the table, the line
+    layer and the figure's profiles agree row for row."""
+    import geopandas as gpd
+    import pandas as pd
+
+    from gisgrade.corridors import plan_corridors
+    from gisgrade.corridors.path import shared_share
+
+    p = site(tmp_path, ridge_with_pass(), 'k = 8\nseparation = "100 m"\n')
+    res = plan_corridors(p, [xy(90, 27), xy(90, 133)])
+    t = res.table
+    assert len(t) >= 3
+    assert list(t.route) == [f"C{i + 1}" for i in range(len(t))]
+    assert np.all(np.diff(t.cost_m) >= 0)
+    assert np.allclose(t.cost_ratio, t.cost_m / t.cost_m.iloc[0])
+    res.write(tmp_path / "out")
+    back = gpd.read_file(tmp_path / "out" / "candidates.gpkg")
+    assert list(back.route) == list(t.route)
+    assert np.allclose(back.geometry.length, t.length_m)
+    assert np.allclose(pd.read_csv(tmp_path / "out" / "corridors.csv").cost_m, t.cost_m)
+    assert np.allclose([pr["distance"][-1] for pr in res.profiles], t.grid_length_m)
+    lines = list(res.candidates.geometry)
+    for i in range(1, len(lines)):  # shared is with the cheaper ones, at most max_shared
+        assert t.shared.iloc[i] == pytest.approx(
+            shared_share(lines[i], lines[:i], 100.0, res.points), abs=1e-9)
+        assert t.shared.iloc[i] <= 0.5
+
+
+def test_close_points_never_give_the_same_line_twice(tmp_path, capsys):
+    """Points 100 m apart with a 200 m separation: no two written candidates
+    are the same line (Hausdorff distance above a cell, shapely), fewer than
+    k come with a note; points closer than three cells are refused."""
+    from gisgrade.corridors import plan_corridors
+
+    p = site(tmp_path, np.full((60, 60), 100.0), "k = 3\n")
+    res = plan_corridors(p, [xy(30, 25), xy(30, 35)])
+    lines = list(res.candidates.geometry)
+    for i in range(len(lines)):
+        for j in range(i):
+            assert lines[i].hausdorff_distance(lines[j]) > CELL
+    if len(lines) < 3:
+        assert any("distinct route" in n or "left out" in n for n in res.notes)
+    a = xy(30, 25)
+    assert run_cli(["corridors", str(tmp_path / "project.toml"), "--from", "%f,%f" % a,
+                    "--to", "%f,%f" % (a[0] + 25.0, a[1]), "-o", str(tmp_path / "out")]) == 2
+    err = capsys.readouterr().err
+    assert "closer than 3 cost-grid cells (30 m)" in err and "\n" not in err.strip()
+    assert not (tmp_path / "out").exists()
+
+
+def test_eight_candidates_each_drawn_apart(tmp_path):
+    """With eight candidates the map's lines differ in colour or line style
+    pair by pair (matplotlib's own line properties), in the legend too."""
+    from matplotlib.colors import to_hex
+
+    from gisgrade.corridors import plan_corridors
+    from gisgrade.corridors.figure import corridor_figure
+
+    p = site(tmp_path, ridge_with_pass(), 'k = 8\nseparation = "50 m"\n')
+    res = plan_corridors(p, [xy(90, 27), xy(90, 133)])
+    assert len(res.table) == 8
+    fig = corridor_figure(res)
+    drawn = [ln for ln in fig.axes[0].get_lines() if (ln.get_gid() or "").startswith("route ")]
+    styles = [(to_hex(ln.get_color()), ln.get_linestyle()) for ln in drawn]
+    assert len(drawn) == 8 and len(set(styles)) == 8
+    legend = [h for h in fig.axes[2].get_legend().get_lines() if h.get_label().startswith("C")]
+    assert [(to_hex(h.get_color()), h.get_linestyle()) for h in legend] == styles
+
+
+def test_a_point_on_the_dem_edge_is_accepted(tmp_path):
+    """A source exactly on the DEM's west edge lies in the closed interval of
+    its bounds (rasterio's bounds): the route starts at that point."""
+    from gisgrade.corridors import plan_corridors
+
+    p = site(tmp_path, np.full((40, 60), 100.0), "k = 1\n")
+    a, b = (X0, xy(20, 0)[1]), xy(20, 50)
+    line = plan_corridors(p, [a, b]).candidates.geometry.iloc[0]
+    assert line.coords[0] == pytest.approx(a)
+    assert line.coords[-1] == pytest.approx(b)
+
+
+def test_a_via_that_doubles_back_gets_a_note(tmp_path):
+    """A waypoint behind the source: the route runs back over its own first
+    leg (a turn of 180 degrees at the waypoint), and a note says so."""
+    from gisgrade.corridors import plan_corridors
+
+    p = site(tmp_path, np.full((40, 100), 100.0), "k = 1\n")
+    res = plan_corridors(p, [xy(20, 40), xy(20, 10), xy(20, 90)])
+    assert any("turns the route back by 180 degrees" in n for n in res.notes)
+    fine = plan_corridors(p, [xy(20, 10), xy(5, 50), xy(20, 90)])
+    assert not any("turns the route back" in n for n in fine.notes)

@@ -16,12 +16,12 @@ def run_corridors(project_path, start, end, via, crs, k, outdir, compare=False, 
     from ..corridors.stage import read_point
     from ..errors import InputError
     from ..project import load
-    from ..result import resolve_outdir
+    from ..result import command_outdir
 
     if k is not None and k < 1:
         raise InputError(f"-k {k}: at least one route")
     project = load(project_path, ground_only=not compare)
-    out = resolve_outdir(project, outdir)
+    out = command_outdir(project, outdir, "-corridors")
     if out.exists() and not out.is_dir():
         raise InputError(f"output folder {out} is a file; give -o a folder")
     if crs is None:
@@ -83,7 +83,8 @@ def comparison_lines(project, table) -> list[str]:
 @click.option("--workers", type=int, default=None,
               help="with --compare: processes running the routes (0: this one; default: the cores)")
 @click.option("-o", "--outdir", type=click.Path(path_type=Path), default=None,
-              help="output folder (default: [output] dir, else gisgrade-out beside PROJECT)")
+              help="output folder (default: the run's output folder with -corridors added, "
+                   "e.g. gisgrade-out-corridors beside PROJECT)")
 @verbosity
 def command(project, start, end, via, crs, k, compare, workers, outdir, verbose, quiet):
     verbose, quiet = setup_logging(verbose, quiet)
@@ -97,7 +98,7 @@ def command(project, start, end, via, crs, k, compare, workers, outdir, verbose,
         d = display_of(result.project)
         for row in result.table.itertuples():
             click.echo(f"{row.route}: {d.text(row.length_m, 'length', 0)}, cost x{row.cost_ratio:.2f}, "
-                       f"{row.crossings} crossings, {row.shared:.0%} shared with earlier routes")
+                       f"{row.crossings} crossings, {row.shared:.0%} shared with cheaper routes")
         if result.comparison is not None:
             for line in comparison_lines(result.project, result.comparison):
                 click.echo(line)

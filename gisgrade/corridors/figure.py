@@ -3,7 +3,9 @@ with the cost surface faint beneath them, the no-go areas, the preferred
 corridors, the crossed features and the hand-drawn line when there is one.
 
 Colours: the Okabe-Ito palette (:data:`gisgrade.output.style.OKABE_ITO`), one
-colour per candidate; figures through matplotlib's object API only.
+colour per candidate, and after every six colours the next line style
+(:func:`route_style`), so no two candidates look alike; figures through
+matplotlib's object API only.
 """
 from __future__ import annotations
 
@@ -21,6 +23,22 @@ from ..output.style import OKABE_ITO
 #: One colour per candidate, in order (then repeated).
 ROUTE_COLOURS = [OKABE_ITO[n] for n in ("vermillion", "blue", "bluish green", "reddish purple",
                                         "orange", "sky blue")]
+
+#: Line styles, one per round of :data:`ROUTE_COLOURS` (solid, dashed, dotted, dash-dot).
+ROUTE_STYLES = ["-", (0, (5, 1.6)), (0, (1.2, 1.2)), (0, (5, 1.5, 1.2, 1.5))]
+
+
+def route_style(i: int):
+    """(colour, line style) of candidate ``i`` (0 for C1): each pair differs
+    from every other candidate's up to 24 candidates (then repeated).
+
+    >>> route_style(0) == route_style(6)
+    False
+    >>> route_style(0)[0] == route_style(6)[0]
+    True
+    """
+    n = len(ROUTE_COLOURS)
+    return ROUTE_COLOURS[i % n], ROUTE_STYLES[(i // n) % len(ROUTE_STYLES)]
 
 
 def _geoms(frames):
@@ -85,13 +103,14 @@ def corridor_figure(res) -> Figure:
                               label="drawn centerline"))
     t = res.table
     for i, (geom, row) in enumerate(zip(res.candidates.geometry, t.itertuples())):
-        colour = ROUTE_COLOURS[i % len(ROUTE_COLOURS)]
+        colour, ls = route_style(i)
         c = np.asarray(geom.coords)
         ax.plot(c[:, 0], c[:, 1], color="white", lw=4.6, zorder=5 + 0.1 * (len(t) - i),
                 solid_capstyle="round")
-        ax.plot(c[:, 0], c[:, 1], color=colour, lw=2.6, zorder=5.05 + 0.1 * (len(t) - i),
-                solid_capstyle="round", marker="o", ms=2.2, mfc="white", mec=colour, mew=0.6)
-        handles.append(Line2D([], [], color=colour, lw=2.6, label=(
+        ax.plot(c[:, 0], c[:, 1], color=colour, lw=2.6, ls=ls, zorder=5.05 + 0.1 * (len(t) - i),
+                solid_capstyle="round", dash_capstyle="butt", marker="o", ms=2.2, mfc="white",
+                mec=colour, mew=0.6, gid=f"route {row.route}")
+        handles.append(Line2D([], [], color=colour, lw=2.6, ls=ls, label=(
             f"{row.route}: {d.text(row.length_m, 'length', 0)}, cost x{row.cost_ratio:.2f}, "
             f"{row.crossings} crossing{'s' if row.crossings != 1 else ''}, "
             f"{row.shared:.0%} shared")))
@@ -132,9 +151,9 @@ def _profiles(ax, res, d: Display) -> None:
     ground the flow serves at the minimum pressure when the hydraulics are known."""
     served_shown = False
     for i, prof in enumerate(res.profiles):
-        colour = ROUTE_COLOURS[i % len(ROUTE_COLOURS)]
+        colour, ls = route_style(i)
         x = d.value(prof["distance"], "length")
-        ax.plot(x, d.value(prof["ground"], "elevation"), color=colour, lw=1.3)
+        ax.plot(x, d.value(prof["ground"], "elevation"), color=colour, lw=1.3, ls=ls)
         if prof["served"] is not None:
             ax.plot(x, d.value(prof["served"], "elevation"), color=colour, lw=0.9,
                     ls=(0, (4, 2)), label=None if served_shown else

@@ -21,7 +21,7 @@ References
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 import shapely
@@ -111,9 +111,27 @@ def near(cells, shape, cell: float, radius: float):
     return ndimage.distance_transform_edt(free, sampling=cell) <= radius
 
 
+def fixed_radius(fixed, radius: float) -> float:
+    """The radius around the ``fixed`` points ((m, 2), source, waypoints,
+    destination, in order) that the distinctness measure leaves out:
+    ``radius``, but at most a quarter of the shortest straight leg between
+    consecutive points, so that between close points (nearly) the whole
+    line counts (same units as ``fixed``).
+
+    >>> fixed_radius(np.array([[0.0, 0.0], [1000.0, 0.0]]), 200.0)
+    200.0
+    >>> fixed_radius(np.array([[0.0, 0.0], [3.0, 4.0]]), 200.0)  # 5 apart
+    1.25
+    """
+    fixed = np.asarray(fixed, float)
+    if len(fixed) < 2:
+        return float(radius)
+    return float(min(radius, np.min(np.hypot(*np.diff(fixed, axis=0).T)) / 4))
+
+
 def shared_share(line, earlier, radius: float, fixed=None) -> float:
     """Share [0..1] of ``line``'s length within ``radius`` of any of the
-    ``earlier`` lines, leaving out its length within ``radius`` of the
+    ``earlier`` lines, leaving out its length within :func:`fixed_radius` of the
     ``fixed`` points (source, waypoints, destination: every route meets
     there). 0 with no earlier line.
 
@@ -123,13 +141,16 @@ def shared_share(line, earlier, radius: float, fixed=None) -> float:
     1.0
     >>> round(shared_share(LineString([(0, 50), (100, 50)]), [a], 10.0), 3)
     0.0
+    >>> round(shared_share(a, [a], 200.0, fixed=[(0, 0), (100, 0)]), 3)  # close ends: all counts
+    1.0
     """
     if not earlier:
         return 0.0
     zone = shapely.union_all([shapely.buffer(e, radius) for e in earlier])
     part = line
     if fixed is not None and len(fixed):
-        part = line.difference(shapely.union_all(shapely.buffer(shapely.points(fixed), radius)))
+        around = fixed_radius(fixed, radius)
+        part = line.difference(shapely.union_all(shapely.buffer(shapely.points(fixed), around)))
     if part.length == 0:
         return 0.0
     return float(part.intersection(zone).length / part.length)
@@ -257,12 +278,14 @@ def alternatives(cost, points, cell: float, k: int, *, radius: float, factor: fl
     of ``unit`` metres) lies
     within ``radius`` of an earlier one
     (:func:`shared_share`), else the factor is squared and tried again, up to
-    ``tries`` times. Returns the candidates and a note when fewer than ``k``
-    were distinct.
+    ``tries`` times. Returns the candidates (in the order found; see
+    :func:`cheapest_first`) and a note when fewer than ``k`` were distinct.
+    The fixed points' neighbourhood (free of the penalty, left out of the
+    share) is :func:`fixed_radius`.
     """
     cost = np.asarray(cost, float)
     fixed_cells = np.asarray(points, int)
-    around_fixed = near(fixed_cells, cost.shape, cell, radius)
+    around_fixed = near(fixed_cells, cost.shape, cell, fixed_radius(fixed_cells * cell, radius))
     penalised = np.zeros(cost.shape, bool)
     found, lines, note = [], [], None
     for i in range(k):
@@ -288,3 +311,28 @@ def alternatives(cost, points, cell: float, k: int, *, radius: float, factor: fl
         lines.append(line)
         penalised |= near(cells, cost.shape, cell, radius) & ~around_fixed
     return found, note
+
+
+def cheapest_first(found, radius: float, max_shared: float, fixed=None):
+    """The candidates ``found`` (:class:`Alternative`) ordered by cost,
+    cheapest first, each kept when at most ``max_shared`` of its line lies
+    within ``radius`` (CRS units) of the cheaper ones kept before it
+    (:func:`shared_share`, recomputed in this order): (kept, how many were
+    dropped). A penalised search can find a dearer route before a cheaper
+    one, so the order found is not the order of cost.
+
+    >>> a = Alternative(np.zeros((1, 2)), 3.0, 0.0, 1.0, LineString([(0, 0), (10, 0)]), 0.0)
+    >>> b = Alternative(np.zeros((1, 2)), 2.0, 0.0, 1.0, LineString([(0, 5), (10, 5)]), 0.0)
+    >>> c = Alternative(np.zeros((1, 2)), 4.0, 0.0, 1.0, LineString([(0, 5), (10, 5)]), 0.0)
+    >>> kept, dropped = cheapest_first([a, c, b], 1.0, 0.5)
+    >>> [x.cost for x in kept], [x.shared for x in kept], dropped
+    ([2.0, 3.0], [0.0, 0.0], 1)
+    """
+    kept, lines = [], []
+    for alt in sorted(found, key=lambda a: a.cost):
+        share = shared_share(alt.line, lines, radius, fixed)
+        if lines and share > max_shared:
+            continue
+        kept.append(replace(alt, shared=share))
+        lines.append(alt.line)
+    return kept, len(found) - len(kept)

@@ -28,7 +28,15 @@ FILES = ("candidates.gpkg", "cost.tif", "corridors.png", "corridors.csv")
 COLUMNS = ["route", "length_m", "grid_length_m", "cost_m", "line_cost_m", "cost_ratio", "shared",
            "crossings",
            "climb_m", "min_ground_m", "max_ground_m", "max_slope", "max_head_deficit_m",
-           "vertices", "tolerance_m", "penalty_factor"]
+           "vertices", "tolerance_m", "penalty_factor", "note"]
+
+#: A --via whose legs turn back by more than this [degrees] gets a note
+#: (the legs before and after it meet at under 45 degrees; common practice).
+DOUBLE_BACK = 135.0
+
+#: Consecutive points closer than this many cost-grid cells are refused
+#: (common practice: fewer leave no room for distinct routes).
+MIN_CELLS_APART = 3
 
 
 @dataclass(frozen=True)
@@ -44,6 +52,8 @@ class Grid:
     mpu: float  # metres per CRS unit
     native: float  # the DEM's own cell, CRS units
     path: Path
+    #: sides of the window ("north", "south", "west", "east") that are the DEM's own edge
+    dem_edges: tuple = ()
 
     @property
     def cell(self) -> float:
@@ -56,8 +66,10 @@ class Grid:
         return from_origin(self.x0, self.y0, self.step, self.step)
 
     def cells_of(self, xy) -> np.ndarray:
-        """(row, col) of points ``xy`` ((m, 2), CRS units)."""
-        return np.floor(self.fractional_cells(xy) + 0.5).astype(int)
+        """(row, col) of points ``xy`` ((m, 2), CRS units); a point on the
+        window's outer edge falls in the cell inside it."""
+        rc = np.floor(self.fractional_cells(xy) + 0.5).astype(int)
+        return np.clip(rc, 0, np.array(self.z.shape) - 1)
 
     def fractional_cells(self, xy) -> np.ndarray:
         """(row, col) of points ``xy`` as fractions, cell centres whole."""
@@ -154,20 +166,68 @@ def choose_dem(project, xy):
     for path in project.terrain.dem:
         with rasterio.open(path) as src:
             b = src.bounds
-        inside = ((xy[:, 0] > b.left) & (xy[:, 0] < b.right) & (xy[:, 1] > b.bottom)
-                  & (xy[:, 1] < b.top))
+        inside = ((xy[:, 0] >= b.left) & (xy[:, 0] <= b.right) & (xy[:, 1] >= b.bottom)
+                  & (xy[:, 1] <= b.top))  # the edge is inside
         if inside.all():
             return path
     bad = xy[0]
     with rasterio.open(project.terrain.dem[0]) as src:
         b = src.bounds
         for p in xy:
-            if not (b.left < p[0] < b.right and b.bottom < p[1] < b.top):
+            if not (b.left <= p[0] <= b.right and b.bottom <= p[1] <= b.top):
                 bad = p
                 break
     raise InputError(f"point ({bad[0]:.2f}, {bad[1]:.2f}) lies outside the DEM "
                      f"{Path(str(project.terrain.dem[0])).name} (x {b.left:.0f}..{b.right:.0f}, "
                      f"y {b.bottom:.0f}..{b.top:.0f} in its CRS); check the coordinates and --crs")
+
+
+def default_margin(xy, mpu: float = 1.0) -> float:
+    """The window's default margin [m] around points ``xy`` ((m, 2), CRS
+    units of ``mpu`` metres, in order): half the longest straight leg
+    between consecutive points, at least 500 m (common practice). A route
+    whose legs are each at most sqrt(2) times their straight length stays
+    inside: such a leg lies in the ellipse with the leg's ends as foci and
+    major axis sqrt(2) x the leg, whose semi-minor axis is half the leg and
+    whose ends reach 0.21 legs beyond the points (plane geometry).
+
+    >>> default_margin(np.array([[0.0, 0.0], [3000.0, 0.0]]))
+    1500.0
+    >>> default_margin(np.array([[0.0, 0.0], [400.0, 0.0], [400.0, 2400.0]]))
+    1200.0
+    >>> default_margin(np.array([[0.0, 0.0], [100.0, 0.0]]))
+    500.0
+    """
+    legs = np.hypot(*np.diff(np.asarray(xy, float), axis=0).T) * mpu
+    return float(max(500.0, np.max(legs) / 2))
+
+
+def turn_angles(xy) -> np.ndarray:
+    """The turn [degrees, 0..180] of the straight legs at each waypoint of
+    ``xy`` ((m, 2): source, waypoints, destination): 0 straight on, 180
+    straight back.
+
+    >>> turn_angles(np.array([[0.0, 0.0], [10.0, 0.0], [10.0, 10.0], [0.0, 10.0]])).tolist()
+    [90.0, 90.0]
+    >>> turn_angles(np.array([[0.0, 0.0], [-10.0, 0.0], [30.0, 0.0]])).tolist()
+    [180.0]
+    """
+    v = np.diff(np.asarray(xy, float), axis=0)
+    a, b = v[:-1], v[1:]
+    cos = np.sum(a * b, axis=1) / (np.hypot(*a.T) * np.hypot(*b.T))
+    return np.degrees(np.arccos(np.clip(cos, -1.0, 1.0)))
+
+
+def edge_runs(cells, shape, min_cells: int = 3) -> dict:
+    """The sides of a grid of ``shape`` along which the path ``cells``
+    ((n, 2) rows, cols) runs for at least ``min_cells`` cells: {side: cells}.
+
+    >>> edge_runs(np.array([[5, 0], [5, 1], [4, 2], [0, 3], [0, 4], [0, 5], [1, 6]]), (10, 10))
+    {'north': 3}
+    """
+    r, c = np.asarray(cells, int).T
+    on = {"north": r == 0, "south": r == shape[0] - 1, "west": c == 0, "east": c == shape[1] - 1}
+    return {side: int(m.sum()) for side, m in on.items() if m.sum() >= min_cells}
 
 
 def read_window(path, xy, *, margin: float, resolution: float | None, max_cells: float,
@@ -201,12 +261,15 @@ def read_window(path, xy, *, margin: float, resolution: float | None, max_cells:
             raise InputError(f"terrain.dem: {Path(str(path)).name}: the window around the points "
                              "is too small for a route; move the points apart")
         win = Window(c0, r0, cols * step, rows * step)
+        edges = tuple(side for side, at in (("north", r0 == 0), ("west", c0 == 0),
+                                            ("south", r0 + rows * step >= src.height),
+                                            ("east", c0 + cols * step >= src.width)) if at)
         data = src.read(1, window=win, out_shape=(rows, cols), masked=True,
                         resampling=Resampling.average if step > 1 else Resampling.nearest)
         z = np.ma.filled(data.astype(np.float64), np.nan) * vertical_factor
         crs = pyproj.CRS.from_user_input(src.crs)
     return Grid(z, t.c + c0 * native, t.f - r0 * native, native * step, crs, mpu, native,
-                Path(str(path)))
+                Path(str(path)), edges)
 
 
 # --------------------------------------------------------------------------
@@ -454,8 +517,7 @@ def plan_corridors(project, points, *, crs=None, k=None) -> CorridorResult:
     crs_dem, mpu = dem_crs(project)
     xy = to_dem_crs(np.asarray(points, float), crs if crs is not None else crs_dem, crs_dem)
     path = choose_dem(project, xy)
-    span = float(np.max(np.ptp(xy, axis=0))) * mpu
-    margin = cfg.margin if cfg.margin is not None else max(500.0, span / 4)
+    margin = cfg.margin if cfg.margin is not None else default_margin(xy, mpu)
     from ..terrain import vertical_unit_factor
     grid = read_window(path, xy, margin=margin, resolution=cfg.resolution,
                        max_cells=cfg.max_cells,
@@ -476,11 +538,18 @@ def plan_corridors(project, points, *, crs=None, k=None) -> CorridorResult:
         if layers.no_go.intersects(shapely.Point(p)):
             raise InputError(f"{name} ({p[0]:.2f}, {p[1]:.2f}): the point lies in a no-go area "
                              "(corridors.no_go)")
-    same = np.flatnonzero((np.diff(cells, axis=0) == 0).all(axis=1))
-    if len(same):
-        i = int(same[0]) + 1
-        raise InputError(f"{names[i]} ({xy[i][0]:.2f}, {xy[i][1]:.2f}): in the same "
-                         f"{grid.cell:.3g} m cost-grid cell as the point before it")
+    apart = np.hypot(*np.diff(xy, axis=0).T) * mpu
+    close = np.flatnonzero(apart < MIN_CELLS_APART * grid.cell)
+    if len(close):
+        i = int(close[0]) + 1
+        raise InputError(f"{names[i]} ({xy[i][0]:.2f}, {xy[i][1]:.2f}): {apart[i - 1]:.3g} m "
+                         f"from the point before it, closer than {MIN_CELLS_APART} cost-grid "
+                         f"cells ({MIN_CELLS_APART * grid.cell:.3g} m); move the points apart")
+    turns = turn_angles(xy)
+    for i in np.flatnonzero(turns > DOUBLE_BACK):
+        notes.append(f"--via ({xy[i + 1][0]:.2f}, {xy[i + 1][1]:.2f}) turns the route back "
+                     f"by {turns[i]:.0f} degrees: the legs before and after it run "
+                     "over the same ground; check the order of the --via points")
     reach, why = hydraulic_reach(project)
     if why:
         notes.append(why)
@@ -530,6 +599,13 @@ def plan_corridors(project, points, *, crs=None, k=None) -> CorridorResult:
         raise InputError(f"no route between the points: {note}")
     if note:
         notes.append(note)
+    found, dropped = P.cheapest_first(found, cfg.separation / mpu, cfg.max_shared, xy)
+    if dropped:
+        notes.append(f"{dropped} candidate{'s' if dropped != 1 else ''} left out: put cheapest "
+                     f"first, {'they share' if dropped != 1 else 'it shares'} more than "
+                     f"{cfg.max_shared:.0%} of the length with a cheaper one")
+    from ..display import display_of
+    d = display_of(project)
     rows, geoms, profiles = [], [], []
     z = grid.z
     s = C.slope(z, grid.cell, grid.cell)
@@ -537,6 +613,21 @@ def plan_corridors(project, points, *, crs=None, k=None) -> CorridorResult:
         line = alt.line
         r, c = alt.cells.T
         ground = z[r, c]
+        said = []
+        worst = float(np.max(deficit[r, c]))
+        if worst > 0:
+            said.append(f"C{i + 1}: the design flow cannot serve its ground, up to "
+                        f"{d.text(worst, 'head')} of head short of the minimum pressure "
+                        "(max_head_deficit_m)")
+        for side, n in edge_runs(alt.cells, z.shape).items():
+            where = "DEM's" if side in grid.dem_edges else "window's"
+            said.append(f"C{i + 1} runs along the {where} {side} edge for "
+                        f"{d.text(n * grid.cell, 'length', 0)}: "
+                        + ("the DEM may end before the cheapest route"
+                           if side in grid.dem_edges else
+                           "the window may be too small (a wider corridors.margin may find a "
+                           "cheaper route)"))
+        notes.extend(said)
         rows.append(dict(route=f"C{i + 1}", length_m=line.length * mpu,
                          grid_length_m=raw_line(alt.cells).length * mpu, cost_m=alt.cost,
                          line_cost_m=line_cost(line),
@@ -545,9 +636,9 @@ def plan_corridors(project, points, *, crs=None, k=None) -> CorridorResult:
                          climb_m=float(np.sum(np.maximum(np.diff(ground), 0.0))),
                          min_ground_m=float(np.min(ground)), max_ground_m=float(np.max(ground)),
                          max_slope=float(np.max(s[r, c])),
-                         max_head_deficit_m=float(np.max(deficit[r, c])),
+                         max_head_deficit_m=worst,
                          vertices=len(line.coords), tolerance_m=alt.tolerance * mpu,
-                         penalty_factor=alt.factor))
+                         penalty_factor=alt.factor, note="; ".join(said)))
         geoms.append(line)
         along = np.concatenate([[0.0], np.cumsum(np.hypot(*np.diff(alt.cells, axis=0).T))])
         profiles.append(dict(distance=along * grid.cell, ground=ground,
