@@ -73,3 +73,29 @@ def test_where_and_feature_together_are_refused_in_one_line(tmp_path, capsys):
     err = capsys.readouterr().err.strip()
     assert len(err.splitlines()) == 1 and "alignment.where" in err and "alignment.feature" in err
     assert "Traceback" not in err and not out.exists() and p.read_text() == before
+
+
+def test_pressures_below_vapour_are_flagged_in_csv_and_never_printed_as_numbers(tmp_path):
+    # 100 mm carrying 50 L/s over 1 km loses far more head than the 100 m the source
+    # holds above the flat ground: the computed pressure falls under the lowest gauge
+    # pressure water holds (IAPWS-IF97 vapour pressure at 15 degC less the US Standard
+    # Atmosphere 1976 at the pipe; iapws and fluids). gradelines.csv keeps the computed
+    # value and flags it; summary.txt and report.html say so in words, no number there.
+    import pandas as pd
+    from fluids.atmosphere import ATMOSPHERE_1976
+    from iapws.iapws97 import _PSat_T
+
+    p = flat_site(tmp_path)
+    p.write_text(p.read_text().replace('"300 mm"', '"100 mm"').replace('"320 mm"', '"120 mm"'))
+    out = tmp_path / "out"
+    assert main(["run", str(p), "-o", str(out), "-q", "--no-figures"]) == 0
+    g = pd.read_csv(out / "gradelines.csv")
+    assert list(g.columns)[-1] == "below_vapour"
+    floor_kpa = (_PSat_T(288.15) * 1e6 - ATMOSPHERE_1976(100.0 - 1.25).P) / 1e3
+    far = (g["pressure_kpa"] < floor_kpa - 1.0) | (g["pressure_kpa"] > floor_kpa + 1.0)
+    assert (g["below_vapour"] == (g["pressure_kpa"] < floor_kpa))[far].all()
+    assert g["below_vapour"].any() and not g["below_vapour"].all()
+    text = (out / "summary.txt").read_text() + (out / "report.html").read_text()
+    assert "below vapour pressure (the column separates)" in text
+    shown = [float(v) for v in re.findall(r"(-?\d+(?:\.\d+)?) kPa", text)]
+    assert shown and min(shown) >= floor_kpa - 0.05, min(shown)

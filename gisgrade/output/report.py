@@ -113,7 +113,7 @@ def scenario_rows(summary, d: Display):
     separated = set(summary.get("column_separation", []))
     rows = []
     for sc in summary["scenarios"]:
-        low = ("below vapour pressure (not achievable)" if sc["scenario"] in separated
+        low = ("below vapour pressure (the column separates)" if sc["scenario"] in separated
                else d.text(sc["pressure_min_kpa"] * 1e3, "pressure"))
         rows.append([e(sc["scenario"]), d.text(sc["flow_m3_s"], "flow"),
                      f"{e(low)} at {at(sc['pressure_min_station_m'])}",

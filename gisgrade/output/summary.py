@@ -181,7 +181,7 @@ def summary_text(summary: dict) -> str:
     separated = set(summary.get("column_separation", []))
     for sc in summary["scenarios"]:
         low = (d.text(sc["pressure_min_kpa"] * 1e3, "pressure") if sc["scenario"] not in separated
-               else "below vapour pressure (not achievable)")
+               else "below vapour pressure (the column separates)")
         lines.append(
             f"{sc['scenario']}: {d.text(sc['flow_m3_s'], 'flow')}, pressure "
             f"{low} at {at(sc['pressure_min_station_m'])}"
