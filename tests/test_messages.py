@@ -99,3 +99,30 @@ def test_pressures_below_vapour_are_flagged_in_csv_and_never_printed_as_numbers(
     assert "below vapour pressure (the column separates)" in text
     shown = [float(v) for v in re.findall(r"(-?\d+(?:\.\d+)?) kPa", text)]
     assert shown and min(shown) >= floor_kpa - 0.05, min(shown)
+
+
+def test_report_tables_read_in_us_units_without_python_reprs(tmp_path):
+    # 200 m of source head over flat ground at 100 m is about 980 kPa (142 psi), above
+    # the 80 psi default maximum, so a PRV is suggested: the report's energy and
+    # pressure-management tables must read in psi, ft and hp (1 psi = 6894.757 Pa,
+    # 1 ft = 0.3048 m: NIST SP 811), with no SI heading and no Python dict, None or True.
+    import html as html_lib
+    import json
+
+    p = flat_site(tmp_path, '\n[output]\nunits = "US"\n')
+    out = tmp_path / "out"
+    assert main(["run", str(p), "-o", str(out), "-q", "--no-figures"]) == 0
+    page = (out / "report.html").read_text()
+    text = html_lib.unescape(re.sub(r"<[^>]+>", " ", re.sub(r"data:image[^\"]+", "", page)))
+    for bad in ("{'", "None", "True", "False", " kpa", " kw", "step m", "setting kpa", "station m"):
+        assert bad not in text, bad
+    pm = page.split("<h2>Pressure management</h2>")[1].split("</table>")[0]
+    heads = re.findall(r"<th>([^<]*)</th>", pm)
+    assert heads == ["kind", "station", "setting", "step", "applied"], heads
+    s = json.loads((out / "summary.json").read_text())
+    first = s["pressure_management"][0]
+    assert f"{first['setting_kpa'] * 1e3 / 6894.757293168361:.1f} psi" in pm
+    step = next(iter(first["step_m"].items()))
+    assert f"{step[0]}: {step[1] / 0.3048:.2f} ft" in pm
+    energy = page.split("<h2>Energy</h2>")[1].split("</table>")[0]
+    assert "<th>pump head</th>" in energy and " ft<" in energy and " hp<" in energy
