@@ -264,11 +264,22 @@ def comparison_figure(table: pd.DataFrame, project, lines=()):
     dia = d.value(x["inside_diameter_m"].to_numpy(), "length") * (1000 if not d.us else 12)
     dunit = "mm" if not d.us else "in"
     from .output.plot import SCENARIO_COLOURS
+    # a least pressure under the vapour floor is no pressure the line has: drawn at
+    # the floor (sea level, the project temperature) as an open triangle, not its number
+    floor = float(vapour_floor(0.0, project.hydraulics.temperature))
+    marked = False
     for n, name in enumerate(flows):
         r = table[table["scenario"] == name]
         colour = SCENARIO_COLOURS[n % len(SCENARIO_COLOURS)]
-        axes[0].plot(dia, d.value(r["min_pressure_kpa"].to_numpy() * 1e3, "pressure"), "o-",
-                     color=colour, label=name)
+        below = (r["below_vapour"].to_numpy(bool) if "below_vapour" in r
+                 else np.zeros(len(r), dtype=bool))
+        least = np.where(below, floor, r["min_pressure_kpa"].to_numpy() * 1e3)
+        axes[0].plot(dia, d.value(least, "pressure"), "o-", color=colour, label=name)
+        if below.any():
+            axes[0].plot(dia[below], d.value(least[below], "pressure"), "v", ms=11, mfc="white",
+                         color=colour, label=None if marked else
+                         "below vapour pressure\n(the column separates)")
+            marked = True
         if two_heads:  # the heads are given: the flow they drive is the result
             axes[1].plot(dia, d.value(r["inflow_m3_s"].to_numpy(), "flow"), "o-", color=colour,
                          label=name)

@@ -211,6 +211,19 @@ def test_candidates_keep_the_names_typed_and_flag_pressures_below_vapour(tmp_pat
     floor = _PSat_T(288.15) * 1e6 - ATMOSPHERE_1976(100.0).P
     assert design.loc["100 mm", "min_pressure_kpa"] * 1e3 < floor
     assert bool(design.loc["100 mm", "below_vapour"]) and not bool(design.loc["12 in", "below_vapour"])
+    # sizes.png draws no least pressure under the sea-level vapour floor (in psi)
+    from gisgrade.pipeline import compute
+    from gisgrade.project import load
+    from gisgrade.sizes import candidate_project, candidates_from_text, compare, comparison_figure
+
+    project = load(p)
+    cands = candidates_from_text(project, "100 mm, 12 in")
+    table2, lines = compare(project, cands, [compute(candidate_project(project, c)) for c in cands])
+    ax = comparison_figure(table2, project, lines).axes[0]
+    drawn = np.concatenate([line.get_ydata() for line in ax.get_lines()])
+    sea_floor_psi = (_PSat_T(288.15) * 1e6 - 101325.0) / 6894.757293168361
+    assert drawn.min() == pytest.approx(sea_floor_psi, rel=1e-3)
+    assert any("below vapour pressure" in t.get_text() for t in ax.get_legend().get_texts())
     # one size typed twice in two spellings: one line naming both as typed, exit 2
     out2 = tmp_path / "dup"
     assert main(["sizes", str(p), "--candidates", "250 mm, 0.25 m", "-o", str(out2)]) == 2
