@@ -460,7 +460,8 @@ def suggest_elements(station, axis, hgl, hgl_upstream, egl, flowing, names, p_mi
                      else f"{label(station[a])} to {label(station[b])}")
             bad_still.append(Unfixable(float(station[a]), float(station[b]), (
                 f"{names[k]} {where}: pressure "
-                f"{'falls ' + VAPOUR if p < floor[w] else 'down to ' + kpa(p)} at {label(station[w])}, "
+                f"{'falls ' + VAPOUR if p < floor[w] else 'down to ' + kpa(p)} at "
+                f"{label(station[w])}, "
                 f"below {kpa(p_min)}; with no flow the boosters are off and a PRV only "
                 "lowers the line, so no element raises it")))
     unfixable = tuple(sorted(bad_still + _stretches(bad, station, label, kpa, p_min, p_max),

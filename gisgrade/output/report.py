@@ -123,9 +123,7 @@ def _unit_of(key: str):
 
 def _heading(key: str) -> str:
     kind, _, end = _unit_of(key)
-    if kind == "station":
-        end = "_m"
-    elif kind == "diameter":
+    if kind in ("station", "diameter"):  # "pressure_min_station_m": "pressure min station"
         end = "_m"
     name = key[: len(key) - len(end)] if end else key
     return name.replace("_", " ").strip() or key
