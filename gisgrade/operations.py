@@ -15,6 +15,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .display import display_of
+from .hydraulics.atmosphere import vapour_floor
 from .hydraulics.elements import suggest_elements
 from .hydraulics.energy import stage_energy
 from .hydraulics.stage import project_elements
@@ -53,5 +54,6 @@ def stage_operations(project, table, grades) -> Operations:
                                 checks.min_pressure, checks.max_pressure, grades.density,
                                 display=display_of(project), resets=[int(r) for r in resets],
                                 check_min=grades.minimum_applies, base=grades.plain,
-                                own=project_elements(project, table) if len(own) else ())
+                                own=project_elements(project, table) if len(own) else (),
+                                p_floor=vapour_floor(grades.axis, project.hydraulics.temperature))
     return Operations(surge, energy, proposal, notes)

@@ -18,11 +18,13 @@ import numpy as np
 import pandas as pd
 
 from .errors import InputError
+from .hydraulics.atmosphere import vapour_floor
 from .hydraulics.energy import KWH, present_value_factor
 from .hydraulics.friction import G
 
 #: sizes.csv columns (then inflow_m3_s, the flow entering: the result with
-#: ``two-heads``; then capital_cost and life_cycle_cost when costs are given;
+#: ``two-heads``; below_vapour, true where min_pressure_kpa is under the lowest
+#: gauge pressure water holds, the column separates; then capital_cost and life_cycle_cost when costs are given;
 #: with a US display a US column beside each SI one).
 COLUMNS = ["candidate", "inside_diameter_m", "scenario", "head_loss_m", "min_pressure_kpa",
            "max_pressure_kpa", "max_velocity_m_s", "surge_head_m", "pump_head_m",
@@ -85,22 +87,29 @@ def _size_name(d: float, project) -> str:
 
 def candidates_from_text(project, text: str, key: str = "--candidates") -> list[Candidate]:
     """Candidates from a comma-separated list of inside diameters
-    (``"200 mm, 250 mm"``), each with the project pipe's wall.
+    (``"200 mm, 250 mm"``), each with the project pipe's wall and named as
+    the user typed it (``sizes.csv`` gives the diameter in the display units
+    beside the name).
 
     >>> from types import SimpleNamespace as NS
     >>> p = NS(pipe=NS(inside_diameter=0.305, outside_diameter=0.326), output=NS(units="SI"))
     >>> [(c.name, round(c.outside_diameter, 3)) for c in candidates_from_text(p, "250 mm, 0.4 m")]
-    [('250 mm', 0.271), ('400 mm', 0.421)]
+    [('250 mm', 0.271), ('0.4 m', 0.421)]
     """
     from .units import parse_quantity
 
     parts = [p.strip() for p in text.split(",") if p.strip()]
     if not parts:
         raise InputError(f"{key} = {text!r}: give inside diameters such as \"200 mm, 250 mm\"")
-    out = []
+    out, seen = [], {}
     for part in parts:
         d = check_size(parse_quantity(part, "length", key), part, key)
-        out.append(Candidate(_size_name(d, project), d, d + _wall(project)))
+        name = " ".join(part.split())
+        if round(d, 9) in seen:  # "250 mm" and "0.25 m": one size, whatever the spelling
+            raise InputError(f"{key}: candidate {name!r} is the same inside diameter as "
+                             f"{seen[round(d, 9)]!r}")
+        seen[round(d, 9)] = name
+        out.append(Candidate(name, d, d + _wall(project)))
     return _unique(out, key)
 
 
@@ -157,6 +166,7 @@ def scenario_rows(result, c: Candidate) -> list[dict]:
     steps = (g.elements.groupby("scenario")["step_m"].sum() if len(g.elements)
              else pd.Series(dtype=float))
     failing = set(f.loc[f["code"].isin(HYDRAULIC_CHECKS), "scenario"]) if f is not None else set()
+    floor = vapour_floor(g.axis, result.project.hydraulics.temperature)
     rows = []
     for k, name in enumerate(g.names):
         e = per.iloc[k] if per is not None else None
@@ -171,7 +181,8 @@ def scenario_rows(result, c: Candidate) -> list[dict]:
             pump_head_m=float(e.pump_head_m) if e is not None else 0.0,
             annual_energy_kwh=float(e.energy_j / KWH) if e is not None else 0.0,
             annual_cost=(np.nan if e is None or e.cost is None else float(e.cost)),
-            passes=name not in failing, inflow_m3_s=float(g.flow[k, 0])))
+            passes=name not in failing, inflow_m3_s=float(g.flow[k, 0]),
+            below_vapour=bool((g.pressure_low[k] < floor).any())))
     return rows
 
 
@@ -179,7 +190,7 @@ def compare(project, candidates, results) -> tuple[pd.DataFrame, list[str]]:
     """``sizes.csv`` as a table, and the verdict lines (which size carries each
     scenario, the cheapest that passes). ``results`` one per candidate."""
     rows = [r for c, res in zip(candidates, results) for r in scenario_rows(res, c)]
-    table = pd.DataFrame(rows, columns=COLUMNS + ["inflow_m3_s"])
+    table = pd.DataFrame(rows, columns=COLUMNS + ["inflow_m3_s", "below_vapour"])
     lines = []
     from .display import Display
     d = Display(project.output.units)
@@ -253,11 +264,22 @@ def comparison_figure(table: pd.DataFrame, project, lines=()):
     dia = d.value(x["inside_diameter_m"].to_numpy(), "length") * (1000 if not d.us else 12)
     dunit = "mm" if not d.us else "in"
     from .output.plot import SCENARIO_COLOURS
+    # a least pressure under the vapour floor is no pressure the line has: drawn at
+    # the floor (sea level, the project temperature) as an open triangle, not its number
+    floor = float(vapour_floor(0.0, project.hydraulics.temperature))
+    marked = False
     for n, name in enumerate(flows):
         r = table[table["scenario"] == name]
         colour = SCENARIO_COLOURS[n % len(SCENARIO_COLOURS)]
-        axes[0].plot(dia, d.value(r["min_pressure_kpa"].to_numpy() * 1e3, "pressure"), "o-",
-                     color=colour, label=name)
+        below = (r["below_vapour"].to_numpy(bool) if "below_vapour" in r
+                 else np.zeros(len(r), dtype=bool))
+        least = np.where(below, floor, r["min_pressure_kpa"].to_numpy() * 1e3)
+        axes[0].plot(dia, d.value(least, "pressure"), "o-", color=colour, label=name)
+        if below.any():
+            axes[0].plot(dia[below], d.value(least[below], "pressure"), "v", ms=11, mfc="white",
+                         color=colour, label=None if marked else
+                         "below vapour pressure\n(the column separates)")
+            marked = True
         if two_heads:  # the heads are given: the flow they drive is the result
             axes[1].plot(dia, d.value(r["inflow_m3_s"].to_numpy(), "flow"), "o-", color=colour,
                          label=name)

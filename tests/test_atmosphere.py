@@ -20,3 +20,14 @@ def test_matches_us_standard_atmosphere_1976():
     np.testing.assert_allclose(atmospheric_pressure(z), ref, rtol=2e-4)
     # Table value (US Standard Atmosphere 1976, from memory): 89 876 Pa at 1000 m.
     assert atmospheric_pressure(1000.0) == pytest.approx(89876.0, rel=5e-5)
+
+
+def test_vapour_floor_against_iapws_and_the_1976_atmosphere():
+    # The lowest gauge pressure water holds: IAPWS-IF97 saturation pressure (iapws.iapws97,
+    # Psat at T) less the US Standard Atmosphere 1976 (fluids) at the elevation.
+    from iapws.iapws97 import _PSat_T
+
+    from gisgrade.hydraulics.atmosphere import vapour_floor
+    for z, t in ((0.0, 288.15), (1500.0, 278.15), (400.0, 303.15)):
+        ref = _PSat_T(t) * 1e6 - ATMOSPHERE_1976(z).P
+        assert float(vapour_floor(z, t)) == pytest.approx(ref, rel=5e-4)

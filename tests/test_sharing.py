@@ -515,7 +515,7 @@ def test_report_renders_in_chromium_with_its_figures_and_key_numbers(demo_us, tm
     for name in ("average day", "peak hour", "static"):
         p = g[g["scenario"] == name]["pressure_kpa"] * 1e3 / PSI
         assert f"{p.max():.1f} psi" in dom, name
-    assert "licensed professional engineer" in dom and "not achievable" in dom
+    assert "licensed professional engineer" in dom and "below vapour pressure (the column separates)" in dom
 
 
 def test_surge_and_energy_are_shown_when_a_run_has_them(demo_si, tmp_path):

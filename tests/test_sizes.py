@@ -183,3 +183,50 @@ def test_partly_given_costs_get_a_note_and_absurd_sizes_a_one_line_error(tmp_pat
         err = capsys.readouterr().err.strip()
         assert len(err.splitlines()) == 1 and "--candidates" in err and word in err, err
         assert "Traceback" not in err and not out2.exists()
+
+
+def test_candidates_keep_the_names_typed_and_flag_pressures_below_vapour(tmp_path, capsys):
+    # A US display shows "100 mm" as typed (its inches in inside_diameter_in beside
+    # it; 1 in = 25.4 mm, NIST SP 811). 100 mm carrying 50 L/s over 1 km loses more
+    # head than the 100 m above the flat ground (Darcy-Weisbach with fluids' friction
+    # factor, IAPWS-95 water), so its computed least pressure is under the lowest
+    # gauge pressure water holds (IAPWS-IF97 vapour pressure less the US Standard
+    # Atmosphere 1976, both from the reference libraries): below_vapour flags it.
+    import fluids
+    from fluids.atmosphere import ATMOSPHERE_1976
+    from iapws import IAPWS95
+    from iapws.iapws97 import _PSat_T
+
+    p = flat_site(tmp_path, CHECKS + '\n[output]\nunits = "US"\n')
+    out = tmp_path / "sizes"
+    assert main(["sizes", str(p), "--candidates", "100 mm, 12 in", "-o", str(out), "-q"]) == 0
+    table = pd.read_csv(out / "sizes.csv")
+    design = table[table["scenario"] == "design"].set_index("candidate")
+    assert list(design.index) == ["100 mm", "12 in"]
+    assert design.loc["100 mm", "inside_diameter_in"] == pytest.approx(100 / 25.4, rel=1e-6)
+    w, d, q = IAPWS95(T=288.15, P=0.101325), 0.1, 0.05
+    v = q / (np.pi * d ** 2 / 4)
+    loss = fluids.friction.friction_factor(Re=w.rho * v * d / w.mu, eD=1e-3) * 1000 / d * v ** 2 / (2 * G)
+    assert loss > 200.0 - 100.0 + 10.4  # the source head cannot push it: below vapour
+    floor = _PSat_T(288.15) * 1e6 - ATMOSPHERE_1976(100.0).P
+    assert design.loc["100 mm", "min_pressure_kpa"] * 1e3 < floor
+    assert bool(design.loc["100 mm", "below_vapour"]) and not bool(design.loc["12 in", "below_vapour"])
+    # sizes.png draws no least pressure under the sea-level vapour floor (in psi)
+    from gisgrade.pipeline import compute
+    from gisgrade.project import load
+    from gisgrade.sizes import candidate_project, candidates_from_text, compare, comparison_figure
+
+    project = load(p)
+    cands = candidates_from_text(project, "100 mm, 12 in")
+    table2, lines = compare(project, cands, [compute(candidate_project(project, c)) for c in cands])
+    ax = comparison_figure(table2, project, lines).axes[0]
+    drawn = np.concatenate([line.get_ydata() for line in ax.get_lines()])
+    sea_floor_psi = (_PSat_T(288.15) * 1e6 - 101325.0) / 6894.757293168361
+    assert drawn.min() == pytest.approx(sea_floor_psi, rel=1e-3)
+    assert any("below vapour pressure" in t.get_text() for t in ax.get_legend().get_texts())
+    # one size typed twice in two spellings: one line naming both as typed, exit 2
+    out2 = tmp_path / "dup"
+    assert main(["sizes", str(p), "--candidates", "250 mm, 0.25 m", "-o", str(out2)]) == 2
+    err = capsys.readouterr().err.strip()
+    assert "'0.25 m' is the same inside diameter as '250 mm'" in err and len(err.splitlines()) == 1
+    assert not out2.exists()

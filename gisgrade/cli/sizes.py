@@ -46,10 +46,20 @@ def run_sizes(project_path, candidates_text, outdir, echo=lambda s: None):
         from ..display import Display
         from ..output.csv import write_csv
 
-        write_csv(Display(project.output.units).dual(table), tmp / "sizes.csv", 6)
+        write_csv(us_diameters(Display(project.output.units).dual(table)), tmp / "sizes.csv", 6)
         comparison_figure(table, project, lines).savefig(tmp / "sizes.png", dpi=120)
         (tmp / "sizes.txt").write_text(text)
     return lines + notes, out
+
+
+def us_diameters(frame):
+    """``frame`` with the US twin of ``inside_diameter_m`` in inches, as pipe
+    sizes are read (``inside_diameter_in``; 1 in = 0.0254 m, NIST SP 811), not feet."""
+    if "inside_diameter_ft" not in frame:
+        return frame
+    frame = frame.rename(columns={"inside_diameter_ft": "inside_diameter_in"})
+    frame["inside_diameter_in"] = frame["inside_diameter_m"] / 0.0254
+    return frame
 
 
 def sizes_outdir(project, outdir=None) -> Path:

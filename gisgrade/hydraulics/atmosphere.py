@@ -54,3 +54,32 @@ def atmospheric_pressure(elevation):
     """
     z = np.asarray(elevation, dtype=float)
     return _out(P0 * (1.0 - _LAPSE_OVER_T0 * z) ** _EXPONENT)
+
+
+def vapour_floor(elevation, temperature):
+    """The lowest gauge pressure water can hold at an elevation [Pa]: the
+    vapour pressure of water at ``temperature`` less the standard
+    atmosphere there [1][2]. Below it the water boils and the column
+    separates, so a computed gauge pressure under this floor is not a
+    pressure the line can have (the grade line there is not reachable).
+
+    Parameters
+    ----------
+    elevation : float or array
+        Elevation above mean sea level [m].
+    temperature : float
+        Water temperature [K].
+
+    Returns
+    -------
+    p : float or array
+        Gauge pressure [Pa], negative.
+
+    Examples
+    --------
+    >>> round(float(vapour_floor(0.0, 288.15)))
+    -99619
+    """
+    from .water import vapour_pressure
+
+    return _out(float(vapour_pressure(temperature)) - atmospheric_pressure(elevation))

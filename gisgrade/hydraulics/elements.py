@@ -339,8 +339,13 @@ def element_toml(kind, station_m, setting, display) -> str:
             f'setting = "{_plain(d.value(setting, "pressure"))} {d.unit("pressure")}"')
 
 
+#: How a pressure under the water's vapour floor is said (it has no number).
+VAPOUR = "below vapour pressure (the column separates)"
+
+
 def suggest_elements(station, axis, hgl, hgl_upstream, egl, flowing, names, p_min, p_max,
-                     density, display=None, resets=(), check_min=None, base=None, own=()):
+                     density, display=None, resets=(), check_min=None, base=None, own=(),
+                     p_floor=None):
     """The fewest PRVs and boosters (greedy, each reaching as far as it can)
     that keep every station of every scenario within [p_min, p_max].
 
@@ -377,6 +382,11 @@ def suggest_elements(station, axis, hgl, hgl_upstream, egl, flowing, names, p_mi
     base : tuple of three arrays (k, n), optional
         The grade lines before the project's own elements ``own``
         (:class:`Element`), to apply the proposal with them as a run does.
+    p_floor : array (n,), optional
+        The lowest gauge pressure water holds at each station [Pa]
+        (:func:`~gisgrade.hydraulics.atmosphere.vapour_floor`): a pressure
+        under it is said as "below vapour pressure (the column separates)",
+        never as a number (default: no floor).
 
     Returns
     -------
@@ -385,6 +395,8 @@ def suggest_elements(station, axis, hgl, hgl_upstream, egl, flowing, names, p_mi
     from ..display import Display
     d = display or Display()
     label = lambda s: d.station([s])[0]  # noqa: E731
+    floor = (np.full(len(station), -np.inf) if p_floor is None
+             else np.broadcast_to(np.asarray(p_floor, dtype=float), (len(station),)))
     kpa = lambda p, decimals=1: d.text(p, "pressure", decimals)  # noqa: E731
     rho_g = density * G
     flowing = np.asarray(flowing, dtype=bool)
@@ -407,7 +419,8 @@ def suggest_elements(station, axis, hgl, hgl_upstream, egl, flowing, names, p_mi
         lo[still] = -np.inf
         if (j := _first_open(H, Hu, lo, hi, start, excused)) is None:
             break
-        why = _why(H, Hu, axis, j, p_min, p_max, rho_g, names, kpa, np.isfinite(lo[:, j]))
+        why = _why(H, Hu, axis, j, p_min, p_max, rho_g, names, kpa, np.isfinite(lo[:, j]),
+                   floor[j])
         first = start + 1 if out else 0  # never two elements at one station
         places = range(max(first, j - CANDIDATES), max(j, first + 1) if j == 0 else j)
         best = None
@@ -446,7 +459,9 @@ def suggest_elements(station, axis, hgl, hgl_upstream, egl, flowing, names, p_mi
             where = (f"station {label(station[a])}" if a == b
                      else f"{label(station[a])} to {label(station[b])}")
             bad_still.append(Unfixable(float(station[a]), float(station[b]), (
-                f"{names[k]} {where}: pressure down to {kpa(p)} at {label(station[w])}, "
+                f"{names[k]} {where}: pressure "
+                f"{'falls ' + VAPOUR if p < floor[w] else 'down to ' + kpa(p)} at "
+                f"{label(station[w])}, "
                 f"below {kpa(p_min)}; with no flow the boosters are off and a PRV only "
                 "lowers the line, so no element raises it")))
     unfixable = tuple(sorted(bad_still + _stretches(bad, station, label, kpa, p_min, p_max),
@@ -484,9 +499,10 @@ def _first_open(H, Hu, lo, hi, start, excused):
     return int(v[0]) if len(v) else None
 
 
-def _why(H, Hu, axis, j, p_min, p_max, rho_g, names, kpa, check_min):
+def _why(H, Hu, axis, j, p_min, p_max, rho_g, names, kpa, check_min, floor=-np.inf):
     """Which scenario leaves the limits at station j, and how far (a low
-    pressure only where ``check_min`` (k,) holds)."""
+    pressure only where ``check_min`` (k,) holds; under ``floor`` [Pa] as
+    :data:`VAPOUR`, not a number)."""
     p_lo = rho_g * (np.minimum(H, Hu)[:, j] - axis[j])
     p_hi = rho_g * (np.maximum(H, Hu)[:, j] - axis[j])
     if check_min is not None:
@@ -494,6 +510,8 @@ def _why(H, Hu, axis, j, p_min, p_max, rho_g, names, kpa, check_min):
     k_hi, k_lo = int(np.argmax(p_hi)), int(np.argmin(p_lo))
     if p_hi[k_hi] > p_max:
         return f"{names[k_hi]}: {_apart(kpa, p_hi[k_hi], p_max)}, above {_apart(kpa, p_max, p_hi[k_hi])}"
+    if p_lo[k_lo] < floor:
+        return f"{names[k_lo]}: {VAPOUR}, below {kpa(p_min)}"
     return f"{names[k_lo]}: {_apart(kpa, p_lo[k_lo], p_min)}, below {_apart(kpa, p_min, p_lo[k_lo])}"
 
 

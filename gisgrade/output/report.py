@@ -23,6 +23,7 @@ import numpy as np
 from .. import __version__
 from ..cautions import CAUTIONS
 from ..display import Display
+from ..hydraulics.elements import VAPOUR
 from . import writer
 
 #: Fixed assumptions of the model and their sources (docs/ has the detail).
@@ -84,19 +85,81 @@ def table(header, rows, numeric=()) -> str:
     return f"<table><thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>"
 
 
-def plain_table(records) -> str:
-    """A list of plain dicts (another stage's summary entries) as a table."""
-    keys = list(dict.fromkeys(k for r in records for k in r))
-    rows = [[e(_plain(r.get(k, ""))) for k in keys] for r in records]
-    return table([k.replace("_", " ") for k in keys], rows)
+#: Key endings of another stage's summary entries (SI in the names): the kind
+#: of quantity and the factor to SI base units, longest first; a key that ends
+#: in none of them is shown as it is.
+KEY_UNITS = (("station_m", "station", 1.0), ("_m3_s", "flow", 1.0), ("_m_s", "velocity", 1.0),
+             ("_kpa", "pressure", 1e3), ("_kwh", "kWh", 1.0), ("_kw", "power", 1e3),
+             ("_kg", "t", 1e-3), ("_m3", "volume", 1.0), ("diameter_m", "diameter", 1.0),
+             ("_m", "head", 1.0), ("_s", "s", 1.0))
+
+#: Keys left out of the tables (each suggestion's reason and TOML are under Suggestions).
+HIDDEN_KEYS = ("toml", "reason")
 
 
-def _plain(v):
-    if isinstance(v, float):
-        return f"{v:.4g}"
+def plain_table(records, d: Display | None = None) -> str:
+    """A list of plain dicts (another stage's summary entries, SI in the key
+    names) as a table in the reader's units: headings without the SI suffix,
+    each value with its display unit, a per-scenario mapping as
+    "peak: 80.6 ft; static: 0.00 ft", nothing for a value not given.
+
+    >>> html = plain_table([{"station_m": 304.8, "setting_kpa": 500.0,
+    ...                      "step_m": {"peak": -3.048}, "cost": None}], Display("US"))
+    >>> "<th>setting</th>" in html and "10+00.00" in html and "72.5 psi" in html
+    True
+    >>> "peak: -10.00 ft" in html and "None" not in html and "{" not in html
+    True
+    """
+    d = d or Display()
+    keys = [k for k in dict.fromkeys(k for r in records for k in r) if k not in HIDDEN_KEYS]
+    rows = [[e(_shown_value(k, r.get(k), d, r)) for k in keys] for r in records]
+    return table([_heading(k) for k in keys], rows)
+
+
+def _unit_of(key: str):
+    return next(((kind, base, end) for end, kind, base in KEY_UNITS if key.endswith(end)),
+                (None, 1.0, ""))
+
+
+def _heading(key: str) -> str:
+    kind, _, end = _unit_of(key)
+    if kind in ("station", "diameter"):  # "pressure_min_station_m": "pressure min station"
+        end = "_m"
+    name = key[: len(key) - len(end)] if end else key
+    return name.replace("_", " ").strip() or key
+
+
+def _shown_value(key: str, v, d: Display, record=None) -> str:
+    if v is None or (isinstance(v, float) and not np.isfinite(v)):
+        return ""
+    if isinstance(v, dict):
+        return "; ".join(f"{n}: {_shown_value(key, x, d)}" for n, x in v.items())
     if isinstance(v, (list, tuple)):
-        return ", ".join(_plain(x) for x in v)
-    return v
+        return ", ".join(_shown_value(key, x, d) for x in v)
+    if isinstance(v, bool):
+        return "yes" if v else "no"
+    if not isinstance(v, (int, float)):
+        return str(v)
+    kind, base, _ = _unit_of(key)
+    if kind == "pressure" and record is not None and record.get("column_separates") \
+            and key.startswith("pressure_min"):
+        return VAPOUR
+    if kind == "station":
+        return d.station([v])[0]
+    if kind in ("kWh", "t", "s"):
+        return f"{_number(v * base)} {kind}"
+    if kind is not None:
+        return d.text(v * base, kind)
+    return _number(v)
+
+
+def _number(v) -> str:
+    """A plain number as read: 4 significant digits, whole thousands grouped.
+
+    >>> _number(0.012345), _number(1234567.8), _number(3)
+    ('0.01235', '1,234,568', '3')
+    """
+    return f"{v:,.0f}" if abs(v) >= 1000 else f"{v:.4g}"
 
 
 def figure_tag(folder: Path, name: str, caption: str) -> str:
@@ -113,7 +176,7 @@ def scenario_rows(summary, d: Display):
     separated = set(summary.get("column_separation", []))
     rows = []
     for sc in summary["scenarios"]:
-        low = ("below vapour pressure (not achievable)" if sc["scenario"] in separated
+        low = (VAPOUR if sc["scenario"] in separated
                else d.text(sc["pressure_min_kpa"] * 1e3, "pressure"))
         rows.append([e(sc["scenario"]), d.text(sc["flow_m3_s"], "flow"),
                      f"{e(low)} at {at(sc['pressure_min_station_m'])}",
@@ -196,7 +259,9 @@ def _shown(v, f, d: Display) -> str:
     kind = f.metadata["kind"]
     if isinstance(v, (tuple, list)):
         return ", ".join(_shown(x, f, d) for x in v)
-    if isinstance(v, bool) or not isinstance(v, (int, float)):
+    if isinstance(v, bool):
+        return "true" if v else "false"  # as the project file writes it
+    if not isinstance(v, (int, float)):
         return str(v)
     if kind == "length" and "diameter" in f.name:
         return d.text(v, "diameter")
@@ -288,7 +353,7 @@ def report_html(result, folder: Path, d: Display) -> str:
         rows = [[at(r.station_m), e(r.kind), e(d.render(r.reason))]
                 for r in result.valves.itertuples()]
         parts += ["<h2>Air valves and drains</h2>", table(["station", "kind", "why"], rows)]
-    parts += _others(result, s)
+    parts += _others(result, s, d)
     parts += ["<h2>Inputs and their sources</h2>", inputs_section(result, d)]
     if s.get("notes"):
         notes = s.get("note_templates", s["notes"])
@@ -311,7 +376,7 @@ def report_html(result, folder: Path, d: Display) -> str:
             f"<script>{SCRIPT}</script></head><body>\n{body}\n</body></html>\n")
 
 
-def _others(result, s) -> list[str]:
+def _others(result, s, d: Display) -> list[str]:
     """Sizes, energy, surge and pressure management, when another stage put them there."""
     out = []
     sections = [("sizes", "Pipe sizes compared"), ("energy", "Energy"), ("surge", "Surge screening"),
@@ -324,12 +389,16 @@ def _others(result, s) -> list[str]:
         if isinstance(records, dict):
             records = [records]
         if records:
-            out += [f"<h2>{e(title)}</h2>", plain_table(records)]
+            out += [f"<h2>{e(title)}</h2>", plain_table(records, d)]
     proposal = getattr(result, "suggestions", None)
     items = list(getattr(proposal, "suggestions", ()) or ())
     if items:
         out += ["<h2>Suggestions</h2>", "<ul>" + "".join(
             f"<li>{e(x.reason)}<pre>{e(x.toml)}</pre></li>" for x in items) + "</ul>"]
+    left = [u["reason"] for u in s.get("pressure_management_unfixable", [])]
+    if left:
+        out += ["<p>Left out of limits (no PRV or booster mends it):</p>",
+                "<ul>" + "".join(f"<li>{e(r)}</li>" for r in left) + "</ul>"]
     return out
 
 

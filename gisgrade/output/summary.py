@@ -9,6 +9,7 @@ import numpy as np
 from .. import __version__
 from ..cautions import CAUTIONS
 from ..display import Display
+from ..hydraulics.elements import VAPOUR
 from . import writer
 from .operations_summary import operations_summary, operations_text
 
@@ -181,7 +182,7 @@ def summary_text(summary: dict) -> str:
     separated = set(summary.get("column_separation", []))
     for sc in summary["scenarios"]:
         low = (d.text(sc["pressure_min_kpa"] * 1e3, "pressure") if sc["scenario"] not in separated
-               else "below vapour pressure (not achievable)")
+               else VAPOUR)
         lines.append(
             f"{sc['scenario']}: {d.text(sc['flow_m3_s'], 'flow')}, pressure "
             f"{low} at {at(sc['pressure_min_station_m'])}"
