@@ -178,10 +178,9 @@ def _figure_data(result):
     from .output.layers import output_crs
 
     t = result.table
-    xy = np.column_stack([t["x"].to_numpy(), t["y"].to_numpy()])[_thin(len(t))]
-    fwd = pyproj.Transformer.from_crs(result.alignment.crs, output_crs(result), always_xy=True)
-    plan = np.column_stack(fwd.transform(xy[:, 0], xy[:, 1]))
     k = _thin(len(t))
+    fwd = pyproj.Transformer.from_crs(result.alignment.crs, output_crs(result), always_xy=True)
+    plan = np.column_stack(fwd.transform(t["x"].to_numpy()[k], t["y"].to_numpy()[k]))
     prof = {"station": t["station_m"].to_numpy()[k], "ground": t["ground_m"].to_numpy()[k]}
     g = result.grades
     if g is not None:

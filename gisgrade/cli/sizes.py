@@ -19,13 +19,14 @@ def run_sizes(project_path, candidates_text, outdir, echo=lambda s: None):
     from ..errors import InputError
     from ..hydraulics.surge import SCREENING
     from ..pipeline import compute
-    from ..project import load
     from ..output.atomic import atomic_folder, refuse_outdir
+    from ..project import load
+    from ..result import command_outdir
     from ..sizes import (candidate_project, candidates_from_project, candidates_from_text,
                          compare, comparison_figure)
 
     project = load(project_path)
-    out = sizes_outdir(project, outdir)
+    out = command_outdir(project, outdir, "-sizes")
     refuse_outdir(out, inputs=project.input_paths())  # before the candidates are run
     if candidates_text is not None:
         candidates = candidates_from_text(project, candidates_text)
@@ -60,18 +61,6 @@ def us_diameters(frame):
     frame = frame.rename(columns={"inside_diameter_ft": "inside_diameter_in"})
     frame["inside_diameter_in"] = frame["inside_diameter_m"] / 0.0254
     return frame
-
-
-def sizes_outdir(project, outdir=None) -> Path:
-    """The comparison's folder: ``outdir``, else the run's output folder
-    with ``-sizes`` added (``gisgrade-out-sizes``), so a comparison never
-    replaces a run's result (each folder is replaced whole)."""
-    from ..result import resolve_outdir
-
-    if outdir is not None:
-        return resolve_outdir(project, outdir)
-    run_out = resolve_outdir(project)
-    return run_out.with_name(run_out.name + "-sizes")
 
 
 @click.command("sizes", short_help="run the whole job per candidate pipe size and compare them",

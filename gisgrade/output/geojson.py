@@ -115,15 +115,20 @@ def class_runs(gdf):
 
 def wgs84_layers(result, display) -> dict:
     """Every layer as a GeoDataFrame in WGS 84 with its simplestyle columns;
-    the pipe pieces merged into runs of one pressure class (:func:`class_runs`)."""
-    from .layers import geodataframes
+    the pipe pieces merged into runs of one pressure class (:func:`class_runs`).
+    Made once per result and display (the GeoJSON and KML writers share them)."""
+    from .layers import _CACHE, geodataframes
 
-    out = {}
-    for name, gdf in geodataframes(result, display, crs="EPSG:4326").items():
-        if name in ("pipe_pieces", "pipe_pressure") and len(gdf):
-            gdf = class_runs(gdf)
-        out[name] = gdf.assign(**simplestyle(name, gdf))
-    return out
+    cached = _CACHE.setdefault(result, {})
+    key = ("wgs84", display.system)
+    if key not in cached:
+        out = {}
+        for name, gdf in geodataframes(result, display, crs="EPSG:4326").items():
+            if name in ("pipe_pieces", "pipe_pressure") and len(gdf):
+                gdf = class_runs(gdf)
+            out[name] = gdf.assign(**simplestyle(name, gdf))
+        cached[key] = out
+    return cached[key]
 
 
 @writer("geojson", layer=True)
