@@ -18,7 +18,7 @@ from iapws import IAPWS95
 
 import gisgrade
 from gisgrade.design import DesignRules, design_profile
-from gisgrade.design.plan import fewest_fittings, joint_deflection, plan_turns
+from gisgrade.design.plan import fewest_fittings, joint_deflection, plan_design, plan_turns
 from gisgrade.findings.valves import ValveRules, site_valves
 
 from conftest import PROJECT, write_dem, write_lines
@@ -156,6 +156,22 @@ def test_plan_turn_and_joint_deflection_are_exact_geometry():
     u1, u2 = np.array([1.0, 0, 0]), np.array([math.cos(a) * math.cos(b), math.sin(a) * math.cos(b),
                                                math.sin(b)])
     assert float(joint_deflection(a, b)) == pytest.approx(math.acos(u1 @ u2), abs=1e-12)
+
+
+def test_a_straight_line_far_from_the_origin_takes_no_plan_turn():
+    # 2 km due north-east at 0.5 m stations in UTM-sized coordinates: the
+    # computed turns are the rounding of the coordinates (nanoradians), not
+    # turns; only the vertices turn, so every joint keeps its whole 3 deg
+    # for grade: b = arccos(cos 3 deg / cos 0) = 3 deg (spherical trigonometry)
+    s = np.arange(0.0, 2000.5, 0.5)
+    x, y = X0 + s * math.sqrt(0.5), Y0 + s * math.sqrt(0.5)
+    assert np.abs(plan_turns(x, y)).max() > 1e-9  # the rounding this test is about
+    vertices = np.zeros(len(s), bool)
+    vertices[[0, -1]] = True
+    d = plan_design(s, x, y, np.ones(len(s), bool), math.radians(3),
+                    np.radians([11.25, 22.5, 45, 90]), vertices=vertices)
+    assert len(d.fittings) == 0 and not d.share.any()
+    assert np.allclose(d.allowance, math.radians(3), rtol=0, atol=1e-15)
 
 
 # ---------------------------------------------------------------------------

@@ -125,12 +125,29 @@ class PlanDesign:
     fittings: pd.DataFrame  #: one row per horizontal fitting: station index, angle (rad), direction
 
 
-def plan_design(station, x, y, knots, delta: float, angles, curve_joints: int = CURVE_JOINTS
-                ) -> PlanDesign:
+def nearest(sorted_at, at: float, k: int) -> np.ndarray:
+    """Positions in ``sorted_at`` (ascending) of the ``k`` values nearest
+    ``at``, nearest first (the lower one first on a tie): only the ``k``
+    on either side of ``at`` are looked at.
+
+    >>> nearest(np.array([0.0, 6, 12, 18, 24]), 13.0, 3).tolist()
+    [2, 3, 1]
+    """
+    i = int(np.searchsorted(sorted_at, at))
+    lo, hi = max(i - k, 0), min(i + k, len(sorted_at))
+    window = np.arange(lo, hi)
+    return window[np.argsort(np.abs(sorted_at[lo:hi] - at), kind="stable")[:k]]
+
+
+def plan_design(station, x, y, knots, delta: float, angles, curve_joints: int = CURVE_JOINTS,
+                vertices=None) -> PlanDesign:
     """Joints and fittings for the plan turns of a line stationed at
     ``station`` (m) through ``(x, y)``; ``knots`` marks the stations that are
     joints (a vertex must be one); ``delta`` rad per joint; ``angles`` the
-    standard fitting angles (rad).
+    standard fitting angles (rad). ``vertices`` marks the centerline's
+    vertices, the only stations that turn (elsewhere the computed turn is the
+    rounding of coordinates far from the origin, nanoradians); None: any
+    station whose turn is above 1e-9 rad.
 
     >>> s = np.arange(0.0, 61.0, 6.0); x = np.minimum(s, 30.0); y = np.maximum(s - 30.0, 0.0)
     >>> d = plan_design(s, x, y, np.ones(len(s), bool), np.radians(3), np.radians([11.25, 22.5, 45, 90]))
@@ -139,10 +156,13 @@ def plan_design(station, x, y, knots, delta: float, angles, curve_joints: int = 
     """
     s = np.asarray(station, float)
     turn = plan_turns(x, y)
+    if vertices is not None:
+        turn = np.where(np.asarray(vertices, bool), turn, 0.0)
     share = np.zeros(len(s))
     rows = []
     capacity = curve_joints * delta
     knot_idx = np.flatnonzero(np.asarray(knots, bool))
+    knot_at = s[knot_idx]  # ascending
     for v in np.flatnonzero(np.abs(turn) > 1e-9):  # the vertices: few, not the stations
         combo = fewest_fittings(turn[v], angles, capacity) if len(angles) else ()
         rest = abs(turn[v]) - sum(combo)
@@ -150,7 +170,7 @@ def plan_design(station, x, y, knots, delta: float, angles, curve_joints: int = 
             rows.append((int(v), float(sum(combo)), "left" if turn[v] > 0 else "right", combo))
         k = int(np.ceil(abs(rest) / delta - 1e-9)) if delta > 0 else 0
         if k:
-            near = knot_idx[np.argsort(np.abs(s[knot_idx] - s[v]), kind="stable")[:k]]
+            near = knot_idx[nearest(knot_at, s[v], k)]
             share[near] += np.sign(turn[v]) * rest / k  # + left; against a fitting's turn: -
     allowance = vertical_allowance(delta, share)
     fittings = pd.DataFrame(rows, columns=["index", "angle", "direction", "combo"])

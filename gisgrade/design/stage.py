@@ -94,8 +94,9 @@ def stage_design(project, table: pd.DataFrame, crossings):
     notes = [f"crossing {n}: passing over it would leave less than the minimum cover; the pipe "
              "passes under it" for n in crossings.name[moved]]
     knots = knots_of(table)
+    vertices = (table["kind"].to_numpy() & al.VERTEX) != 0 if "kind" in table else None
     plan = plan_design(station, x, y, knots, cfg.max_joint_deflection, cfg.bend_angles,
-                       int(cfg.curve_joints))
+                       int(cfg.curve_joints), vertices=vertices)
     profile = design_profile(station, ground, design_crossings(crossings, station, ground),
                              rules_for(project, table, plan.allowance))
     axis = profile.top - od / 2
