@@ -320,3 +320,22 @@ def test_a_turn_beyond_three_stiff_joints_is_taken_by_more_joints_not_a_big_bend
     assert len(r.bends) == 0
     share = r.table["plan_share_deg"].to_numpy()
     assert share.sum() == pytest.approx(5.0) and np.count_nonzero(share) == 5
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_prominence_matches_scipy_peak_prominences(seed):
+    # SciPy's scipy.signal.peak_prominences (reference implementation of
+    # topographic prominence) on the profile padded below its minimum at
+    # both ends (the ends count as the bottom); the peaks are our high
+    # points, plateaus included (values rounded to 0.5 m make flat tops and
+    # peaks of equal height)
+    from scipy.signal import peak_prominences
+    from gisgrade.design.points import prominence, turning_points
+
+    rng = np.random.default_rng(seed)
+    z = np.round(np.cumsum(rng.normal(0, 1, 400)) * 2) / 2
+    highs, _ = turning_points(np.arange(z.size, dtype=float), z)
+    padded = np.r_[z.min() - 1, z, z.min() - 1]
+    expected = np.minimum(peak_prominences(padded, highs + 1)[0], z[highs] - z.min())
+    assert len(highs) > 10
+    np.testing.assert_allclose(prominence(z, highs), expected, rtol=0, atol=1e-12)

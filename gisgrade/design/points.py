@@ -8,7 +8,9 @@ when the pipe falls away from (high) or rises away from (low) them.
 
 Prominence is the topographic one along the profile [1]: how far the pipe
 must descend (ascend) from a high (low) point before it reaches a higher
-(lower) one, or the end. Pure numpy.
+(lower) one, or the end. Pure numpy (the tests check it against SciPy's
+``peak_prominences`` [1], which is not imported here: it brings in all of
+``scipy.signal`` and ``scipy.stats``, most of a second at every start).
 
 [1] scipy.signal.peak_prominences (SciPy reference): the vertical distance
     between a peak and its lowest contour line.
@@ -17,7 +19,6 @@ from __future__ import annotations
 
 import numpy as np
 import pandas as pd
-from scipy.signal import peak_prominences
 
 #: Grades flatter than this (m/m) are level when finding high and low points.
 LEVEL = 1e-7
@@ -51,26 +52,28 @@ def turning_points(station, z, level: float = LEVEL):
 
 
 def prominence(z, peaks) -> np.ndarray:
-    """Prominence (m) of ``peaks`` (indices) of ``z``, the line's ends counting
-    as the bottom of the lowest contour (the profile is padded below its minimum).
+    """Prominence (m) of ``peaks`` (indices) of ``z`` (m), the line's ends
+    counting as the bottom of the lowest contour: from each peak the profile
+    is followed both ways to the first point higher than it (or the end); the
+    lowest point on each side is that side's base, an end reached counting as
+    the bottom; the prominence is the peak above the higher base [1].
 
     >>> prominence(np.array([0.0, 3.0, 1.0, 2.0, 0.5]), np.array([1, 3]))
     array([3., 1.])
     """
-    if not len(peaks):
-        return np.zeros(0)
     z = np.asarray(z, float)
-    pad = float(z.min()) - 1.0
-    padded = np.r_[pad, z, pad]
-    # plateaus: scipy needs a strict peak; take each peak's value for its whole flat top
-    prom = peak_prominences(_strict(padded, np.asarray(peaks) + 1), np.asarray(peaks) + 1)[0]
-    return np.minimum(prom, z[peaks] - z.min())
-
-
-def _strict(z, peaks):
-    """``z`` with each peak raised a hair above its flat neighbours."""
-    out = z.copy()
-    out[peaks] += 1e-9 * max(1.0, float(np.abs(z).max()))
+    peaks = np.asarray(peaks, int)
+    out = np.empty(len(peaks))
+    if not len(peaks):
+        return out
+    bottom = float(z.min())
+    for k, p in enumerate(peaks):  # the high points, few: not the stations
+        h = z[p]
+        left = np.flatnonzero(z[:p] > h)
+        right = np.flatnonzero(z[p + 1:] > h)
+        base_left = z[left[-1] + 1:p + 1].min() if len(left) else bottom
+        base_right = z[p:p + 1 + right[0]].min() if len(right) else bottom
+        out[k] = h - max(base_left, base_right)
     return out
 
 
