@@ -46,6 +46,16 @@ def test_importing_the_outputs_leaves_pyplot_alone():
     assert out.stdout.strip() == "False"
 
 
+def test_listing_the_outputs_leaves_matplotlib_unloaded():
+    # the figure writers import matplotlib when they draw, not when registered
+    import subprocess
+
+    code = ("import sys, gisgrade.output as o, gisgrade.pipeline; o.output_names(); "
+            "print('matplotlib' in sys.modules, 'scipy.signal' in sys.modules)")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert out.stdout.strip() == "False False"
+
+
 def test_profile_figures_drawn_in_threads_match_one_drawn_alone(tmp_path):
     from gisgrade.output.plot import plot_profile
 

@@ -40,7 +40,7 @@ WRITERS: list[Writer] = []
 
 #: The modules holding the writers, imported in this order.
 WRITER_MODULES = ("profile_csv", "gradelines_csv", "findings_csv", "fittings_csv", "valves_csv",
-                  "surge_csv", "layers", "geojson", "kml", "sld", "plot", "sheets", "mapfig",
+                  "surge_csv", "layers", "geojson", "kml", "sld", "figures",
                   "summary", "report")
 
 

@@ -27,7 +27,6 @@ from matplotlib.patches import FancyArrow, Patch, Rectangle
 
 from ..cautions import SHORT
 from ..display import Display
-from . import writer
 from .style import FINDINGS, OUTLINE, POINTS, ROUTE, VALVES, scale_of
 
 #: Grid cells across the map's longer side.
@@ -270,7 +269,6 @@ def _north(ax, crs, extent) -> None:
     ax.text(cx, cy - 0.75 * r, "true north", fontsize=6, ha="center", va="top", zorder=9)
 
 
-@writer("map.png", figure=True)
 def write_map(result, folder: Path, display: Display) -> None:
     # tight: the key at the right keeps its long class names whole
     map_figure(result, display).savefig(folder / "map.png", dpi=130, bbox_inches="tight",

@@ -34,7 +34,6 @@ from matplotlib.ticker import FuncFormatter
 
 from ..cautions import SHORT
 from ..display import ATMOSPHERE, FT, Display
-from . import writer
 from .style import FINDINGS, OUTLINE, POINTS, SUB_ATMOSPHERIC, VALVES, scale_of
 
 #: Styles of our own choosing.
@@ -571,6 +570,5 @@ def plot_profile(result, path: Path, display: Display | None = None) -> None:
     profile_figure(result, display).savefig(path, dpi=130, bbox_inches="tight")
 
 
-@writer("profile.png", figure=True)
 def write_plot(result, folder: Path, display: Display) -> None:
     plot_profile(result, folder / "profile.png", display)

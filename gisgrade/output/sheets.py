@@ -35,7 +35,6 @@ from matplotlib.ticker import MultipleLocator
 from .. import __version__
 from ..cautions import CAUTIONS
 from ..display import FT, Display
-from . import has_pipe, writer
 from .plot import (crossing_details, draw_pressure, draw_profile, scenario_colours, station_axis,
                    unique)
 
@@ -454,7 +453,6 @@ def sheets(result, d: Display) -> list[Figure]:
     return figs + crossing_pages(result, d, layout, len(ranges) + 1, total, out.paper)
 
 
-@writer("sheets", applies=has_pipe, figure=True)
 def write_sheets(result, folder: Path, display: Display) -> None:
     out = folder / "sheets"
     out.mkdir()
