@@ -114,6 +114,10 @@ def test_colours_are_the_cividis_classes_at_the_limits(demo_si):
         got = set(pp["colour"][k == cls])
         want = "#1a1423" if cls == 0 else matplotlib.colors.to_hex(cividis(centres[cls - 1]))
         assert got == {want}, cls
+    # every class colour the package holds is matplotlib's cividis sample
+    from gisgrade.output.style import CLASS_COLOURS
+
+    assert list(CLASS_COLOURS) == [matplotlib.colors.to_hex(cividis(c)) for c in centres]
     # perceptual: CIE L* rises with pressure through the classes (CIE 15:2004 sRGB -> L*)
     scale = PressureScale.from_limits(checks.min_pressure, checks.max_pressure)
     lab_l = [cie_lightness(c) for c in scale.colours]

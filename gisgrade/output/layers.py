@@ -59,9 +59,9 @@ def kind_words(kind) -> np.ndarray:
     ['regular', 'vertex, crossing']
     """
     kind = np.asarray(kind, dtype=np.int64)
-    parts = [np.where(kind & flag, word, "") for flag, word in KIND_WORDS]
-    joined = [", ".join(w for w in ws if w) for ws in zip(*parts)] if parts else []
-    return np.asarray([j or "regular" for j in joined], dtype=object)
+    codes, at = np.unique(kind, return_inverse=True)  # a few kinds, many stations
+    words = [", ".join(w for f, w in KIND_WORDS if c & f) or "regular" for c in codes]
+    return np.asarray(words, dtype=object)[at.reshape(kind.shape)]
 
 
 def _pieces_geometry(t) -> np.ndarray:

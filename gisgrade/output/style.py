@@ -40,6 +40,11 @@ from ..display import Display
 SUB_ATMOSPHERIC = "#1a1423"
 #: The colormap the classes inside the limits are sampled from.
 COLORMAP = "cividis"
+#: Its samples (hex) at 0, the centres of the classes inside the limits
+#: (1/8, 3/8, 5/8, 7/8) and 1, as matplotlib's ``colormaps["cividis"]`` gives
+#: them (held here so that a run without figures does not import matplotlib;
+#: tests/test_sharing.py checks them against matplotlib).
+CLASS_COLOURS = ("#00224e", "#1a386f", "#61656f", "#9b9476", "#dec958", "#fee838")
 
 #: Okabe-Ito palette [2].
 OKABE_ITO = {"black": "#000000", "orange": "#e69f00", "sky blue": "#56b4e9",
@@ -114,18 +119,16 @@ class PressureScale:
     max_pressure: float
 
     @classmethod
-    def from_limits(cls, min_pressure: float, max_pressure: float, inside: int = 4):
-        """The scale of a project's limits (Pa), ``inside`` classes between them."""
-        import matplotlib
-
-        cmap = matplotlib.colormaps[COLORMAP]
+    def from_limits(cls, min_pressure: float, max_pressure: float):
+        """The scale of a project's limits (Pa): four classes between them,
+        coloured :data:`CLASS_COLOURS`."""
+        inside = len(CLASS_COLOURS) - 2
         inner = np.linspace(min_pressure, max_pressure, inside + 1)
         edges = np.r_[-np.inf, 0.0, inner, np.inf]
-        samples = np.r_[0.0, (np.arange(inside) + 0.5) / inside, 1.0]
-        colours = (SUB_ATMOSPHERIC,) + tuple(matplotlib.colors.to_hex(cmap(v)) for v in samples)
         names = ("sub-atmospheric", "below minimum") + tuple(
             f"within limits {i + 1} of {inside}" for i in range(inside)) + ("above maximum",)
-        return cls(edges, colours, names, float(min_pressure), float(max_pressure))
+        return cls(edges, (SUB_ATMOSPHERIC,) + CLASS_COLOURS, names, float(min_pressure),
+                   float(max_pressure))
 
     def __len__(self) -> int:
         return len(self.colours)
