@@ -241,6 +241,75 @@ def test_geojson_files_are_rfc7946_with_simplestyle(demo_si):
     assert sum(p["properties"]["length_m"] for p in pipe) == pytest.approx(gpkg["length_m"].sum())
 
 
+def test_geojson_stations_and_runs_are_what_a_web_map_needs(demo_si):
+    # stations: every station that is not regular, and the first at or past
+    # each 100 m (rule stated in docs/sharing.md), with the GeoPackage's values;
+    # runs: within 1 cm (and the 7-decimal rounding) of the GeoPackage's
+    # pieces, both measured in metres in the UTM zone geopandas picks, the
+    # runs' lon/lat (RFC 7946) brought there by pyproj
+    import pyproj
+    import shapely
+
+    project, out = demo_si
+    gpkg = read_layers(out / "layers.gpkg")
+    st = gpkg["stations"]
+    s = st["station_m"].to_numpy()
+    want = (st["kind"] != "regular").to_numpy() | np.r_[True, np.diff(np.floor(s / 100.0)) > 0]
+    web = json.loads((out / "geojson" / "stations.geojson").read_text())["features"]
+    assert 0 < len(web) < len(st)
+    got = np.array([f["properties"]["station_m"] for f in web])
+    np.testing.assert_array_equal(got, s[want])
+    np.testing.assert_allclose([f["properties"]["cover_m"] for f in web],
+                               st["cover_m"].to_numpy()[want], rtol=0, atol=1e-9)
+    utm = gpkg["pipe_pieces"].estimate_utm_crs()
+    to_crs = pyproj.Transformer.from_crs("EPSG:4326", utm, always_xy=True)
+    pp = gpkg["pipe_pieces"].to_crs(utm)
+    runs = json.loads((out / "geojson" / "pipe_pieces.geojson").read_text())["features"]
+    for run in runs:
+        xy = np.c_[to_crs.transform(*np.asarray(run["geometry"]["coordinates"], float).T)]
+        p = run["properties"]
+        mine = ((pp["from_station_m"] >= p["from_station_m"] - 1e-6)
+                & (pp["to_station_m"] <= p["to_station_m"] + 1e-6)).to_numpy()
+        assert mine.any()
+        pieces = shapely.union_all(pp.geometry.to_numpy()[mine])
+        assert shapely.hausdorff_distance(shapely.linestrings(xy), pieces) < 0.017
+
+
+def test_geojson_runs_of_a_curved_line_stay_within_a_centimetre(tmp_path):
+    # a 60 degree arc of 300 m radius drawn with 181 vertices (a curve where
+    # the simplification of the runs has something to drop): each run is
+    # within 1 cm (Hausdorff, shapely/GEOS) of the GeoPackage's pieces it
+    # covers, in metres in the line's UTM zone, the run's lon/lat (RFC 7946)
+    # brought back by pyproj, and it keeps fewer vertices than the pieces
+    import pyproj
+    import shapely
+
+    import gisgrade
+
+    a = np.radians(np.linspace(-90.0, -30.0, 181))
+    arc = np.c_[500_400.0 + 300.0 * np.cos(a), 4_649_300.0 + 300.0 * np.sin(a)]
+    write_dem(tmp_path / "dem.tif", np.full((200, 200), 100.0))
+    write_lines(tmp_path / "line.geojson", [arc.tolist()])
+    (tmp_path / "project.toml").write_text(PROJECT.replace('spacing = "10 m"', 'spacing = "1 m"'))
+    gisgrade.compute(tmp_path / "project.toml").write(tmp_path / "out", figures=False)
+    pp = read_layers(tmp_path / "out" / "layers.gpkg")["pipe_pieces"]
+    to_utm = pyproj.Transformer.from_crs("EPSG:4326", pp.crs, always_xy=True)
+    runs = json.loads((tmp_path / "out" / "geojson" / "pipe_pieces.geojson").read_text())["features"]
+    kept = 0
+    for run in runs:
+        xy = np.c_[to_utm.transform(*np.asarray(run["geometry"]["coordinates"], float).T)]
+        kept += len(xy)
+        p = run["properties"]
+        mine = ((pp["from_station_m"] >= p["from_station_m"] - 1e-6)
+                & (pp["to_station_m"] <= p["to_station_m"] + 1e-6)).to_numpy()
+        assert 2 <= len(xy) <= mine.sum() + 1
+        pieces = shapely.union_all(pp.geometry.to_numpy()[mine])
+        # 1 cm of simplification and GDAL's RFC 7946 rounding to 7 decimals
+        # (half of 1e-7 deg: under 0.6 cm)
+        assert shapely.hausdorff_distance(shapely.linestrings(xy), pieces) < 0.017
+    assert kept < len(pp) / 2
+
+
 def test_kml_validates_against_the_ogc_schema_and_holds_the_layers(demo_si):
     from fastkml import kml
 

@@ -3,7 +3,8 @@ people without a GIS (a web map or a text editor opens them).
 
 Each ``geojson/<layer>.geojson`` is one FeatureCollection per RFC 7946 [1]_
 (the pipe's pieces merged into runs of one pressure class, see
-:func:`class_runs`):
+:func:`class_runs`; the stations thinned to those a web map needs, see
+:func:`web_stations`):
 WGS 84 longitude, latitude (no ``crs`` member), written by GDAL's GeoJSON
 driver in its RFC 7946 mode. Each feature carries its style after the open
 *simplestyle* convention [2]_ (``stroke``, ``stroke-width``,
@@ -113,19 +114,53 @@ def class_runs(gdf):
     return gpd.GeoDataFrame(pd.DataFrame(cols), geometry=lines, crs=gdf.crs)
 
 
+#: Stations kept in the GeoJSON besides those that are not regular: the first
+#: at or past every this many display length units (100 m, or 100 ft).
+STATION_EVERY = 100.0
+#: Tolerance (m) of the pipe runs' simplification (Douglas-Peucker, in the
+#: working CRS): a centimetre, far below what a map shows or a DEM resolves.
+RUN_TOLERANCE = 0.01
+
+
+def web_stations(station_m, kind_word, every_m: float) -> np.ndarray:
+    """Which stations a web map gets: every one that is not regular (vertex,
+    crossing, end, zone edge, fitting, offtake, section change) and the first
+    at or past each multiple of ``every_m`` (m).
+
+    >>> web_stations(np.arange(0.0, 301.0, 50.0), np.array(["end"] + ["regular"] * 6), 100.0).tolist()
+    [True, False, True, False, True, False, True]
+    """
+    s = np.asarray(station_m, float)
+    mark = np.floor(s / every_m + 1e-9)
+    first = np.r_[True, mark[1:] > mark[:-1]]
+    return first | (np.asarray(kind_word, object) != "regular")
+
+
 def wgs84_layers(result, display) -> dict:
     """Every layer as a GeoDataFrame in WGS 84 with its simplestyle columns;
-    the pipe pieces merged into runs of one pressure class (:func:`class_runs`).
+    the pipe pieces merged into runs of one pressure class (:func:`class_runs`)
+    and simplified to :data:`RUN_TOLERANCE`, the stations those of
+    :func:`web_stations` (every station is in the GeoPackage and profile.csv).
     Made once per result and display (the GeoJSON and KML writers share them)."""
-    from .layers import _CACHE, geodataframes
+    import geopandas as gpd
+    import shapely
+
+    from .layers import _CACHE, layer_frames
 
     cached = _CACHE.setdefault(result, {})
     key = ("wgs84", display.system)
     if key not in cached:
         out = {}
-        for name, gdf in geodataframes(result, display, crs="EPSG:4326").items():
+        every = STATION_EVERY / display.factor("length")
+        for name, frame in layer_frames(result, display).items():
+            if name == "stations" and len(frame):
+                frame = frame[web_stations(frame["station_m"].to_numpy(), frame["kind"].to_numpy(),
+                                           every)]
+            gdf = gpd.GeoDataFrame(frame, geometry="geometry", crs=result.alignment.crs)
             if name in ("pipe_pieces", "pipe_pressure") and len(gdf):
                 gdf = class_runs(gdf)
+                gdf = gdf.set_geometry(shapely.simplify(gdf.geometry.to_numpy(), RUN_TOLERANCE))
+            gdf = gdf.to_crs("EPSG:4326")
             out[name] = gdf.assign(**simplestyle(name, gdf))
         cached[key] = out
     return cached[key]

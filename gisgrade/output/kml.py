@@ -6,7 +6,7 @@ pieces of ``pipe_pieces`` merged where the class does not change), for the
 governing pressure and, hidden at first, for each scenario; the colours are
 the shared scale's (:mod:`.style`). Points carry their words and numbers in
 the display units in their descriptions. The stations, thousands of points,
-stay in the GeoPackage and GeoJSON. Point styles tint the viewer's own
+stay in the GeoPackage (and a web map's share of them in the GeoJSON). Point styles tint the viewer's own
 default icon (no icon file is referenced, so nothing is fetched).
 
 .. [1] OGC 07-147r2, OGC KML, version 2.2.0, 2008.
