@@ -99,8 +99,9 @@ def pipe_pieces(result) -> pd.DataFrame:
     return frame
 
 
-def pipe_pressure(result) -> pd.DataFrame:
-    """The pipe pieces once per scenario (``scenario`` a field)."""
+def pipe_pressure(result, pieces=None) -> pd.DataFrame:
+    """The pipe pieces once per scenario (``scenario`` a field); ``pieces``:
+    the pieces' lines when already made (:func:`pipe_pieces`), shared."""
     t, g = result.table, result.grades
     scale = scale_of(result)
     s = t["station_m"].to_numpy()
@@ -116,7 +117,7 @@ def pipe_pressure(result) -> pd.DataFrame:
         "velocity_m_s": g.velocity[:, :-1].ravel(), "flow_m3_s": g.flow[:, :-1].ravel(),
         "pressure_class": scale.name(p), "colour": scale.colour(p),
     })
-    frame["geometry"] = np.tile(_pieces_geometry(t), k)
+    frame["geometry"] = np.tile(_pieces_geometry(t) if pieces is None else pieces, k)
     return frame
 
 
@@ -253,7 +254,7 @@ def layer_frames(result, display) -> dict[str, pd.DataFrame]:
     layers = {"route": route(result)}
     if result.grades is not None:
         layers["pipe_pieces"] = pipe_pieces(result)
-        layers["pipe_pressure"] = pipe_pressure(result)
+        layers["pipe_pressure"] = pipe_pressure(result, layers["pipe_pieces"]["geometry"].to_numpy())
     if result.findings is not None:
         layers["findings_points"], layers["findings_lines"] = finding_frames(result, display)
     layers["stations"] = station_points(result, display)
@@ -267,8 +268,7 @@ def layer_frames(result, display) -> dict[str, pd.DataFrame]:
     if result.points is not None:
         layers["high_low_points"] = high_low_points(result, display)
     order = [n for n in GEOMETRY if n in layers]
-    cached[key] = {n: display.dual(layers[n].drop(columns="geometry")).assign(
-        geometry=layers[n]["geometry"].to_numpy()) for n in order}
+    cached[key] = {n: display.dual(layers[n]) for n in order}  # the geometry stays last
     return cached[key]
 
 
@@ -284,9 +284,15 @@ def geodataframes(result, display, crs=None) -> dict:
     """:func:`layer_frames` as GeoDataFrames in ``crs`` (default :func:`output_crs`)."""
     import geopandas as gpd
 
-    target = output_crs(result) if crs is None else crs
-    return {name: gpd.GeoDataFrame(frame, geometry="geometry", crs=result.alignment.crs)
-            .to_crs(target) for name, frame in layer_frames(result, display).items()}
+    import pyproj
+
+    target = output_crs(result) if crs is None else pyproj.CRS.from_user_input(crs)
+    same = target.is_exact_same(pyproj.CRS.from_user_input(result.alignment.crs))
+    out = {}
+    for name, frame in layer_frames(result, display).items():  # frames shared, not copied
+        gdf = gpd.GeoDataFrame(frame, geometry="geometry", crs=result.alignment.crs, copy=False)
+        out[name] = gdf if same else gdf.to_crs(target)
+    return out
 
 
 @writer("layers.gpkg", layer=True)
