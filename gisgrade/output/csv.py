@@ -29,6 +29,7 @@ def write_csv(frame, path, decimals: int | None = 6) -> Path:
     <BLANKLINE>
     """
     import pyarrow as pa
+    import pandas as pd
     import pyarrow.csv as pacsv
 
     columns = {}
@@ -41,7 +42,9 @@ def write_csv(frame, path, decimals: int | None = 6) -> Path:
             columns[str(name)] = pa.array(values, from_pandas=True)
         elif values.dtype.kind in "iub":
             columns[str(name)] = pa.array(values)
-        else:  # text, or objects mixing numbers and None
+        elif pd.api.types.infer_dtype(values, skipna=True) in ("string", "empty"):  # text, whole
+            columns[str(name)] = pa.array(values, type=pa.string(), from_pandas=True)
+        else:  # objects mixing numbers, text and None
             columns[str(name)] = _object_column(values, decimals)
     table = pa.table(columns)
     pacsv.write_csv(table, str(path))
@@ -52,7 +55,7 @@ def _object_column(values, decimals):
     import pyarrow as pa
 
     out = []
-    for v in values:  # short columns only: per-route figures, findings, fittings
+    for v in values:  # short columns only: per-route figures, findings, fittings (text: above)
         if v is None or (isinstance(v, float) and np.isnan(v)):
             out.append(None)
         elif isinstance(v, (float, np.floating)):
