@@ -159,7 +159,8 @@ def wgs84_layers(result, display) -> dict:
             gdf = gpd.GeoDataFrame(frame, geometry="geometry", crs=result.alignment.crs)
             if name in ("pipe_pieces", "pipe_pressure") and len(gdf):
                 gdf = class_runs(gdf)
-                gdf = gdf.set_geometry(shapely.simplify(gdf.geometry.to_numpy(), RUN_TOLERANCE))
+                gdf = gdf.set_geometry(shapely.simplify(gdf.geometry.to_numpy(), RUN_TOLERANCE,
+                                                        preserve_topology=False))
             gdf = gdf.to_crs("EPSG:4326")
             out[name] = gdf.assign(**simplestyle(name, gdf))
         cached[key] = out
