@@ -243,7 +243,7 @@ def test_hgl_near_the_pipe_gets_an_air_vacuum_valve():
     hgl = top + 3 + ((S - 1200) / 400) ** 2  # within 5 m of the pipe from 634 to 1766 m
     got = site_valves(S, top, [], [], grades=[hgl], names=["peak"], rules=WIDE)
     assert kinds(got) == [(1200.0, "air-vacuum")]  # at the closest point
-    assert "peak" in got["reason"].iloc[0]
+    assert got["reason"].iloc[0].endswith("above the top of pipe in peak")
 
 
 def test_slope_changes():
@@ -310,6 +310,10 @@ def test_hgl_near_the_pipe_at_the_end_still_gets_a_valve_inside_the_line():
     hgl = 125 - 0.012 * S  # within 5 m of the pipe from 1538 m, 1 m below it at the end
     got = site_valves(S, top, [], [], grades=[hgl], names=["fire"], rules=WIDE)
     assert kinds(got) == [(1990.0, "air-vacuum")]
+    # there the HGL is under the pipe: 101.99 - (125 - 0.012 * 1990) = 0.87 m below
+    from gisgrade.display import Display
+
+    assert Display("SI").render(got["reason"].iloc[0]) == "HGL 0.87 m below the top of pipe in fire"
 
 
 def test_a_turn_beyond_three_stiff_joints_is_taken_by_more_joints_not_a_big_bend(tmp_path):

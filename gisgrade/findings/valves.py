@@ -80,8 +80,9 @@ def site_valves(station, top, highs, lows, grades=(), names=(), knots=None,
             if a > b:
                 continue
             i = a + int(np.argmin(margin[a:b + 1]))
-            out.append((i, "air-vacuum", f"HGL {token(margin[i], 'length')} above the pipe in "
-                                             f"{name}", 1))
+            where = (f"{token(margin[i], 'length')} above" if margin[i] >= 0 else
+                     f"{token(-margin[i], 'length')} below")  # below: the pipe is under a vacuum
+            out.append((i, "air-vacuum", f"HGL {where} the top of pipe in {name}", 1))
     g = np.diff(z) / np.diff(s)
     out += _slope_changes(s, g, knots, rules)
     out += _runs(s, g, knots, rules, [o[0] for o in out if o[1] != "drain"])
