@@ -345,7 +345,7 @@ class DesignConfig:
                                   "(with its unit: \"0.1 %\", \"0.001 m/m\")", None)
     max_grade: float | None = key("grade>0", "steepest grade (never above 45 deg)", None)
     trench_width: float | None = key("length>0", "trench width (default: outside diameter + "
-                                     "0.6 m)", None)
+                                     "{length.1:0.6})", None)
     grade_break_cost: float = key("volume>=0", "excavation a grade break of 1 % must save "
                                   "(0: least excavation, following every ripple)", 10.0, "10 m3")
     high_point_tolerance: float | None = key("length>=0", "high and low points less prominent "
@@ -440,7 +440,7 @@ class ValvesConfig:
     """[valves]: how air valves and drains are sited (AWWA M51 as recalled, from memory;
     common practice)."""
 
-    interval: float = key("length>0", "longest run without an air valve (400-800 m is usual)",
+    interval: float = key("length>0", "longest run without an air valve ({length.0:400.0} to {length.0:800.0} is usual)",
                           500.0, "500 m")
     grade_change: float = key("grade>0", "a change of slope that needs a valve", 0.01, "1 %")
     flat_grade: float = key("grade>=0", "flatter runs are near-horizontal", 0.001, "0.1 %")
@@ -618,7 +618,7 @@ class CorridorsConfig:
                                    "DEM's, coarser when the window exceeds max_cells)", None)
     max_cells: float = key("number>0", "most cells in the cost grid", 4e6, 4000000)
     margin: float | None = key("length>=0", "DEM read around the points (default: half the "
-                               "longest straight leg between them, at least 500 m)", None)
+                               "longest straight leg between them, at least {length.0:500.0})", None)
     k: float = key("number>0", "how many distinct candidate routes", 3.0, 3)
     separation: float = key("length>0", "routes closer than this share their length", 200.0,
                             "200 m")
@@ -1122,7 +1122,10 @@ def _key_schema(f) -> dict:
     """One key's schema: its doc, its value's form and its default as written."""
     default = f.default if f.metadata["shown"] is None else f.metadata["shown"]
     shown = {} if default is None or default is MISSING else {"default": default}
-    return {"description": f.metadata["doc"], **_value_schema(f.metadata), **shown}
+    from .display import Display
+
+    return {"description": Display().render(f.metadata["doc"]), **_value_schema(f.metadata),
+            **shown}
 
 
 def _quantity_schema(sign=None, unit: str = "") -> dict:

@@ -589,6 +589,9 @@ def test_report_renders_in_chromium_with_its_figures_and_key_numbers(demo_us, tm
         p = g[g["scenario"] == name]["pressure_kpa"] * 1e3 / PSI
         assert f"{p.max():.1f} psi" in dom, name
     assert "licensed professional engineer" in dom and "below vapour pressure (the column separates)" in dom
+    # the settings' meanings quote their quantities in feet too: 400 m = 1312 ft,
+    # 800 m = 2625 ft (NIST SP 811: 1 ft = 0.3048 m)
+    assert "1312 ft to 2625 ft is usual" in html and "800 m" not in html
 
 
 def test_surge_and_energy_are_shown_when_a_run_has_them(demo_si, tmp_path):

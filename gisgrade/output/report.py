@@ -242,7 +242,7 @@ def settings_rows(project, d: Display):
                 default = f.default is not MISSING and _same(v, f.default)
                 rows.append([e(f"{name}.{f.metadata['toml'] or f.name}"), e(_shown(v, f, d)),
                              "<span class=\"default\">default</span>" if default else "given",
-                             e(f.metadata["doc"])])
+                             e(d.render(f.metadata["doc"]))])  # its quantities in d's units
     return rows
 
 
