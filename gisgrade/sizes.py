@@ -22,7 +22,8 @@ from .hydraulics.atmosphere import vapour_floor
 from .hydraulics.energy import KWH, present_value_factor
 from .hydraulics.friction import G
 
-#: sizes.csv columns (then inflow_m3_s, the flow entering: the result with
+#: sizes.csv columns (then fails, the checks failing the scenario in words;
+#: inflow_m3_s, the flow entering: the result with
 #: ``two-heads``; below_vapour, true where min_pressure_kpa is under the lowest
 #: gauge pressure water holds, the column separates; then capital_cost and life_cycle_cost when costs are given;
 #: with a US display a US column beside each SI one).
@@ -165,7 +166,10 @@ def scenario_rows(result, c: Candidate) -> list[dict]:
     egl_in = g.hgl_upstream[:, 0] + (0.0 if tank else v0 ** 2 / (2 * G))
     steps = (g.elements.groupby("scenario")["step_m"].sum() if len(g.elements)
              else pd.Series(dtype=float))
-    failing = set(f.loc[f["code"].isin(HYDRAULIC_CHECKS), "scenario"]) if f is not None else set()
+    bad = f[f["code"].isin(HYDRAULIC_CHECKS)] if f is not None else None
+    failing = set(bad["scenario"]) if bad is not None else set()
+    why = ({n: ", ".join(dict.fromkeys(grp["check"])) for n, grp in bad.groupby("scenario")}
+           if bad is not None else {})
     floor = vapour_floor(g.axis, result.project.hydraulics.temperature)
     rows = []
     for k, name in enumerate(g.names):
@@ -181,7 +185,7 @@ def scenario_rows(result, c: Candidate) -> list[dict]:
             pump_head_m=float(e.pump_head_m) if e is not None else 0.0,
             annual_energy_kwh=float(e.energy_j / KWH) if e is not None else 0.0,
             annual_cost=(np.nan if e is None or e.cost is None else float(e.cost)),
-            passes=name not in failing, inflow_m3_s=float(g.flow[k, 0]),
+            passes=name not in failing, fails=why.get(name, ""), inflow_m3_s=float(g.flow[k, 0]),
             below_vapour=bool((g.pressure_low[k] < floor).any())))
     return rows
 
@@ -190,7 +194,7 @@ def compare(project, candidates, results) -> tuple[pd.DataFrame, list[str]]:
     """``sizes.csv`` as a table, and the verdict lines (which size carries each
     scenario, the cheapest that passes). ``results`` one per candidate."""
     rows = [r for c, res in zip(candidates, results) for r in scenario_rows(res, c)]
-    table = pd.DataFrame(rows, columns=COLUMNS + ["inflow_m3_s", "below_vapour"])
+    table = pd.DataFrame(rows, columns=COLUMNS + ["fails", "inflow_m3_s", "below_vapour"])
     lines = []
     from .display import Display
     d = Display(project.output.units)
@@ -240,6 +244,10 @@ def compare(project, candidates, results) -> tuple[pd.DataFrame, list[str]]:
                          f"({lcc[best.name]:,.0f}{cur})")
     if not passing:
         lines.append("no candidate passes every check in every scenario")
+        for c in candidates:  # what stops each: the checks that fail, per scenario
+            r = table[(table["candidate"] == c.name) & ~table["passes"]]
+            lines.append(f"{c.name} fails: " + "; ".join(f"{n}: {w}" for n, w in
+                                                        zip(r["scenario"], r["fails"])))
     elif not costs:
         smallest = min(passing, key=lambda c: c.inside_diameter)
         lines.append(f"smallest size that passes every check: {smallest.name}"

@@ -114,6 +114,14 @@ def test_the_demo_story_dn400_carries_the_fire_flow(demo_copy, tmp_path, capsys)
     assert ok["DN350", "peak hour"] and not ok["DN350", "max day + fire"]
     assert table[table["candidate"] == "DN400"]["passes"].all()
     assert "max day + fire: carried within every check by DN400" in (out / "sizes.txt").read_text()
+    # what fails a size is said: nothing where it passes; where its least
+    # pressure is under the project's minimum, "low pressure" among the checks
+    from gisgrade.project import load
+
+    fails = table["fails"].fillna("")
+    assert (fails[table["passes"]] == "").all() and (fails[~table["passes"]] != "").all()
+    low = table["min_pressure_kpa"] < load(demo_copy).checks.min_pressure / 1e3
+    assert low.any() and fails[low].str.contains("low pressure").all()
 
 
 def test_two_heads_sizes_report_the_flow_and_us_columns(tmp_path, capsys):
