@@ -624,3 +624,20 @@ def test_surge_and_energy_are_shown_when_a_run_has_them(demo_si, tmp_path):
     html = report_html(r, tmp_path, gisgrade.display.Display())
     assert "<h2>Energy</h2>" in html and "61.3" in html and "12.5" in html
     assert "Surge results are screening only" in html
+
+
+def test_the_geopackage_writer_leaves_gdal_config_as_it_found_it(demo_si):
+    # layers.gpkg is written with OGR_SQLITE_SYNCHRONOUS=OFF (the folder being
+    # built is swapped in whole); the option is restored afterwards, and the
+    # file passes SQLite's own integrity check (sqlite3, Python's standard library)
+    import sqlite3
+
+    import pyogrio
+
+    from gisgrade.output.layers import unsynced_sqlite
+
+    with unsynced_sqlite():
+        assert pyogrio.get_gdal_config_option("OGR_SQLITE_SYNCHRONOUS") == "OFF"
+    assert pyogrio.get_gdal_config_option("OGR_SQLITE_SYNCHRONOUS") is None
+    with sqlite3.connect(demo_si[1] / "layers.gpkg") as db:
+        assert db.execute("PRAGMA integrity_check").fetchone() == ("ok",)
