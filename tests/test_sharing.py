@@ -637,7 +637,7 @@ def test_the_geopackage_writer_leaves_gdal_config_as_it_found_it(demo_si):
     from gisgrade.output.layers import unsynced_sqlite
 
     with unsynced_sqlite():
-        assert pyogrio.get_gdal_config_option("OGR_SQLITE_SYNCHRONOUS") == "OFF"
+        assert pyogrio.get_gdal_config_option("OGR_SQLITE_SYNCHRONOUS") in ("OFF", False)
     assert pyogrio.get_gdal_config_option("OGR_SQLITE_SYNCHRONOUS") is None
     with sqlite3.connect(demo_si[1] / "layers.gpkg") as db:
         assert db.execute("PRAGMA integrity_check").fetchone() == ("ok",)
