@@ -89,11 +89,13 @@ def registry() -> pint.UnitRegistry:
 
     pint's parsed definitions are cached in the user's cache folder
     (``cache_folder=":auto:"``, pint's own cache: a start a fifth of a second
-    sooner); where that folder cannot be written the registry is built
+    sooner); where that folder cannot be written, or its files cannot be
+    read (damaged, or half-written by another run), the registry is built
     without it."""
     try:
         ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True, cache_folder=":auto:")
-    except OSError:
+    except Exception:  # noqa: BLE001 - the cache is an optimisation: unwritable, damaged,
+        # or half-written by a run starting at the same moment; never a reason to fail
         ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
     ureg.define("gallon_per_minute = gallon / minute = gpm = GPM")
     ureg.define("million_gallons_per_day = 1e6 gallon / day = mgd = MGD")

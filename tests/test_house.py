@@ -187,3 +187,22 @@ def test_schema_command_prints_a_schema_the_demo_project_keeps(capsys):
     schema = json.loads(capsys.readouterr().out)
     jsonschema.Draft202012Validator.check_schema(schema)
     jsonschema.validate(tomllib.loads(demo_project().read_text()), schema)
+
+
+@pytest.mark.parametrize("damage", [b"garbage", b""])
+def test_a_damaged_unit_cache_never_stops_a_command(tmp_path, flat_project, damage):
+    # pint's definition cache (in the user's cache folder) damaged or emptied,
+    # as a run killed while writing it, or two runs at once, leave it: the
+    # command still reads the project file (exit 0, nothing on stderr)
+    import os
+    import subprocess
+
+    env = dict(os.environ, XDG_CACHE_HOME=str(tmp_path / "cache"))
+    check = [sys.executable, "-m", "gisgrade", "check", str(flat_project)]
+    subprocess.run(check, env=env, capture_output=True, check=True)  # builds the cache
+    files = [p for p in (tmp_path / "cache").rglob("*") if p.is_file()]
+    assert files
+    for p in files:
+        p.write_bytes(damage)
+    out = subprocess.run(check, env=env, capture_output=True, text=True)
+    assert out.returncode == 0 and out.stderr == "", out.stderr[-500:]
