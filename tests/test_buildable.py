@@ -343,3 +343,25 @@ def test_prominence_matches_scipy_peak_prominences(seed):
     expected = np.minimum(peak_prominences(padded, highs + 1)[0], z[highs] - z.min())
     assert len(highs) > 10
     np.testing.assert_allclose(prominence(z, highs), expected, rtol=0, atol=1e-12)
+
+
+def test_close_vertices_never_push_a_joint_past_its_deflection():
+    # two 8 deg left turns 4 m apart, joints every 6 m of 3 deg, curve_joints 3:
+    # the second vertex finds its joints used by the first, so the 16 deg are
+    # taken by fittings and joints of at most 3 deg each, and every degree of
+    # the plan turn is taken once (turns summed: plane geometry)
+    a1, a2 = math.radians(8.0), math.radians(16.0)
+    p0, p1 = np.array([0.0, 0.0]), np.array([500.0, 0.0])
+    p2 = p1 + 4.0 * np.array([math.cos(a1), math.sin(a1)])
+    s_vert = [0.0, 500.0, 504.0, 1004.0]
+    p3 = p2 + 500.0 * np.array([math.cos(a2), math.sin(a2)])
+    s = np.unique(np.r_[np.arange(0.0, 1004.0, 6.0), s_vert])
+    xy = np.array([np.interp(s, s_vert, [p[i] for p in (p0, p1, p2, p3)]) for i in (0, 1)])
+    vertices = np.isin(s, s_vert)
+    std = np.radians([11.25, 22.5, 45, 90])
+    d = plan_design(s, X0 + xy[0], Y0 + xy[1], np.ones(len(s), bool), math.radians(3), std,
+                    vertices=vertices)
+    assert np.abs(d.share).max() <= math.radians(3) + 1e-12
+    fitted = sum(a if w == "left" else -a for a, w in zip(d.fittings["angle"], d.fittings["direction"]))
+    assert fitted + d.share.sum() == pytest.approx(a2, abs=1e-9)
+    assert len(d.fittings) >= 1  # 16 deg within 4 m is more than three 3 deg joints on each side hold

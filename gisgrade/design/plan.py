@@ -75,13 +75,14 @@ def fewest_fittings(turn: float, angles, capacity: float, max_count: int = 3) ->
     []
     """
     turn = abs(float(turn))
-    if turn <= capacity + 1e-12:
+    tol = 1e-9  # rad: the rounding of coordinates far from the origin (2e-10 seen), not a turn
+    if turn <= capacity + tol:
         return ()
     best = None
     for count in range(1, max_count + 1):
         for combo in combinations_with_replacement(sorted(angles), count):
             miss = abs(turn - sum(combo))
-            if miss <= capacity + 1e-12 and (best is None or miss < best[0] - 1e-12):
+            if miss <= capacity + tol and (best is None or miss < best[0] - 1e-12):
                 best = (miss, combo)
         if best is not None:
             return best[1]
@@ -139,6 +140,43 @@ def nearest(sorted_at, at: float, k: int) -> np.ndarray:
     return window[np.argsort(np.abs(sorted_at[lo:hi] - at), kind="stable")[:k]]
 
 
+def _spread(share, knot_idx, knot_at, at: float, turn: float, delta: float) -> None:
+    """Add the plan turn ``turn`` (rad, signed) to ``share`` at the joints
+    nearest station ``at``: an equal part on each of the fewest joints that
+    can take it, a joint short of room (an earlier vertex used it) giving what
+    it has and the next nearest the rest; beyond every joint's room, the rest
+    on the nearest (a joint over its limit, which the profile's allowance
+    then shows as none left for grade).
+
+    >>> share = np.zeros(5)
+    >>> _spread(share, np.arange(5), np.arange(5.0) * 6, 12.0, np.radians(5), np.radians(3))
+    >>> np.degrees(share).round(2).tolist()
+    [0.0, 2.5, 2.5, 0.0, 0.0]
+    >>> _spread(share, np.arange(5), np.arange(5.0) * 6, 12.0, np.radians(5), np.radians(3))
+    >>> np.degrees(share).round(2).tolist()
+    [1.5, 3.0, 3.0, 2.5, 0.0]
+    """
+    d, amount = np.sign(turn), abs(turn)
+    k = int(np.ceil(amount / delta - 1e-9))
+    each = amount / k
+    m = k
+    while True:
+        m = min(2 * m + 2, len(knot_at))
+        cand = knot_idx[nearest(knot_at, at, m)]
+        room = np.clip(delta - d * share[cand], 0.0, None)
+        give = np.minimum(room, each)
+        done = np.cumsum(give)
+        if done[-1] >= amount - 1e-12 or m == len(knot_at):
+            break
+    last = int(np.searchsorted(done, amount - 1e-12))  # the joints needed, nearest first
+    give = give[:last + 1].copy()
+    give[-1] -= max(done[min(last, len(done) - 1)] - amount, 0.0)
+    share[cand[:last + 1]] += d * give
+    left = amount - give.sum()
+    if left > 1e-12:  # no joint has room: over the limit on the nearest
+        share[cand[:k]] += d * left / k
+
+
 def plan_design(station, x, y, knots, delta: float, angles, curve_joints: int = CURVE_JOINTS,
                 vertices=None) -> PlanDesign:
     """Joints and fittings for the plan turns of a line stationed at
@@ -160,18 +198,20 @@ def plan_design(station, x, y, knots, delta: float, angles, curve_joints: int = 
         turn = np.where(np.asarray(vertices, bool), turn, 0.0)
     share = np.zeros(len(s))
     rows = []
-    capacity = curve_joints * delta
     knot_idx = np.flatnonzero(np.asarray(knots, bool))
     knot_at = s[knot_idx]  # ascending
     for v in np.flatnonzero(np.abs(turn) > 1e-9):  # the vertices: few, not the stations
+        sign = np.sign(turn[v])
+        # what the nearest curve_joints joints can still turn this way: vertices
+        # close together share joints, and a joint never takes more than delta
+        near = knot_idx[nearest(knot_at, s[v], curve_joints)]
+        capacity = float(np.clip(delta - sign * share[near], 0.0, None).sum())
         combo = fewest_fittings(turn[v], angles, capacity) if len(angles) else ()
         rest = abs(turn[v]) - sum(combo)
         if combo:
             rows.append((int(v), float(sum(combo)), "left" if turn[v] > 0 else "right", combo))
-        k = int(np.ceil(abs(rest) / delta - 1e-9)) if delta > 0 else 0
-        if k:
-            near = knot_idx[nearest(knot_at, s[v], k)]
-            share[near] += np.sign(turn[v]) * rest / k  # + left; against a fitting's turn: -
+        if delta > 0 and abs(rest) > 1e-12:
+            _spread(share, knot_idx, knot_at, s[v], sign * rest, delta)
     allowance = vertical_allowance(delta, share)
     fittings = pd.DataFrame(rows, columns=["index", "angle", "direction", "combo"])
     return PlanDesign(turn, share, allowance, fittings)
