@@ -162,7 +162,7 @@ def station_positions(length: float, spacing: float, special=(), tol: float = ST
 
     >>> s, k = station_positions(25.0, 10.0, [(np.array([0.0, 12.0, 25.0]), VERTEX)])
     >>> s.tolist(), k.tolist()
-    ([0.0, 10.0, 12.0, 20.0, 25.0], [3, 1, 2, 1, 10])
+    ([0.0, 10.0, 12.0, 20.0, 25.0], [11, 1, 2, 1, 10])
     """
     regular = np.arange(0.0, length, spacing)
     parts = [np.array([length])]
@@ -180,7 +180,7 @@ def station_positions(length: float, spacing: float, special=(), tol: float = ST
     near_left = np.abs(regular - sp[np.clip(idx - 1, 0, len(sp) - 1)]) <= tol
     near_right = np.abs(sp[np.clip(idx, 0, len(sp) - 1)] - regular) <= tol
     keep = ~(near_left | near_right)
-    # Station 0 is always a regular station and the start.
+    # Station 0 is always a regular station and an end (the start).
     allv = np.concatenate([sp, regular[keep]])
     allf = np.concatenate([sf, np.full(keep.sum(), REGULAR)])
     order = np.argsort(allv, kind="stable")
@@ -190,7 +190,7 @@ def station_positions(length: float, spacing: float, special=(), tol: float = ST
     station = allv[np.concatenate([[True], np.diff(group) > 0])]
     kind = np.zeros(len(station), dtype=np.int64)
     np.bitwise_or.at(kind, group, allf)
-    kind[0] |= REGULAR
+    kind[0] |= REGULAR | END
     return station, kind
 
 

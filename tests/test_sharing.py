@@ -242,8 +242,9 @@ def test_geojson_files_are_rfc7946_with_simplestyle(demo_si):
 
 
 def test_geojson_stations_and_runs_are_what_a_web_map_needs(demo_si):
-    # stations: every station that is not regular, and the first at or past
-    # each 100 m (rule stated in docs/sharing.md), with the GeoPackage's values;
+    # stations: every station that is not regular or has bridged ground, and
+    # the first at or past each 100 m (rule stated in docs/sharing.md), with
+    # the GeoPackage's values;
     # runs: within 1 cm (and the 7-decimal rounding) of the GeoPackage's
     # pieces, both measured in metres in the UTM zone geopandas picks, the
     # runs' lon/lat (RFC 7946) brought there by pyproj
@@ -254,7 +255,8 @@ def test_geojson_stations_and_runs_are_what_a_web_map_needs(demo_si):
     gpkg = read_layers(out / "layers.gpkg")
     st = gpkg["stations"]
     s = st["station_m"].to_numpy()
-    want = (st["kind"] != "regular").to_numpy() | np.r_[True, np.diff(np.floor(s / 100.0)) > 0]
+    want = ((st["kind"] != "regular").to_numpy() | st["ground_bridged"].to_numpy(bool)
+            | np.r_[True, np.diff(np.floor(s / 100.0)) > 0])
     web = json.loads((out / "geojson" / "stations.geojson").read_text())["features"]
     assert 0 < len(web) < len(st)
     got = np.array([f["properties"]["station_m"] for f in web])
@@ -641,3 +643,19 @@ def test_the_geopackage_writer_leaves_gdal_config_as_it_found_it(demo_si):
     assert pyogrio.get_gdal_config_option("OGR_SQLITE_SYNCHRONOUS") is None
     with sqlite3.connect(demo_si[1] / "layers.gpkg") as db:
         assert db.execute("PRAGMA integrity_check").fetchone() == ("ok",)
+
+
+def test_a_pressure_element_is_a_named_station_on_every_map(tmp_path):
+    # a PRV given at 500 m of the flat test line: its station's kind says so in
+    # the GeoPackage, and the GeoJSON a web map gets keeps it
+    import gisgrade
+    from conftest import flat_site
+
+    p = flat_site(tmp_path, '\n[[pressure_elements]]\nkind = "prv"\nstation = "503 m"\n'
+                            'setting = "300 kPa"\n')
+    gisgrade.compute(p).write(tmp_path / "out", figures=False)
+    st = read_layers(tmp_path / "out" / "layers.gpkg")["stations"]
+    assert st.loc[st["station_m"] == 503.0, "kind"].tolist() == ["pressure element"]
+    web = json.loads((tmp_path / "out" / "geojson" / "stations.geojson").read_text())["features"]
+    assert [f["properties"]["kind"] for f in web if f["properties"]["station_m"] == 503.0] == [
+        "pressure element"]

@@ -1,4 +1,4 @@
-"""``geojson/``: every layer of ``layers.gpkg`` as a GeoJSON file, for
+"""``geojson/``: every layer of ``layers.gpkg`` as a GeoJSON file (thinned), for
 people without a GIS (a web map or a text editor opens them).
 
 Each ``geojson/<layer>.geojson`` is one FeatureCollection per RFC 7946 [1]_
@@ -122,18 +122,21 @@ STATION_EVERY = 100.0
 RUN_TOLERANCE = 0.01
 
 
-def web_stations(station_m, kind_word, every_m: float) -> np.ndarray:
+def web_stations(station_m, kind_word, every_m: float, bridged=None) -> np.ndarray:
     """Which stations a web map gets: every one that is not regular (vertex,
-    crossing, end, zone edge, fitting, offtake, section change) and the first
-    at or past each multiple of ``every_m`` (m).
+    crossing, end, zone edge, fitting, offtake, section change, pressure
+    element), every one whose ground was bridged over missing DEM data
+    (``bridged``), and the first at or past each multiple of ``every_m`` (m).
 
-    >>> web_stations(np.arange(0.0, 301.0, 50.0), np.array(["end"] + ["regular"] * 6), 100.0).tolist()
-    [True, False, True, False, True, False, True]
+    >>> web_stations(np.arange(0.0, 301.0, 50.0), np.array(["end"] + ["regular"] * 6), 100.0,
+    ...              np.array([0, 1, 0, 0, 0, 0, 0], bool)).tolist()
+    [True, True, True, False, True, False, True]
     """
     s = np.asarray(station_m, float)
     mark = np.floor(s / every_m + 1e-9)
     first = np.r_[True, mark[1:] > mark[:-1]]
-    return first | (np.asarray(kind_word, object) != "regular")
+    keep = first | (np.asarray(kind_word, object) != "regular")
+    return keep if bridged is None else keep | np.asarray(bridged, bool)
 
 
 def wgs84_layers(result, display) -> dict:
@@ -154,8 +157,9 @@ def wgs84_layers(result, display) -> dict:
         every = STATION_EVERY / display.factor("length")
         for name, frame in layer_frames(result, display).items():
             if name == "stations" and len(frame):
+                bridged = frame["ground_bridged"].to_numpy() if "ground_bridged" in frame else None
                 frame = frame[web_stations(frame["station_m"].to_numpy(), frame["kind"].to_numpy(),
-                                           every)]
+                                           every, bridged)]
             gdf = gpd.GeoDataFrame(frame, geometry="geometry", crs=result.alignment.crs)
             if name in ("pipe_pieces", "pipe_pressure") and len(gdf):
                 gdf = class_runs(gdf)

@@ -42,7 +42,7 @@ from .style import governing_pressure, scale_of
 #: Station kinds: bit flag -> word (``stations.kind`` lists the words).
 KIND_WORDS = ((al.VERTEX, "vertex"), (al.CROSSING, "crossing"), (al.END, "end"),
               (al.ZONE, "cover zone edge"), (al.FITTING, "fitting"), (al.OFFTAKE, "offtake"),
-              (al.SECTION, "section change"))
+              (al.SECTION, "section change"), (al.ELEMENT, "pressure element"))
 
 #: Every layer's geometry type, in writing order.
 GEOMETRY = {"route": "LineString", "pipe_pieces": "LineString", "pipe_pressure": "LineString",
