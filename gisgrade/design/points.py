@@ -23,6 +23,11 @@ import pandas as pd
 #: Grades flatter than this (m/m) are level when finding high and low points.
 LEVEL = 1e-7
 
+#: Heights closer than this (m) are one height when following the profile from
+#: a high point for its prominence: a millimetre, below anything laid or surveyed
+#: (a level top rounded a hair higher further on is not a higher point).
+SAME_HEIGHT = 1e-3
+
 #: Columns of the high/low point table.
 COLUMNS = ["station_m", "kind", "elevation_m", "prominence_m", "why"]
 
@@ -51,15 +56,18 @@ def turning_points(station, z, level: float = LEVEL):
     return np.array(sorted(highs), int), np.array(sorted(lows), int)
 
 
-def prominence(z, peaks) -> np.ndarray:
+def prominence(z, peaks, same: float = SAME_HEIGHT) -> np.ndarray:
     """Prominence (m) of ``peaks`` (indices) of ``z`` (m), the line's ends
     counting as the bottom of the lowest contour: from each peak the profile
     is followed both ways to the first point higher than it (or the end); the
     lowest point on each side is that side's base, an end reached counting as
-    the bottom; the prominence is the peak above the higher base [1].
+    the bottom; the prominence is the peak above the higher base [1]. A point
+    less than ``same`` (m) higher is not higher.
 
     >>> prominence(np.array([0.0, 3.0, 1.0, 2.0, 0.5]), np.array([1, 3]))
     array([3., 1.])
+    >>> prominence(np.array([10.0, 10.0, 10.0000001, 5.0, 0.0]), np.array([0]))  # a level top
+    array([10.])
     """
     z = np.asarray(z, float)
     peaks = np.asarray(peaks, int)
@@ -69,8 +77,8 @@ def prominence(z, peaks) -> np.ndarray:
     bottom = float(z.min())
     for k, p in enumerate(peaks):  # the high points, few: not the stations
         h = z[p]
-        left = np.flatnonzero(z[:p] > h)
-        right = np.flatnonzero(z[p + 1:] > h)
+        left = np.flatnonzero(z[:p] > h + same)
+        right = np.flatnonzero(z[p + 1:] > h + same)
         base_left = z[left[-1] + 1:p + 1].min() if len(left) else bottom
         base_right = z[p:p + 1 + right[0]].min() if len(right) else bottom
         out[k] = h - max(base_left, base_right)
