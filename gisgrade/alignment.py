@@ -531,6 +531,23 @@ def _field_values(gdf, cfg_key: str, field: str | None, factor: float, path: Pat
     return values * factor
 
 
+def feature_names(gdf, stem: str) -> np.ndarray:
+    """Each feature's ``name`` as one line of text: white space (a newline)
+    folded to single spaces; a null or empty name as ``<stem>#<i>``.
+
+    >>> import pandas as pd
+    >>> feature_names(pd.DataFrame({"name": ["Mill  leat", None, "", "a\\nb", 12]}), "x").tolist()
+    ['Mill leat', 'x#1', 'x#2', 'a b', '12']
+    """
+    fallback = np.array([f"{stem}#{i}" for i in range(len(gdf))], dtype=object)
+    if "name" not in gdf.columns:
+        return fallback
+    raw = gdf["name"]
+    text = np.array([" ".join(str(v).split()) for v in raw], dtype=object)
+    missing = raw.isna().to_numpy() | (text == "")
+    return np.where(missing, fallback, text)
+
+
 def path_name(path: Path, i: int) -> str:
     """``feature i of FILE``, for messages."""
     return f"feature {i} of {path.name}"
@@ -577,7 +594,7 @@ def locate_crossings(alignment: Alignment, layers, vertical_factor: float = 1.0)
         gdf = gdf.to_crs(alignment.crs)
         geoms = gdf.geometry.values
         hits = shapely.intersection(geoms, alignment.line)
-        names = gdf["name"].astype(str).values if "name" in gdf.columns else None
+        names = feature_names(gdf, cfg.path.stem)
         used = cfg.bottom_field or cfg.depth_field
         for i, hit in enumerate(hits):
             if hit.is_empty:
@@ -609,7 +626,7 @@ def locate_crossings(alignment: Alignment, layers, vertical_factor: float = 1.0)
                 angle = crossing_angle(tangent_angle(coords, s_line), tangent_angle(feat, s_feat))
             else:
                 angle = np.full(len(points), np.nan)
-            name = names[i] if names is not None else f"{cfg.path.stem}#{i}"
+            name = names[i]
             xy = shapely.get_coordinates(points)
             for k in range(len(points)):
                 rows.append((s_line[k], xy[k, 0], xy[k, 1], bottom[i], cfg.clearance, angle[k],
@@ -672,7 +689,7 @@ def locate_zones(alignment: Alignment, layers) -> CoverZones:
         if cfg.maximum is not None:
             maxs = np.where(np.isfinite(maxs), maxs, cfg.maximum)
         gdf = gdf.to_crs(alignment.crs)
-        names = gdf["name"].astype(str).values if "name" in gdf.columns else None
+        names = feature_names(gdf, cfg.path.stem)
         inside = shapely.intersection(alignment.line, gdf.geometry.values)
         for i, piece in enumerate(inside):
             for part in shapely.get_parts(shapely.line_merge(piece) if not piece.is_empty else piece):
@@ -680,7 +697,7 @@ def locate_zones(alignment: Alignment, layers) -> CoverZones:
                     continue
                 ends = shapely.line_locate_point(alignment.line, shapely.points(
                     np.asarray(part.coords)[[0, -1], :2]))
-                name = names[i] if names is not None else f"{cfg.path.stem}#{i}"
+                name = names[i]
                 rows.append((float(ends.min()), float(ends.max()), mins[i], maxs[i], name,
                              cfg.key))
     if not rows:
