@@ -97,6 +97,7 @@ def stage_design(project, table: pd.DataFrame, crossings):
     vertices = (table["kind"].to_numpy() & al.VERTEX) != 0 if "kind" in table else None
     plan = plan_design(station, x, y, knots, cfg.max_joint_deflection, cfg.bend_angles,
                        int(cfg.curve_joints), vertices=vertices)
+    notes += jitter_note(station[plan.fittings["index"].to_numpy(int)], cfg.joint_length)
     profile = design_profile(station, ground, design_crossings(crossings, station, ground),
                              rules_for(project, table, plan.allowance))
     axis = profile.top - od / 2
@@ -118,6 +119,37 @@ def stage_design(project, table: pd.DataFrame, crossings):
     points = high_low_points(station, profile.top, profile.reason, near=cfg.joint_length)
     bends = bends_frame(profile, plan, grown, cfg.bend_angles)
     return grown, Design(crossings, profile, bends, points, notes)
+
+
+#: Plan bends closer than this many joint lengths, this share of them or more:
+#: the centerline is a trace (GPS, hand digitizing), not the intended vertices.
+JITTER_SHARE = 0.25
+
+
+def jitter_note(at, joint_length: float) -> list[str]:
+    """A remark when many plan bends (stations ``at``, m) are within a joint
+    length of the next: each is a vertex of a noisy trace, not a turn a main
+    would be laid with (common practice: simplify the centerline first).
+
+    >>> jitter_note([10.0, 12.0, 13.5, 400.0], 6.0)[0][:40]
+    'centerline: 3 of the 4 plan bends are wi'
+    >>> jitter_note([10.0, 400.0], 6.0)
+    []
+    """
+    at = np.sort(np.asarray(at, float))
+    if len(at) < 4:
+        return []
+    close = np.zeros(len(at), bool)
+    near = np.diff(at) < joint_length
+    close[1:] |= near
+    close[:-1] |= near
+    if close.sum() < JITTER_SHARE * len(at):
+        return []
+    from ..display import token
+
+    return [f"centerline: {int(close.sum())} of the {len(at)} plan bends are within one joint "
+            f"length ({token(joint_length, 'length')}) of another: the line looks like a GPS or "
+            "digitized trace; simplify it to the intended vertices before reading bends and joints"]
 
 
 def bends_frame(profile, plan, table: pd.DataFrame, angles=()) -> pd.DataFrame:
