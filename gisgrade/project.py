@@ -376,7 +376,7 @@ class HydraulicsConfig:
     source_head: float | None = key("length", "HGL at the first station (the tank level with "
                                     "start = \"tank\")", None)
     flow: float | None = key("flow>=0", "the design flow entering at the first station", None)
-    temperature: float = key("temperature", "water temperature, 0-40 degC", 288.15, "15 degC")
+    temperature: float = key("temperature", "water temperature, 0-40 degC (32-104 degF)", 288.15, "15 degC")
     boundary: str = key("text", "what is known: the source head, both heads (the flow is "
                         "solved) or a least pressure (the head is solved)", "source-head",
                         choices=BOUNDARIES)
@@ -417,10 +417,11 @@ class HydraulicsConfig:
 class ChecksConfig:
     """[checks]: planning checks (defaults: common practice, see docs/hydraulics.md)."""
 
-    min_pressure: float = key("pressure", "floor under all demands, 20 psi (common practice)",
+    min_pressure: float = key("pressure", "floor under all demands (common practice: about "
+                              "{pressure.0:137895.1})",
                               140e3, "140 kPa")
-    max_pressure: float = key("pressure", "upper end of normal working pressure, 80 psi (common "
-                              "practice)", 550e3, "550 kPa")
+    max_pressure: float = key("pressure", "upper end of normal working pressure (common "
+                              "practice: about {pressure.0:551580.6})", 550e3, "550 kPa")
     min_velocity: float = key("velocity>=0", "least velocity (0: off)", 0.0, "0 m/s")
     max_velocity: float = key("velocity>=0", "upper end even in fire flow (common practice)", 3.0,
                               "3 m/s")
