@@ -39,6 +39,10 @@ COLUMNS = ("route", "folder", "scenario", "status", "length_m", "trench_volume_m
 #: Points kept per route for the comparison figure (a 20 km line at 0.5 m has 40 000).
 PLOT_POINTS = 1500
 
+#: The folder, inside the one being built, where workers leave each route's
+#: layers as Arrow files until ``routes.gpkg`` is written (removed before the end).
+PARTS = ".layers"
+
 
 # --------------------------------------------------------------------------
 # The routes of a layer
@@ -132,11 +136,32 @@ class Outcome:
     name: str
     rows: list  #: routes.csv rows (dicts)
     error: str | None = None
-    layers: dict = field(default_factory=dict)  #: layer name -> GeoDataFrame (output CRS)
-    files: dict = field(default_factory=dict)  #: relative path -> bytes of the route's outputs
+    layers: dict = field(default_factory=dict)  #: layer name -> :class:`LayerPart`
+    files: dict = field(default_factory=dict)  #: relative path -> bytes, or None once written
     plan: object = None  #: (n, 2) array of the route in the output CRS
     profile: dict | None = None  #: station, ground, hgl arrays (thinned) for the figure
     seconds: float = 0.0
+
+
+@dataclass
+class LayerPart:
+    """One route's features of one layer, as the Arrow table the GeoPackage
+    writer takes (:func:`arrow_layer`): in memory (``table``) or in an Arrow
+    IPC file the worker wrote into the folder being built (``path``)."""
+
+    kinds: tuple  #: the geometry types present (e.g. ``("LineString",)``)
+    crs: object  #: pyproj CRS of the geometries
+    table: object = None  #: pyarrow Table, or None when it is at ``path``
+    path: str | None = None
+
+    def read(self):
+        """The table (memory-mapped from ``path``: no copy)."""
+        import pyarrow as pa
+
+        if self.table is not None:
+            return self.table
+        with pa.memory_map(self.path) as source:
+            return pa.ipc.open_file(source).read_all()
 
 
 def route_rows(name: str, result) -> list[dict]:
@@ -196,30 +221,161 @@ def _read_tree(folder: Path) -> dict:
             for p in sorted(folder.rglob("*")) if p.is_file()}
 
 
+def arrow_layer(gdf) -> tuple:
+    """``(table, kinds)``: a layer's GeoDataFrame as the Arrow table that
+    ``pyogrio.write_dataframe(..., use_arrow=True)`` builds to write it
+    (geometry as WKB; object columns of mixed values as text, as it does),
+    with ``route`` first, and the geometry types present. Columns that hold
+    no value stay of Arrow's null type here, so that :func:`merge_parts`
+    gives each the type of the routes that have values, as one frame of
+    every route would; it makes what is left null text, as pyogrio does."""
+    import pandas as pd
+    import pyarrow as pa
+    from geopandas.array import to_wkb
+
+    kinds = tuple(sorted(set(gdf.geom_type.dropna())))
+    df = pd.DataFrame(gdf, copy=False)
+    df = df[["route", *[c for c in df.columns if c != "route"]]].copy()
+    df["geometry"] = to_wkb(gdf.geometry.values)
+    for name, dtype in df.dtypes.items():
+        if name == "geometry" or dtype != "object":
+            continue
+        if pd.api.types.infer_dtype(df[name]) == "string":
+            continue
+        try:
+            pa.Schema.from_pandas(df[[name]])
+        except pa.ArrowInvalid:
+            df[name] = df[name].astype("string")
+    return pa.Table.from_pandas(df, preserve_index=False), kinds
+
+
+def merge_parts(parts: list) -> tuple:
+    """``(table, crs, kinds)``: the :class:`LayerPart` of every route of one
+    layer as one table in the first part's CRS, in the routes' order, and
+    the geometry types present: what one frame of every route
+    (``pandas.concat``) holds. A field's types across routes are widened as
+    ``concat`` would (a field without values takes the others' type,
+    integers and floats become floats); types that do not widen become
+    text, as pyogrio writes a column of mixed values (:func:`_for_gdal`
+    then makes the table what pyogrio hands GDAL)."""
+    import pyarrow as pa
+
+    crs = parts[0].crs
+    tables = [_in_crs(p.read(), p.crs, crs) for p in parts]
+    try:
+        table = pa.concat_tables(tables, promote_options="permissive")
+    except (pa.ArrowInvalid, pa.ArrowTypeError, pa.ArrowNotImplementedError):
+        names = list(dict.fromkeys(n for t in tables for n in t.schema.names))
+        types = {n: {t.schema.field(n).type for t in tables if n in t.schema.names
+                     and not pa.types.is_null(t.schema.field(n).type)} for n in names}
+        tables = [t.cast(pa.schema([pa.field(n, pa.string()) if len(types[n]) > 1
+                                    and n != "geometry" else t.schema.field(n)
+                                    for n in t.schema.names])) for t in tables]
+        table = pa.concat_tables(tables, promote_options="permissive")
+    return table, crs, {k for p in parts for k in p.kinds}
+
+
+def _for_gdal(table, kinds):
+    """A merged layer as pyogrio hands it to GDAL: a field without a value
+    anywhere as text (GDAL takes no null type), the geometry as binary, and
+    single and multi geometries of one kind in one layer all as multi (what
+    pyogrio does for a GeoPackage)."""
+    import pyarrow as pa
+
+    for i, f in enumerate(table.schema):
+        if pa.types.is_null(f.type):
+            table = table.set_column(i, pa.field(f.name, pa.string()), table[i].cast(pa.string()))
+    if not (pa.types.is_binary(table.schema.field("geometry").type)
+            or pa.types.is_large_binary(table.schema.field("geometry").type)):
+        i = table.schema.get_field_index("geometry")
+        table = table.set_column(i, pa.field("geometry", pa.binary()), table[i].cast(pa.binary()))
+    single = {k for k in kinds if not k.startswith("Multi")}
+    if len(kinds) == 2 and len(single) == 1 and f"Multi{next(iter(single))}" in kinds:
+        table = _to_multi(table, next(iter(single)))
+    return table
+
+
+def _in_crs(table, crs, target):
+    """``table``'s geometries reprojected from ``crs`` to ``target`` (the same table when equal)."""
+    if crs == target:
+        return table
+    import geopandas as gpd
+    import pyarrow as pa
+
+    g = gpd.GeoSeries.from_wkb(table.column("geometry").to_numpy(zero_copy_only=False), crs=crs)
+    i = table.schema.get_field_index("geometry")
+    return table.set_column(i, "geometry", pa.array(g.to_crs(target).to_wkb(), pa.binary()))
+
+
+def _to_multi(table, single: str):
+    """The ``single`` geometries of ``table`` as their multi kind (as pyogrio writes them)."""
+    import pyarrow as pa
+    import shapely
+
+    geoms = shapely.from_wkb(table.column("geometry").to_numpy(zero_copy_only=False))
+    make = {"Point": shapely.multipoints, "LineString": shapely.multilinestrings,
+            "Polygon": shapely.multipolygons}[single]
+    mask = shapely.get_type_id(geoms) == {"Point": 0, "LineString": 1, "Polygon": 3}[single]
+    geoms[mask] = make(np.atleast_2d(geoms[mask]), axis=0)
+    i = table.schema.get_field_index("geometry")
+    return table.set_column(i, "geometry", pa.array(shapely.to_wkb(geoms), pa.binary()))
+
+
+def _write_parts(layers: dict, folder: Path) -> dict:
+    """Each layer's part as an Arrow IPC file in ``folder``; the parts now name their files."""
+    import pyarrow as pa
+
+    folder.mkdir(parents=True, exist_ok=True)
+    for name, part in layers.items():
+        path = folder / f"{name}.arrow"
+        with pa.OSFile(str(path), "wb") as sink, pa.ipc.new_file(sink, part.table.schema) as w:
+            w.write_table(part.table)
+        part.table, part.path = None, str(path)
+    return layers
+
+
 def run_route(project, name: str, frame, figures: bool = False,
-              layers: bool = False) -> Outcome:
-    """The whole job on one route: compute, its layers, its own output files
-    (as bytes; its figures with ``figures``, its own layer files with
-    ``layers``: every route's layers are in ``routes.gpkg`` anyway). A bad input or a failure of the route is caught and becomes
-    the ``status`` of its row; nothing here raises."""
+              layers: bool = False, dest=None, parts=None) -> Outcome:
+    """The whole job on one route: compute, its layers (:class:`LayerPart`),
+    its own output files (its figures with ``figures``, its own layer files
+    with ``layers``: every route's layers are in ``routes.gpkg`` anyway).
+
+    ``dest``: the route's folder in the folder being built; where this
+    process sees that folder's parent (the same machine, or a shared file
+    system), the route's files are written there (atomically, as ``gisgrade
+    run`` writes them) and its layers as Arrow files into ``parts``, and
+    neither travels back. Elsewhere the files come back as bytes and the
+    layers as tables. A bad input or a failure of the route is caught and
+    becomes the ``status`` of its row; nothing here raises."""
     import time
 
     from .display import display_of
     from .output.layers import geodataframes
-    from .pipeline import compute
 
     t0 = time.perf_counter()
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
+            from .pipeline import compute
+
             result = compute(project, frame=frame)
             display = display_of(project)
-            frames = {n: g.assign(route=name) for n, g in geodataframes(result, display).items()}
-            with tempfile.TemporaryDirectory(prefix="gisgrade-route-") as tmp:
-                out = Path(tmp) / "out"
-                result.write(out, figures=figures, layers=layers)
-                files = _read_tree(out)
+            pieces = {}
+            for n, g in geodataframes(result, display).items():
+                table, kinds = arrow_layer(g.assign(route=name))
+                pieces[n] = LayerPart(kinds, g.crs, table)
             plan, prof = _figure_data(result)
+            here = dest is not None and Path(dest).parent.is_dir()
+            if here:
+                result.write(dest, figures=figures, layers=layers)
+                files = dict.fromkeys(sorted(str(p.relative_to(dest))
+                                             for p in Path(dest).rglob("*") if p.is_file()))
+                _write_parts(pieces, Path(parts))
+            else:
+                with tempfile.TemporaryDirectory(prefix="gisgrade-route-") as tmp:
+                    out = Path(tmp) / "out"
+                    result.write(out, figures=figures, layers=layers)
+                    files = _read_tree(out)
     except InputError as exc:
         return Outcome(name, [_failed(name, str(exc))], error=str(exc),
                        seconds=time.perf_counter() - t0)
@@ -227,7 +383,7 @@ def run_route(project, name: str, frame, figures: bool = False,
         reason = f"failed: {type(exc).__name__}: {first_line(exc)}"
         return Outcome(name, [_failed(name, reason)], error=reason,
                        seconds=time.perf_counter() - t0)
-    return Outcome(name, route_rows(name, result), None, frames, files, plan, prof,
+    return Outcome(name, route_rows(name, result), None, pieces, files, plan, prof,
                    time.perf_counter() - t0)
 
 
@@ -238,6 +394,15 @@ def _failed(name: str, reason: str) -> dict:
 # --------------------------------------------------------------------------
 # All routes
 # --------------------------------------------------------------------------
+
+
+def _geoframe(table, crs):
+    """A merged layer's table as a GeoDataFrame (for GeoParquet)."""
+    import geopandas as gpd
+
+    df = table.to_pandas()
+    df["geometry"] = gpd.GeoSeries.from_wkb(df["geometry"], crs=crs).values
+    return gpd.GeoDataFrame(df, geometry="geometry", crs=crs)
 
 
 def _put(outcome: Outcome, folder: Path) -> None:
@@ -302,43 +467,53 @@ class RoutesResult:
         if parquet:
             self.table.to_parquet(tmp / "routes.parquet", index=False)
             (tmp / "parquet").mkdir()
-            for name, gdf in merged.items():
-                gdf.to_parquet(tmp / "parquet" / f"{name}.parquet", index=False)
+            for name, (table, crs, _) in merged.items():
+                _geoframe(table, crs).to_parquet(tmp / "parquet" / f"{name}.parquet", index=False)
+        del merged
         self._write_figure(tmp / "routes.png")
         for o, folder in zip(self.outcomes, self.folders):
             _put(o, tmp / folder)
+        self._tidy(tmp)
 
+    def _tidy(self, tmp: Path) -> None:
+        """Remove what is not part of the result: the layers' Arrow parts, the
+        folder of a route that failed after its worker wrote into it, and a
+        half-written route folder a lost worker left."""
+        import shutil
+
+        shutil.rmtree(tmp / PARTS, ignore_errors=True)
+        for o, folder in zip(self.outcomes, self.folders):
+            if o.error is not None and (tmp / folder).exists():
+                shutil.rmtree(tmp / folder, ignore_errors=True)
+        for left in tmp.glob(".*.gisgrade-*"):
+            shutil.rmtree(left, ignore_errors=True)
 
     def _merged_layers(self) -> dict:
-        """Each layer name -> one GeoDataFrame of every route's features
-        (``route`` first), in the first route's output CRS."""
-        import geopandas as gpd
-        import pandas as pd
-
+        """Each layer name -> ``(table, crs, kinds)``: every route's features
+        in one Arrow table (``route`` first), in the first route's output CRS
+        (:func:`merge_parts`)."""
         from .output.layers import GEOMETRY
 
         by_layer: dict[str, list] = {}
         for o in self.outcomes:
-            for name, gdf in o.layers.items():
-                by_layer.setdefault(name, []).append(gdf)
-        out = {}
-        for name in [n for n in GEOMETRY if n in by_layer]:
-            parts = by_layer[name]
-            crs = parts[0].crs
-            gdf = gpd.GeoDataFrame(pd.concat([p.to_crs(crs) for p in parts], ignore_index=True),
-                                   geometry="geometry", crs=crs)
-            out[name] = gdf[["route", *[c for c in gdf.columns if c != "route"]]]
-        return out
+            for name, part in o.layers.items():
+                by_layer.setdefault(name, []).append(part)
+        return {name: merge_parts(by_layer[name]) for name in GEOMETRY if name in by_layer}
 
     def _write_layers(self, merged: dict, path: Path) -> None:
+        from pyogrio.raw import write_arrow
+
         from .cautions import CAUTIONS
         from .output.layers import GEOMETRY
 
-        for i, (name, gdf) in enumerate(merged.items()):
-            gdf.to_file(path, layer=name, driver="GPKG", engine="pyogrio", use_arrow=True,
-                        mode="w" if i == 0 else "a", geometry_type=GEOMETRY[name],
+        for i, (name, (table, crs, kinds)) in enumerate(merged.items()):
+            epsg = crs.to_epsg() if crs is not None else None  # as pyogrio names a CRS
+            write_arrow(_for_gdal(table, kinds), path, layer=name, driver="GPKG", geometry_name="geometry",
+                        geometry_type=GEOMETRY[name], append=i > 0,
+                        crs=None if crs is None else f"EPSG:{epsg}" if epsg
+                        else crs.to_wkt("WKT1_GDAL"),
                         layer_metadata={"DESCRIPTION": f"gisgrade {name}, every route. "
-                                                       f"CAUTION: {CAUTIONS}"})
+                                                      f"CAUTION: {CAUTIONS}"})
 
     def _write_figure(self, path: Path) -> None:
         from .display import display_of
@@ -374,9 +549,12 @@ def run_routes(project, lines=None, *, workers: int | None = None, scheduler: st
                figures: bool = False, layers: bool = False, progress=None,
                sink=None) -> RoutesResult:
     """The whole job on every route; writes nothing (see :meth:`RoutesResult.write`),
-    unless ``sink`` is given: a folder being built (``atomic_folder``) that
-    takes each route's own files as the route finishes, so their bytes are
-    not all held until the end (:meth:`RoutesResult.write_into` then adds the rest).
+    unless ``sink`` is given: a folder being built (``atomic_folder``) into
+    which each route's worker writes the route's own files and its layers
+    (as Arrow files, see :func:`run_route`), so that neither travels back nor
+    is held here until the end (:meth:`RoutesResult.write_into` then adds
+    the rest). A worker that does not see ``sink`` sends them back, and they
+    are written here as the route finishes.
 
     ``project``: a path or a loaded :class:`~gisgrade.project.Project`.
     ``lines``: a GeoDataFrame with a ``route`` column (one or more features a
@@ -401,6 +579,11 @@ def run_routes(project, lines=None, *, workers: int | None = None, scheduler: st
     total = len(routes)
     shown = progress or (lambda done, total: None)
 
+    if sink is None:
+        places = [(None, None)] * total
+    else:
+        places = [(str(Path(sink) / f), str(Path(sink) / PARTS / f)) for f in folders]
+
     def arrived(i, outcome, done):
         if sink is not None:
             _put(outcome, Path(sink) / folders[i])
@@ -410,21 +593,22 @@ def run_routes(project, lines=None, *, workers: int | None = None, scheduler: st
     if workers == 0 and not scheduler:
         outcomes = []
         for i, (name, frame) in enumerate(routes):
-            outcomes.append(run_route(project, name, frame, figures, layers))
+            outcomes.append(run_route(project, name, frame, figures, layers, *places[i]))
             arrived(i, outcomes[-1], i + 1)
     else:
-        outcomes = _on_dask(project, routes, workers, scheduler, figures, layers, arrived)
+        outcomes = _on_dask(project, routes, places, workers, scheduler, figures, layers, arrived)
     return RoutesResult(project, outcomes, folders)
 
 
-def _on_dask(project, routes, workers, scheduler, figures, layers, arrived) -> list[Outcome]:
+def _on_dask(project, routes, places, workers, scheduler, figures, layers,
+             arrived) -> list[Outcome]:
     from distributed import as_completed
 
     client, cluster = _cluster(workers, scheduler, len(routes))
     try:
         shared = client.scatter(project, broadcast=True)
-        futures = [client.submit(run_route, shared, name, frame, figures, layers, pure=False,
-                                 key=f"gisgrade-route-{i}")
+        futures = [client.submit(run_route, shared, name, frame, figures, layers, *places[i],
+                                 pure=False, key=f"gisgrade-route-{i}")
                    for i, (name, frame) in enumerate(routes)]
         index = {f.key: i for i, f in enumerate(futures)}
         outcomes = [None] * len(futures)
