@@ -396,6 +396,35 @@ def _failed(name: str, reason: str) -> dict:
 # --------------------------------------------------------------------------
 
 
+def write_layers(layers: dict, path) -> None:
+    """``routes.gpkg``: each layer's parts (:meth:`RoutesResult._parts`) merged
+    (:func:`merge_parts`) and written as pyogrio's ``write_dataframe`` of one
+    frame of every route would write them, one layer at a time."""
+    from pyogrio.raw import write_arrow
+
+    from .cautions import CAUTIONS
+    from .output.layers import GEOMETRY
+
+    for i, (name, parts) in enumerate(layers.items()):
+        table, crs, kinds = merge_parts(parts)
+        epsg = crs.to_epsg() if crs is not None else None  # as pyogrio names a CRS
+        write_arrow(_for_gdal(table, kinds), str(path), layer=name, driver="GPKG",
+                    geometry_name="geometry", geometry_type=GEOMETRY[name], append=i > 0,
+                    crs=None if crs is None else f"EPSG:{epsg}" if epsg
+                    else crs.to_wkt("WKT1_GDAL"),
+                    layer_metadata={"DESCRIPTION": f"gisgrade {name}, every route. "
+                                                  f"CAUTION: {CAUTIONS}"})
+
+
+def write_geoparquet(layers: dict, folder) -> None:
+    """``parquet/<layer>.parquet``: each layer's parts merged, as GeoParquet."""
+    folder = Path(folder)
+    folder.mkdir()
+    for name, parts in layers.items():
+        table, crs, _ = merge_parts(parts)
+        _geoframe(table, crs).to_parquet(folder / f"{name}.parquet", index=False)
+
+
 def _geoframe(table, crs):
     """A merged layer's table as a GeoDataFrame (for GeoParquet)."""
     import geopandas as gpd
@@ -454,25 +483,37 @@ class RoutesResult:
         out = Path(outdir)
         return sorted(p for p in out.rglob("*") if p.is_file())
 
-    def write_into(self, tmp: Path, parquet: bool = False) -> None:
+    def write_into(self, tmp: Path, parquet: bool = False, client=None) -> None:
         """:meth:`write` into the folder ``tmp`` being built (a route's files
-        already written there as it finished, see ``run_routes(sink=...)``, are not
-        written again)."""
+        already written there by its worker, see ``run_routes(sink=...)``, are
+        not written again). ``client``: a Dask client whose workers see
+        ``tmp``: ``routes.gpkg`` (and the GeoParquet layers) are then written
+        by a worker while this process writes the table and draws the figure."""
         from .display import display_of
         from .output.csv import write_csv
 
-        write_csv(display_of(self.project).dual(self.table), tmp / "routes.csv")
-        merged = self._merged_layers()
-        self._write_layers(merged, tmp / "routes.gpkg")
+        layers = self._parts()
+        on_disk = all(p.path is not None for parts in layers.values() for p in parts)
+        jobs = []
+        if client is not None and on_disk and layers:
+            jobs.append(client.submit(write_layers, layers, str(tmp / "routes.gpkg"),
+                                      pure=False, key="gisgrade-routes-gpkg"))
+            if parquet:
+                jobs.append(client.submit(write_geoparquet, layers, str(tmp / "parquet"),
+                                          pure=False, key="gisgrade-routes-parquet"))
+        else:
+            write_layers(layers, tmp / "routes.gpkg")
+            if parquet:
+                write_geoparquet(layers, tmp / "parquet")
+        table = self.table
+        write_csv(display_of(self.project).dual(table), tmp / "routes.csv")
         if parquet:
-            self.table.to_parquet(tmp / "routes.parquet", index=False)
-            (tmp / "parquet").mkdir()
-            for name, (table, crs, _) in merged.items():
-                _geoframe(table, crs).to_parquet(tmp / "parquet" / f"{name}.parquet", index=False)
-        del merged
+            table.to_parquet(tmp / "routes.parquet", index=False)
         self._write_figure(tmp / "routes.png")
         for o, folder in zip(self.outcomes, self.folders):
             _put(o, tmp / folder)
+        for job in jobs:
+            job.result()  # an error there is raised here
         self._tidy(tmp)
 
     def _tidy(self, tmp: Path) -> None:
@@ -488,32 +529,16 @@ class RoutesResult:
         for left in tmp.glob(".*.gisgrade-*"):
             shutil.rmtree(left, ignore_errors=True)
 
-    def _merged_layers(self) -> dict:
-        """Each layer name -> ``(table, crs, kinds)``: every route's features
-        in one Arrow table (``route`` first), in the first route's output CRS
-        (:func:`merge_parts`)."""
+    def _parts(self) -> dict:
+        """Each layer name -> the :class:`LayerPart` of every route that has it,
+        in the routes' order (layers in :data:`~gisgrade.output.layers.GEOMETRY` order)."""
         from .output.layers import GEOMETRY
 
         by_layer: dict[str, list] = {}
         for o in self.outcomes:
             for name, part in o.layers.items():
                 by_layer.setdefault(name, []).append(part)
-        return {name: merge_parts(by_layer[name]) for name in GEOMETRY if name in by_layer}
-
-    def _write_layers(self, merged: dict, path: Path) -> None:
-        from pyogrio.raw import write_arrow
-
-        from .cautions import CAUTIONS
-        from .output.layers import GEOMETRY
-
-        for i, (name, (table, crs, kinds)) in enumerate(merged.items()):
-            epsg = crs.to_epsg() if crs is not None else None  # as pyogrio names a CRS
-            write_arrow(_for_gdal(table, kinds), path, layer=name, driver="GPKG", geometry_name="geometry",
-                        geometry_type=GEOMETRY[name], append=i > 0,
-                        crs=None if crs is None else f"EPSG:{epsg}" if epsg
-                        else crs.to_wkt("WKT1_GDAL"),
-                        layer_metadata={"DESCRIPTION": f"gisgrade {name}, every route. "
-                                                      f"CAUTION: {CAUTIONS}"})
+        return {name: by_layer[name] for name in GEOMETRY if name in by_layer}
 
     def _write_figure(self, path: Path) -> None:
         from .display import display_of
@@ -547,14 +572,15 @@ def _cluster(workers: int | None, scheduler: str | None, n_routes: int):
 
 def run_routes(project, lines=None, *, workers: int | None = None, scheduler: str | None = None,
                figures: bool = False, layers: bool = False, progress=None,
-               sink=None) -> RoutesResult:
+               sink=None, parquet: bool = False) -> RoutesResult:
     """The whole job on every route; writes nothing (see :meth:`RoutesResult.write`),
     unless ``sink`` is given: a folder being built (``atomic_folder``) into
-    which each route's worker writes the route's own files and its layers
-    (as Arrow files, see :func:`run_route`), so that neither travels back nor
-    is held here until the end (:meth:`RoutesResult.write_into` then adds
-    the rest). A worker that does not see ``sink`` sends them back, and they
-    are written here as the route finishes.
+    which everything is written (:meth:`RoutesResult.write_into`, with
+    ``parquet``). Each route's worker writes the route's own files and its
+    layers (as Arrow files, see :func:`run_route`) there itself, so neither
+    travels back nor is held here; ``routes.gpkg`` is then written by a
+    worker while this process draws the figure. A worker that does not see
+    ``sink`` sends them back, and they are written here.
 
     ``project``: a path or a loaded :class:`~gisgrade.project.Project`.
     ``lines``: a GeoDataFrame with a ``route`` column (one or more features a
@@ -567,9 +593,9 @@ def run_routes(project, lines=None, *, workers: int | None = None, scheduler: st
     route's layers).
     ``progress(done, total)`` is called as routes finish.
     """
-    from .pipeline import _project
+    from .project import Project, load
 
-    project = _project(project)
+    project = project if isinstance(project, Project) else load(project)
     if lines is None:
         routes = read_routes(project)
     else:
@@ -578,7 +604,6 @@ def run_routes(project, lines=None, *, workers: int | None = None, scheduler: st
     folders = _unique_folders(names)
     total = len(routes)
     shown = progress or (lambda done, total: None)
-
     if sink is None:
         places = [(None, None)] * total
     else:
@@ -595,33 +620,38 @@ def run_routes(project, lines=None, *, workers: int | None = None, scheduler: st
         for i, (name, frame) in enumerate(routes):
             outcomes.append(run_route(project, name, frame, figures, layers, *places[i]))
             arrived(i, outcomes[-1], i + 1)
-    else:
-        outcomes = _on_dask(project, routes, places, workers, scheduler, figures, layers, arrived)
-    return RoutesResult(project, outcomes, folders)
-
-
-def _on_dask(project, routes, places, workers, scheduler, figures, layers,
-             arrived) -> list[Outcome]:
-    from distributed import as_completed
-
+        result = RoutesResult(project, outcomes, folders)
+        if sink is not None:
+            result.write_into(Path(sink), parquet)
+        return result
     client, cluster = _cluster(workers, scheduler, len(routes))
     try:
-        shared = client.scatter(project, broadcast=True)
-        futures = [client.submit(run_route, shared, name, frame, figures, layers, *places[i],
-                                 pure=False, key=f"gisgrade-route-{i}")
-                   for i, (name, frame) in enumerate(routes)]
-        index = {f.key: i for i, f in enumerate(futures)}
-        outcomes = [None] * len(futures)
-        for done, fut in enumerate(as_completed(futures), start=1):
-            i = index[fut.key]
-            try:
-                outcomes[i] = fut.result()
-            except Exception as exc:  # the worker itself died (memory, a killed process)
-                reason = f"failed: the worker was lost ({first_line(exc)})"
-                outcomes[i] = Outcome(routes[i][0], [_failed(routes[i][0], reason)], error=reason)
-            arrived(i, outcomes[i], done)
-        return outcomes
+        outcomes = _on_dask(client, project, routes, places, figures, layers, arrived)
+        result = RoutesResult(project, outcomes, folders)
+        if sink is not None:
+            result.write_into(Path(sink), parquet, client=client)
+        return result
     finally:
         client.close()
         if cluster is not None:
             cluster.close()
+
+
+def _on_dask(client, project, routes, places, figures, layers, arrived) -> list[Outcome]:
+    from distributed import as_completed
+
+    shared = client.scatter(project, broadcast=True)
+    futures = [client.submit(run_route, shared, name, frame, figures, layers, *places[i],
+                             pure=False, key=f"gisgrade-route-{i}")
+               for i, (name, frame) in enumerate(routes)]
+    index = {f.key: i for i, f in enumerate(futures)}
+    outcomes = [None] * len(futures)
+    for done, fut in enumerate(as_completed(futures), start=1):
+        i = index[fut.key]
+        try:
+            outcomes[i] = fut.result()
+        except Exception as exc:  # the worker itself died (memory, a killed process)
+            reason = f"failed: the worker was lost ({first_line(exc)})"
+            outcomes[i] = Outcome(routes[i][0], [_failed(routes[i][0], reason)], error=reason)
+        arrived(i, outcomes[i], done)
+    return outcomes
