@@ -266,13 +266,30 @@ def merge_parts(parts: list) -> tuple:
         table = pa.concat_tables(tables, promote_options="permissive")
     except (pa.ArrowInvalid, pa.ArrowTypeError, pa.ArrowNotImplementedError):
         names = list(dict.fromkeys(n for t in tables for n in t.schema.names))
-        types = {n: {t.schema.field(n).type for t in tables if n in t.schema.names
-                     and not pa.types.is_null(t.schema.field(n).type)} for n in names}
-        tables = [t.cast(pa.schema([pa.field(n, pa.string()) if len(types[n]) > 1
-                                    and n != "geometry" else t.schema.field(n)
-                                    for n in t.schema.names])) for t in tables]
+        target = {n: _widened([t.schema.field(n).type for t in tables if n in t.schema.names])
+                  for n in names}
+        tables = [t.cast(pa.schema([pa.field(n, target[n]) for n in t.schema.names]))
+                  for t in tables]
         table = pa.concat_tables(tables, promote_options="permissive")
     return table, crs, {k for p in parts for k in p.kinds}
+
+
+def _widened(types: list):
+    """The one Arrow type of a field that has ``types`` in the routes' parts:
+    widened as ``pandas.concat`` would (integers and floats as floats, no
+    value as any type), else text.
+
+    >>> import pyarrow as pa
+    >>> _widened([pa.int64(), pa.null(), pa.float64()]), _widened([pa.float64(), pa.string()])
+    (DataType(double), DataType(string))
+    """
+    import pyarrow as pa
+
+    try:
+        return pa.unify_schemas([pa.schema([pa.field("f", t)]) for t in types],
+                                promote_options="permissive").field("f").type
+    except (pa.ArrowInvalid, pa.ArrowTypeError, pa.ArrowNotImplementedError):
+        return pa.string()
 
 
 def _for_gdal(table, kinds):
@@ -489,9 +506,12 @@ class RoutesResult:
         not written again). ``client``: a Dask client whose workers see
         ``tmp``: ``routes.gpkg`` (and the GeoParquet layers) are then written
         by a worker while this process writes the table and draws the figure."""
+        import time
+
         from .display import display_of
         from .output.csv import write_csv
 
+        t0 = time.perf_counter()
         layers = self._parts()
         on_disk = all(p.path is not None for parts in layers.values() for p in parts)
         jobs = []
@@ -512,8 +532,11 @@ class RoutesResult:
         self._write_figure(tmp / "routes.png")
         for o, folder in zip(self.outcomes, self.folders):
             _put(o, tmp / folder)
+        log.debug("routes: routes.csv, routes.png %s %.2f s", "and routes.gpkg" if not jobs
+                  else "(routes.gpkg on a worker)", time.perf_counter() - t0)
         for job in jobs:
             job.result()  # an error there is raised here
+        log.debug("routes: all written %.2f s", time.perf_counter() - t0)
         self._tidy(tmp)
 
     def _tidy(self, tmp: Path) -> None:
@@ -624,17 +647,24 @@ def run_routes(project, lines=None, *, workers: int | None = None, scheduler: st
         if sink is not None:
             result.write_into(Path(sink), parquet)
         return result
+    import time
+
+    t0 = time.perf_counter()
     client, cluster = _cluster(workers, scheduler, len(routes))
+    log.debug("routes: Dask cluster %.2f s", time.perf_counter() - t0)
     try:
         outcomes = _on_dask(client, project, routes, places, figures, layers, arrived)
+        log.debug("routes: %d routes run %.2f s", total, time.perf_counter() - t0)
         result = RoutesResult(project, outcomes, folders)
         if sink is not None:
             result.write_into(Path(sink), parquet, client=client)
         return result
     finally:
+        t1 = time.perf_counter()
         client.close()
         if cluster is not None:
             cluster.close()
+        log.debug("routes: Dask cluster closed %.2f s", time.perf_counter() - t1)
 
 
 def _on_dask(client, project, routes, places, figures, layers, arrived) -> list[Outcome]:
