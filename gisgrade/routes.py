@@ -671,10 +671,15 @@ def _on_dask(client, project, routes, places, figures, layers, arrived) -> list[
     from distributed import as_completed
 
     shared = client.scatter(project, broadcast=True)
-    futures = [client.submit(run_route, shared, name, frame, figures, layers, *places[i],
-                             pure=False, key=f"gisgrade-route-{i}")
-               for i, (name, frame) in enumerate(routes)]
-    index = {f.key: i for i, f in enumerate(futures)}
+    # the longest routes first (submitted and ranked so), so that no worker is left
+    # with a long one at the end
+    longest = np.argsort([-float(frame.geometry.length.sum()) for _, frame in routes],
+                         kind="stable")
+    futures = [client.submit(run_route, shared, routes[i][0], routes[i][1], figures, layers,
+                             *places[i], pure=False, key=f"gisgrade-route-{i}",
+                             priority=len(routes) - rank)
+               for rank, i in enumerate(longest)]
+    index = {f.key: int(i) for f, i in zip(futures, longest)}
     outcomes = [None] * len(futures)
     for done, fut in enumerate(as_completed(futures), start=1):
         i = index[fut.key]
