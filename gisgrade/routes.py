@@ -10,9 +10,12 @@ address. A worker reads only the DEM windows its route needs (the terrain
 stage reads by window); no raster is shipped. A route that fails becomes a
 row whose ``status`` is its one-line reason; the others go on.
 
-Results come back to this process (tables, layers and each route's own
-output files as bytes) and are written once, at the end, into one folder
-swapped in whole (:func:`gisgrade.output.atomic.atomic_folder`).
+Everything is written once, into one folder swapped in whole at the end
+(:func:`gisgrade.output.atomic.atomic_folder`). A worker that sees that
+folder writes its route's own outputs there and leaves the route's layers
+as Arrow files beside them, which one worker merges into ``routes.gpkg`` at
+the end while this process draws the figure; elsewhere they come back to
+this process (files as bytes, layers as Arrow tables), which writes them.
 """
 from __future__ import annotations
 
@@ -221,6 +224,11 @@ def _read_tree(folder: Path) -> dict:
             for p in sorted(folder.rglob("*")) if p.is_file()}
 
 
+#: Shapely's geometry type ids -> names (``GeoSeries.geom_type``).
+GEOM_TYPES = ("Point", "LineString", "LinearRing", "Polygon", "MultiPoint", "MultiLineString",
+              "MultiPolygon", "GeometryCollection")
+
+
 def arrow_layer(gdf) -> tuple:
     """``(table, kinds)``: a layer's GeoDataFrame as the Arrow table that
     ``pyogrio.write_dataframe(..., use_arrow=True)`` builds to write it
@@ -231,22 +239,26 @@ def arrow_layer(gdf) -> tuple:
     every route would; it makes what is left null text, as pyogrio does."""
     import pandas as pd
     import pyarrow as pa
+    import shapely
     from geopandas.array import to_wkb
 
-    kinds = tuple(sorted(set(gdf.geom_type.dropna())))
-    df = pd.DataFrame(gdf, copy=False)
-    df = df[["route", *[c for c in df.columns if c != "route"]]].copy()
-    df["geometry"] = to_wkb(gdf.geometry.values)
-    for name, dtype in df.dtypes.items():
-        if name == "geometry" or dtype != "object":
+    geoms = gdf.geometry.values
+    ids = np.unique(shapely.get_type_id(np.asarray(geoms)))
+    kinds = tuple(sorted(GEOM_TYPES[i] for i in ids if i >= 0))
+    arrays = {}
+    for name in ["route", *[c for c in gdf.columns if c != "route"]]:
+        if name == "geometry":  # each column as pyarrow's from_pandas converts it (much faster)
+            arrays[name] = pa.array(to_wkb(geoms), from_pandas=True)
             continue
-        if pd.api.types.infer_dtype(df[name]) == "string":
-            continue
-        try:
-            pa.Schema.from_pandas(df[[name]])
-        except pa.ArrowInvalid:
-            df[name] = df[name].astype("string")
-    return pa.Table.from_pandas(df, preserve_index=False), kinds
+        column = gdf[name]
+        if column.dtype == "object" and pd.api.types.infer_dtype(column) != "string":
+            try:
+                arrays[name] = pa.array(column, from_pandas=True)
+                continue
+            except pa.ArrowInvalid:
+                column = column.astype("string")
+        arrays[name] = pa.array(column, from_pandas=True)
+    return pa.table(arrays), kinds
 
 
 def merge_parts(parts: list) -> tuple:

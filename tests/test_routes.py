@@ -166,19 +166,20 @@ def test_merged_layers_as_one_frame_of_every_route_would_be_written(tmp_path):
                          geometry=[MultiLineString([[(0, 0), (1, 0)], [(2, 0), (3, 0)]])],
                          crs="EPSG:32633")
     c = a.iloc[:0].copy()  # a route without features of this layer
+    d = a.assign(route="d").to_crs("EPSG:4326")  # a route in another CRS: taken to the first's
     parts = []
-    for g in (a, c, b):
+    for g in (a, c, b, d):
         table, kinds = arrow_layer(g)
         parts.append(LayerPart(kinds, g.crs, table))
     write_layers({"route": parts}, tmp_path / "mine.gpkg")
-    whole = pd.concat([a, c, b], ignore_index=True)
+    whole = pd.concat([g.to_crs(a.crs) for g in (a, c, b, d)], ignore_index=True)
     whole = whole[["route", *[k for k in whole.columns if k != "route"]]]
     whole.to_file(tmp_path / "ref.gpkg", layer="route", driver="GPKG", engine="pyogrio",
                   use_arrow=True, geometry_type="LineString")
     mine = pyogrio.read_dataframe(tmp_path / "mine.gpkg", layer="route")
     ref = pyogrio.read_dataframe(tmp_path / "ref.gpkg", layer="route")
     pd.testing.assert_frame_equal(mine.drop(columns="geometry"), ref.drop(columns="geometry"))
-    assert list(mine.geom_type) == list(ref.geom_type) == ["MultiLineString"] * 3
+    assert list(mine.geom_type) == list(ref.geom_type) == ["MultiLineString"] * 5
     assert mine.geometry.geom_equals_exact(ref.geometry, tolerance=0).all()
     info = pyogrio.read_info(tmp_path / "mine.gpkg", layer="route")
     assert list(info["dtypes"]) == list(pyogrio.read_info(tmp_path / "ref.gpkg",
