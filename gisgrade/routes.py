@@ -10,9 +10,12 @@ address. A worker reads only the DEM windows its route needs (the terrain
 stage reads by window); no raster is shipped. A route that fails becomes a
 row whose ``status`` is its one-line reason; the others go on.
 
-Results come back to this process (tables, layers and each route's own
-output files as bytes) and are written once, at the end, into one folder
-swapped in whole (:func:`gisgrade.output.atomic.atomic_folder`).
+Everything is written once, into one folder swapped in whole at the end
+(:func:`gisgrade.output.atomic.atomic_folder`). A worker that sees that
+folder writes its route's own outputs there and leaves the route's layers
+as Arrow files beside them, which one worker merges into ``routes.gpkg`` at
+the end while this process draws the figure; elsewhere they come back to
+this process (files as bytes, layers as Arrow tables), which writes them.
 """
 from __future__ import annotations
 
@@ -38,6 +41,10 @@ COLUMNS = ("route", "folder", "scenario", "status", "length_m", "trench_volume_m
 
 #: Points kept per route for the comparison figure (a 20 km line at 0.5 m has 40 000).
 PLOT_POINTS = 1500
+
+#: The folder, inside the one being built, where workers leave each route's
+#: layers as Arrow files until ``routes.gpkg`` is written (removed before the end).
+PARTS = ".layers"
 
 
 # --------------------------------------------------------------------------
@@ -132,11 +139,32 @@ class Outcome:
     name: str
     rows: list  #: routes.csv rows (dicts)
     error: str | None = None
-    layers: dict = field(default_factory=dict)  #: layer name -> GeoDataFrame (output CRS)
-    files: dict = field(default_factory=dict)  #: relative path -> bytes of the route's outputs
+    layers: dict = field(default_factory=dict)  #: layer name -> :class:`LayerPart`
+    files: dict = field(default_factory=dict)  #: relative path -> bytes, or None once written
     plan: object = None  #: (n, 2) array of the route in the output CRS
     profile: dict | None = None  #: station, ground, hgl arrays (thinned) for the figure
     seconds: float = 0.0
+
+
+@dataclass
+class LayerPart:
+    """One route's features of one layer, as the Arrow table the GeoPackage
+    writer takes (:func:`arrow_layer`): in memory (``table``) or in an Arrow
+    IPC file the worker wrote into the folder being built (``path``)."""
+
+    kinds: tuple  #: the geometry types present (e.g. ``("LineString",)``)
+    crs: object  #: pyproj CRS of the geometries
+    table: object = None  #: pyarrow Table, or None when it is at ``path``
+    path: str | None = None
+
+    def read(self):
+        """The table (memory-mapped from ``path``: no copy)."""
+        import pyarrow as pa
+
+        if self.table is not None:
+            return self.table
+        with pa.memory_map(self.path) as source:
+            return pa.ipc.open_file(source).read_all()
 
 
 def route_rows(name: str, result) -> list[dict]:
@@ -196,30 +224,187 @@ def _read_tree(folder: Path) -> dict:
             for p in sorted(folder.rglob("*")) if p.is_file()}
 
 
+#: Shapely's geometry type ids -> names (``GeoSeries.geom_type``).
+GEOM_TYPES = ("Point", "LineString", "LinearRing", "Polygon", "MultiPoint", "MultiLineString",
+              "MultiPolygon", "GeometryCollection")
+
+
+def arrow_layer(gdf) -> tuple:
+    """``(table, kinds)``: a layer's GeoDataFrame as the Arrow table that
+    ``pyogrio.write_dataframe(..., use_arrow=True)`` builds to write it
+    (geometry as WKB; object columns of mixed values as text, as it does),
+    with ``route`` first, and the geometry types present. Columns that hold
+    no value stay of Arrow's null type here, so that :func:`merge_parts`
+    gives each the type of the routes that have values, as one frame of
+    every route would; it makes what is left null text, as pyogrio does."""
+    import pandas as pd
+    import pyarrow as pa
+    import shapely
+    from geopandas.array import to_wkb
+
+    geoms = gdf.geometry.values
+    ids = np.unique(shapely.get_type_id(np.asarray(geoms)))
+    kinds = tuple(sorted(GEOM_TYPES[i] for i in ids if i >= 0))
+    arrays = {}
+    for name in ["route", *[c for c in gdf.columns if c != "route"]]:
+        if name == "geometry":  # each column as pyarrow's from_pandas converts it (much faster)
+            arrays[name] = pa.array(to_wkb(geoms), from_pandas=True)
+            continue
+        column = gdf[name]
+        if column.dtype == "object" and pd.api.types.infer_dtype(column) != "string":
+            try:
+                arrays[name] = pa.array(column, from_pandas=True)
+                continue
+            except pa.ArrowInvalid:
+                column = column.astype("string")
+        arrays[name] = pa.array(column, from_pandas=True)
+    return pa.table(arrays), kinds
+
+
+def merge_parts(parts: list) -> tuple:
+    """``(table, crs, kinds)``: the :class:`LayerPart` of every route of one
+    layer as one table in the first part's CRS, in the routes' order, and
+    the geometry types present: what one frame of every route
+    (``pandas.concat``) holds. A field's types across routes are widened as
+    ``concat`` would (a field without values takes the others' type,
+    integers and floats become floats); types that do not widen become
+    text, as pyogrio writes a column of mixed values (:func:`_for_gdal`
+    then makes the table what pyogrio hands GDAL)."""
+    import pyarrow as pa
+
+    crs = parts[0].crs
+    tables = [_in_crs(p.read(), p.crs, crs) for p in parts]
+    try:
+        table = pa.concat_tables(tables, promote_options="permissive")
+    except (pa.ArrowInvalid, pa.ArrowTypeError, pa.ArrowNotImplementedError):
+        names = list(dict.fromkeys(n for t in tables for n in t.schema.names))
+        target = {n: _widened([t.schema.field(n).type for t in tables if n in t.schema.names])
+                  for n in names}
+        tables = [t.cast(pa.schema([pa.field(n, target[n]) for n in t.schema.names]))
+                  for t in tables]
+        table = pa.concat_tables(tables, promote_options="permissive")
+    return table, crs, {k for p in parts for k in p.kinds}
+
+
+def _widened(types: list):
+    """The one Arrow type of a field that has ``types`` in the routes' parts:
+    widened as ``pandas.concat`` would (integers and floats as floats, no
+    value as any type), else text.
+
+    >>> import pyarrow as pa
+    >>> _widened([pa.int64(), pa.null(), pa.float64()]), _widened([pa.float64(), pa.string()])
+    (DataType(double), DataType(string))
+    """
+    import pyarrow as pa
+
+    try:
+        return pa.unify_schemas([pa.schema([pa.field("f", t)]) for t in types],
+                                promote_options="permissive").field("f").type
+    except (pa.ArrowInvalid, pa.ArrowTypeError, pa.ArrowNotImplementedError):
+        return pa.string()
+
+
+def _for_gdal(table, kinds):
+    """A merged layer as pyogrio hands it to GDAL: a field without a value
+    anywhere as text (GDAL takes no null type), the geometry as binary, and
+    single and multi geometries of one kind in one layer all as multi (what
+    pyogrio does for a GeoPackage)."""
+    import pyarrow as pa
+
+    for i, f in enumerate(table.schema):
+        if pa.types.is_null(f.type):
+            table = table.set_column(i, pa.field(f.name, pa.string()), table[i].cast(pa.string()))
+    if not (pa.types.is_binary(table.schema.field("geometry").type)
+            or pa.types.is_large_binary(table.schema.field("geometry").type)):
+        i = table.schema.get_field_index("geometry")
+        table = table.set_column(i, pa.field("geometry", pa.binary()), table[i].cast(pa.binary()))
+    single = {k for k in kinds if not k.startswith("Multi")}
+    if len(kinds) == 2 and len(single) == 1 and f"Multi{next(iter(single))}" in kinds:
+        table = _to_multi(table, next(iter(single)))
+    return table
+
+
+def _in_crs(table, crs, target):
+    """``table``'s geometries reprojected from ``crs`` to ``target`` (the same table when equal)."""
+    if crs == target:
+        return table
+    import geopandas as gpd
+    import pyarrow as pa
+
+    g = gpd.GeoSeries.from_wkb(table.column("geometry").to_numpy(zero_copy_only=False), crs=crs)
+    i = table.schema.get_field_index("geometry")
+    return table.set_column(i, "geometry", pa.array(g.to_crs(target).to_wkb(), pa.binary()))
+
+
+def _to_multi(table, single: str):
+    """The ``single`` geometries of ``table`` as their multi kind (as pyogrio writes them)."""
+    import pyarrow as pa
+    import shapely
+
+    geoms = shapely.from_wkb(table.column("geometry").to_numpy(zero_copy_only=False))
+    make = {"Point": shapely.multipoints, "LineString": shapely.multilinestrings,
+            "Polygon": shapely.multipolygons}[single]
+    mask = shapely.get_type_id(geoms) == {"Point": 0, "LineString": 1, "Polygon": 3}[single]
+    geoms[mask] = make(np.atleast_2d(geoms[mask]), axis=0)
+    i = table.schema.get_field_index("geometry")
+    return table.set_column(i, "geometry", pa.array(shapely.to_wkb(geoms), pa.binary()))
+
+
+def _write_parts(layers: dict, folder: Path) -> dict:
+    """Each layer's part as an Arrow IPC file in ``folder``; the parts now name their files."""
+    import pyarrow as pa
+
+    folder.mkdir(parents=True, exist_ok=True)
+    for name, part in layers.items():
+        path = folder / f"{name}.arrow"
+        with pa.OSFile(str(path), "wb") as sink, pa.ipc.new_file(sink, part.table.schema) as w:
+            w.write_table(part.table)
+        part.table, part.path = None, str(path)
+    return layers
+
+
 def run_route(project, name: str, frame, figures: bool = False,
-              layers: bool = False) -> Outcome:
-    """The whole job on one route: compute, its layers, its own output files
-    (as bytes; its figures with ``figures``, its own layer files with
-    ``layers``: every route's layers are in ``routes.gpkg`` anyway). A bad input or a failure of the route is caught and becomes
-    the ``status`` of its row; nothing here raises."""
+              layers: bool = False, dest=None, parts=None) -> Outcome:
+    """The whole job on one route: compute, its layers (:class:`LayerPart`),
+    its own output files (its figures with ``figures``, its own layer files
+    with ``layers``: every route's layers are in ``routes.gpkg`` anyway).
+
+    ``dest``: the route's folder in the folder being built; where this
+    process sees that folder's parent (the same machine, or a shared file
+    system), the route's files are written there (atomically, as ``gisgrade
+    run`` writes them) and its layers as Arrow files into ``parts``, and
+    neither travels back. Elsewhere the files come back as bytes and the
+    layers as tables. A bad input or a failure of the route is caught and
+    becomes the ``status`` of its row; nothing here raises."""
     import time
 
     from .display import display_of
     from .output.layers import geodataframes
-    from .pipeline import compute
 
     t0 = time.perf_counter()
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
+            from .pipeline import compute
+
             result = compute(project, frame=frame)
             display = display_of(project)
-            frames = {n: g.assign(route=name) for n, g in geodataframes(result, display).items()}
-            with tempfile.TemporaryDirectory(prefix="gisgrade-route-") as tmp:
-                out = Path(tmp) / "out"
-                result.write(out, figures=figures, layers=layers)
-                files = _read_tree(out)
+            pieces = {}
+            for n, g in geodataframes(result, display).items():
+                table, kinds = arrow_layer(g.assign(route=name))
+                pieces[n] = LayerPart(kinds, g.crs, table)
             plan, prof = _figure_data(result)
+            here = dest is not None and Path(dest).parent.is_dir()
+            if here:
+                result.write(dest, figures=figures, layers=layers)
+                files = dict.fromkeys(sorted(str(p.relative_to(dest))
+                                             for p in Path(dest).rglob("*") if p.is_file()))
+                _write_parts(pieces, Path(parts))
+            else:
+                with tempfile.TemporaryDirectory(prefix="gisgrade-route-") as tmp:
+                    out = Path(tmp) / "out"
+                    result.write(out, figures=figures, layers=layers)
+                    files = _read_tree(out)
     except InputError as exc:
         return Outcome(name, [_failed(name, str(exc))], error=str(exc),
                        seconds=time.perf_counter() - t0)
@@ -227,7 +412,7 @@ def run_route(project, name: str, frame, figures: bool = False,
         reason = f"failed: {type(exc).__name__}: {first_line(exc)}"
         return Outcome(name, [_failed(name, reason)], error=reason,
                        seconds=time.perf_counter() - t0)
-    return Outcome(name, route_rows(name, result), None, frames, files, plan, prof,
+    return Outcome(name, route_rows(name, result), None, pieces, files, plan, prof,
                    time.perf_counter() - t0)
 
 
@@ -238,6 +423,44 @@ def _failed(name: str, reason: str) -> dict:
 # --------------------------------------------------------------------------
 # All routes
 # --------------------------------------------------------------------------
+
+
+def write_layers(layers: dict, path) -> None:
+    """``routes.gpkg``: each layer's parts (:meth:`RoutesResult._parts`) merged
+    (:func:`merge_parts`) and written as pyogrio's ``write_dataframe`` of one
+    frame of every route would write them, one layer at a time."""
+    from pyogrio.raw import write_arrow
+
+    from .cautions import CAUTIONS
+    from .output.layers import GEOMETRY
+
+    for i, (name, parts) in enumerate(layers.items()):
+        table, crs, kinds = merge_parts(parts)
+        epsg = crs.to_epsg() if crs is not None else None  # as pyogrio names a CRS
+        write_arrow(_for_gdal(table, kinds), str(path), layer=name, driver="GPKG",
+                    geometry_name="geometry", geometry_type=GEOMETRY[name], append=i > 0,
+                    crs=None if crs is None else f"EPSG:{epsg}" if epsg
+                    else crs.to_wkt("WKT1_GDAL"),
+                    layer_metadata={"DESCRIPTION": f"gisgrade {name}, every route. "
+                                                  f"CAUTION: {CAUTIONS}"})
+
+
+def write_geoparquet(layers: dict, folder) -> None:
+    """``parquet/<layer>.parquet``: each layer's parts merged, as GeoParquet."""
+    folder = Path(folder)
+    folder.mkdir()
+    for name, parts in layers.items():
+        table, crs, _ = merge_parts(parts)
+        _geoframe(table, crs).to_parquet(folder / f"{name}.parquet", index=False)
+
+
+def _geoframe(table, crs):
+    """A merged layer's table as a GeoDataFrame (for GeoParquet)."""
+    import geopandas as gpd
+
+    df = table.to_pandas()
+    df["geometry"] = gpd.GeoSeries.from_wkb(df["geometry"], crs=crs).values
+    return gpd.GeoDataFrame(df, geometry="geometry", crs=crs)
 
 
 def _put(outcome: Outcome, folder: Path) -> None:
@@ -289,56 +512,68 @@ class RoutesResult:
         out = Path(outdir)
         return sorted(p for p in out.rglob("*") if p.is_file())
 
-    def write_into(self, tmp: Path, parquet: bool = False) -> None:
+    def write_into(self, tmp: Path, parquet: bool = False, client=None) -> None:
         """:meth:`write` into the folder ``tmp`` being built (a route's files
-        already written there as it finished, see ``run_routes(sink=...)``, are not
-        written again)."""
+        already written there by its worker, see ``run_routes(sink=...)``, are
+        not written again). ``client``: a Dask client whose workers see
+        ``tmp``: ``routes.gpkg`` (and the GeoParquet layers) are then written
+        by a worker while this process writes the table and draws the figure."""
+        import time
+
         from .display import display_of
         from .output.csv import write_csv
 
-        write_csv(display_of(self.project).dual(self.table), tmp / "routes.csv")
-        merged = self._merged_layers()
-        self._write_layers(merged, tmp / "routes.gpkg")
+        t0 = time.perf_counter()
+        layers = self._parts()
+        on_disk = all(p.path is not None for parts in layers.values() for p in parts)
+        jobs = []
+        if client is not None and on_disk and layers:
+            jobs.append(client.submit(write_layers, layers, str(tmp / "routes.gpkg"),
+                                      pure=False, key="gisgrade-routes-gpkg"))
+            if parquet:
+                jobs.append(client.submit(write_geoparquet, layers, str(tmp / "parquet"),
+                                          pure=False, key="gisgrade-routes-parquet"))
+        else:
+            write_layers(layers, tmp / "routes.gpkg")
+            if parquet:
+                write_geoparquet(layers, tmp / "parquet")
+        table = self.table
+        write_csv(display_of(self.project).dual(table), tmp / "routes.csv")
         if parquet:
-            self.table.to_parquet(tmp / "routes.parquet", index=False)
-            (tmp / "parquet").mkdir()
-            for name, gdf in merged.items():
-                gdf.to_parquet(tmp / "parquet" / f"{name}.parquet", index=False)
+            table.to_parquet(tmp / "routes.parquet", index=False)
         self._write_figure(tmp / "routes.png")
         for o, folder in zip(self.outcomes, self.folders):
             _put(o, tmp / folder)
+        log.debug("routes: routes.csv, routes.png %s %.2f s", "and routes.gpkg" if not jobs
+                  else "(routes.gpkg on a worker)", time.perf_counter() - t0)
+        for job in jobs:
+            job.result()  # an error there is raised here
+        log.debug("routes: all written %.2f s", time.perf_counter() - t0)
+        self._tidy(tmp)
 
+    def _tidy(self, tmp: Path) -> None:
+        """Remove what is not part of the result: the layers' Arrow parts, the
+        folder of a route that failed after its worker wrote into it, and a
+        half-written route folder a lost worker left."""
+        import shutil
 
-    def _merged_layers(self) -> dict:
-        """Each layer name -> one GeoDataFrame of every route's features
-        (``route`` first), in the first route's output CRS."""
-        import geopandas as gpd
-        import pandas as pd
+        shutil.rmtree(tmp / PARTS, ignore_errors=True)
+        for o, folder in zip(self.outcomes, self.folders):
+            if o.error is not None and (tmp / folder).exists():
+                shutil.rmtree(tmp / folder, ignore_errors=True)
+        for left in tmp.glob(".*.gisgrade-*"):
+            shutil.rmtree(left, ignore_errors=True)
 
+    def _parts(self) -> dict:
+        """Each layer name -> the :class:`LayerPart` of every route that has it,
+        in the routes' order (layers in :data:`~gisgrade.output.layers.GEOMETRY` order)."""
         from .output.layers import GEOMETRY
 
         by_layer: dict[str, list] = {}
         for o in self.outcomes:
-            for name, gdf in o.layers.items():
-                by_layer.setdefault(name, []).append(gdf)
-        out = {}
-        for name in [n for n in GEOMETRY if n in by_layer]:
-            parts = by_layer[name]
-            crs = parts[0].crs
-            gdf = gpd.GeoDataFrame(pd.concat([p.to_crs(crs) for p in parts], ignore_index=True),
-                                   geometry="geometry", crs=crs)
-            out[name] = gdf[["route", *[c for c in gdf.columns if c != "route"]]]
-        return out
-
-    def _write_layers(self, merged: dict, path: Path) -> None:
-        from .cautions import CAUTIONS
-        from .output.layers import GEOMETRY
-
-        for i, (name, gdf) in enumerate(merged.items()):
-            gdf.to_file(path, layer=name, driver="GPKG", engine="pyogrio", use_arrow=True,
-                        mode="w" if i == 0 else "a", geometry_type=GEOMETRY[name],
-                        layer_metadata={"DESCRIPTION": f"gisgrade {name}, every route. "
-                                                       f"CAUTION: {CAUTIONS}"})
+            for name, part in o.layers.items():
+                by_layer.setdefault(name, []).append(part)
+        return {name: by_layer[name] for name in GEOMETRY if name in by_layer}
 
     def _write_figure(self, path: Path) -> None:
         from .display import display_of
@@ -372,11 +607,15 @@ def _cluster(workers: int | None, scheduler: str | None, n_routes: int):
 
 def run_routes(project, lines=None, *, workers: int | None = None, scheduler: str | None = None,
                figures: bool = False, layers: bool = False, progress=None,
-               sink=None) -> RoutesResult:
+               sink=None, parquet: bool = False) -> RoutesResult:
     """The whole job on every route; writes nothing (see :meth:`RoutesResult.write`),
-    unless ``sink`` is given: a folder being built (``atomic_folder``) that
-    takes each route's own files as the route finishes, so their bytes are
-    not all held until the end (:meth:`RoutesResult.write_into` then adds the rest).
+    unless ``sink`` is given: a folder being built (``atomic_folder``) into
+    which everything is written (:meth:`RoutesResult.write_into`, with
+    ``parquet``). Each route's worker writes the route's own files and its
+    layers (as Arrow files, see :func:`run_route`) there itself, so neither
+    travels back nor is held here; ``routes.gpkg`` is then written by a
+    worker while this process draws the figure. A worker that does not see
+    ``sink`` sends them back, and they are written here.
 
     ``project``: a path or a loaded :class:`~gisgrade.project.Project`.
     ``lines``: a GeoDataFrame with a ``route`` column (one or more features a
@@ -389,9 +628,9 @@ def run_routes(project, lines=None, *, workers: int | None = None, scheduler: st
     route's layers).
     ``progress(done, total)`` is called as routes finish.
     """
-    from .pipeline import _project
+    from .project import Project, load
 
-    project = _project(project)
+    project = project if isinstance(project, Project) else load(project)
     if lines is None:
         routes = read_routes(project)
     else:
@@ -400,6 +639,10 @@ def run_routes(project, lines=None, *, workers: int | None = None, scheduler: st
     folders = _unique_folders(names)
     total = len(routes)
     shown = progress or (lambda done, total: None)
+    if sink is None:
+        places = [(None, None)] * total
+    else:
+        places = [(str(Path(sink) / f), str(Path(sink) / PARTS / f)) for f in folders]
 
     def arrived(i, outcome, done):
         if sink is not None:
@@ -410,34 +653,52 @@ def run_routes(project, lines=None, *, workers: int | None = None, scheduler: st
     if workers == 0 and not scheduler:
         outcomes = []
         for i, (name, frame) in enumerate(routes):
-            outcomes.append(run_route(project, name, frame, figures, layers))
+            outcomes.append(run_route(project, name, frame, figures, layers, *places[i]))
             arrived(i, outcomes[-1], i + 1)
-    else:
-        outcomes = _on_dask(project, routes, workers, scheduler, figures, layers, arrived)
-    return RoutesResult(project, outcomes, folders)
+        result = RoutesResult(project, outcomes, folders)
+        if sink is not None:
+            result.write_into(Path(sink), parquet)
+        return result
+    import time
 
-
-def _on_dask(project, routes, workers, scheduler, figures, layers, arrived) -> list[Outcome]:
-    from distributed import as_completed
-
+    t0 = time.perf_counter()
     client, cluster = _cluster(workers, scheduler, len(routes))
+    log.debug("routes: Dask cluster %.2f s", time.perf_counter() - t0)
     try:
-        shared = client.scatter(project, broadcast=True)
-        futures = [client.submit(run_route, shared, name, frame, figures, layers, pure=False,
-                                 key=f"gisgrade-route-{i}")
-                   for i, (name, frame) in enumerate(routes)]
-        index = {f.key: i for i, f in enumerate(futures)}
-        outcomes = [None] * len(futures)
-        for done, fut in enumerate(as_completed(futures), start=1):
-            i = index[fut.key]
-            try:
-                outcomes[i] = fut.result()
-            except Exception as exc:  # the worker itself died (memory, a killed process)
-                reason = f"failed: the worker was lost ({first_line(exc)})"
-                outcomes[i] = Outcome(routes[i][0], [_failed(routes[i][0], reason)], error=reason)
-            arrived(i, outcomes[i], done)
-        return outcomes
+        outcomes = _on_dask(client, project, routes, places, figures, layers, arrived)
+        log.debug("routes: %d routes run %.2f s", total, time.perf_counter() - t0)
+        result = RoutesResult(project, outcomes, folders)
+        if sink is not None:
+            result.write_into(Path(sink), parquet, client=client)
+        return result
     finally:
+        t1 = time.perf_counter()
         client.close()
         if cluster is not None:
             cluster.close()
+        log.debug("routes: Dask cluster closed %.2f s", time.perf_counter() - t1)
+
+
+def _on_dask(client, project, routes, places, figures, layers, arrived) -> list[Outcome]:
+    from distributed import as_completed
+
+    shared = client.scatter(project, broadcast=True)
+    # the longest routes first (submitted and ranked so), so that no worker is left
+    # with a long one at the end
+    longest = np.argsort([-float(frame.geometry.length.sum()) for _, frame in routes],
+                         kind="stable")
+    futures = [client.submit(run_route, shared, routes[i][0], routes[i][1], figures, layers,
+                             *places[i], pure=False, key=f"gisgrade-route-{i}",
+                             priority=len(routes) - rank)
+               for rank, i in enumerate(longest)]
+    index = {f.key: int(i) for f, i in zip(futures, longest)}
+    outcomes = [None] * len(futures)
+    for done, fut in enumerate(as_completed(futures), start=1):
+        i = index[fut.key]
+        try:
+            outcomes[i] = fut.result()
+        except Exception as exc:  # the worker itself died (memory, a killed process)
+            reason = f"failed: the worker was lost ({first_line(exc)})"
+            outcomes[i] = Outcome(routes[i][0], [_failed(routes[i][0], reason)], error=reason)
+        arrived(i, outcomes[i], done)
+    return outcomes

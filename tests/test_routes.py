@@ -103,6 +103,22 @@ def test_each_route_equals_running_it_alone(routes_run, tmp_path, name):
         assert r.max_pressure_kpa == pytest.approx(by[r.scenario]["pressure_max_kpa"], abs=5e-7)
     assert row["bends"].iloc[0] == summary["bends"]
     assert row["air_valves"].iloc[0] == sum(v for k, v in summary["valves"].items() if k != "drain")
+    # the route's features in routes.gpkg (merged from the workers' Arrow parts) are those of
+    # its own layers.gpkg, read back by pyogrio (an outside reader)
+    import pyogrio
+
+    for layer, _ in pyogrio.list_layers(alone / "o" / "layers.gpkg"):
+        own = pyogrio.read_dataframe(alone / "o" / "layers.gpkg", layer=layer)
+        every = pyogrio.read_dataframe(out / "routes.gpkg", layer=layer)
+        assert list(every.columns) == ["route", *own.columns], layer
+        mine_rows = every[every["route"] == name].drop(columns="route").reset_index(drop=True)
+        if len(own) == 0:
+            assert len(mine_rows) == 0, layer
+            continue
+        differ = ["geometry", *(["name"] if layer == "route" else [])]  # the project's folder
+        pd.testing.assert_frame_equal(mine_rows.drop(columns=differ), own.drop(columns=differ),
+                                      obj=layer)
+        assert mine_rows.geometry.geom_equals_exact(own.geometry, tolerance=0).all(), layer
 
 
 def test_layers_hold_every_route(routes_run):
@@ -117,6 +133,57 @@ def test_layers_hold_every_route(routes_run):
     pipe = pyogrio.read_dataframe(out / "routes.gpkg", layer="route")
     # C's two features were merged into one route line
     assert (pipe["route"] == "C").sum() == 1
+
+
+def test_the_folder_holds_only_the_result(routes_run):
+    """The workers' Arrow parts and the folder of the failed route are gone; the
+    manifest lists every file (written last, after the workers' own files)."""
+    from gisgrade.output.atomic import verify_folder
+
+    _, out, _, _ = routes_run
+    assert sorted(p.name for p in out.iterdir() if p.name.startswith(".")) == []
+    assert not (out / "D").exists()
+    verify_folder(out)
+    assert not list(out.parent.glob(".out.gisgrade-*"))
+
+
+@pytest.mark.filterwarnings("ignore:A geometry of type MULTILINESTRING:RuntimeWarning")
+def test_merged_layers_as_one_frame_of_every_route_would_be_written(tmp_path):
+    """Parts whose field types differ (integers and floats; no value at all and
+    text; numbers and text) and single and multi lines merge into what pyogrio's
+    write_dataframe of one pandas.concat frame writes (pyogrio and pandas as
+    the reference)."""
+    import geopandas as gpd
+    import pyogrio
+    from shapely.geometry import LineString, MultiLineString
+
+    from gisgrade.routes import LayerPart, arrow_layer, write_layers
+
+    a = gpd.GeoDataFrame({"n": [1, 2], "note": [None, None], "mixed": [1.5, 2.5], "route": "a"},
+                         geometry=[LineString([(0, 0), (1, 1)]), LineString([(1, 1), (2, 0)])],
+                         crs="EPSG:32633")
+    b = gpd.GeoDataFrame({"n": [0.5], "note": ["text"], "mixed": ["x"], "route": "b"},
+                         geometry=[MultiLineString([[(0, 0), (1, 0)], [(2, 0), (3, 0)]])],
+                         crs="EPSG:32633")
+    c = a.iloc[:0].copy()  # a route without features of this layer
+    d = a.assign(route="d").to_crs("EPSG:4326")  # a route in another CRS: taken to the first's
+    parts = []
+    for g in (a, c, b, d):
+        table, kinds = arrow_layer(g)
+        parts.append(LayerPart(kinds, g.crs, table))
+    write_layers({"route": parts}, tmp_path / "mine.gpkg")
+    whole = pd.concat([g.to_crs(a.crs) for g in (a, c, b, d)], ignore_index=True)
+    whole = whole[["route", *[k for k in whole.columns if k != "route"]]]
+    whole.to_file(tmp_path / "ref.gpkg", layer="route", driver="GPKG", engine="pyogrio",
+                  use_arrow=True, geometry_type="LineString")
+    mine = pyogrio.read_dataframe(tmp_path / "mine.gpkg", layer="route")
+    ref = pyogrio.read_dataframe(tmp_path / "ref.gpkg", layer="route")
+    pd.testing.assert_frame_equal(mine.drop(columns="geometry"), ref.drop(columns="geometry"))
+    assert list(mine.geom_type) == list(ref.geom_type) == ["MultiLineString"] * 5
+    assert mine.geometry.geom_equals_exact(ref.geometry, tolerance=0).all()
+    info = pyogrio.read_info(tmp_path / "mine.gpkg", layer="route")
+    assert list(info["dtypes"]) == list(pyogrio.read_info(tmp_path / "ref.gpkg",
+                                                          layer="route")["dtypes"])
 
 
 def test_outputs_per_route_and_the_figure(routes_run):

@@ -70,12 +70,11 @@ def command(project, outdir, workers, scheduler, figures, layers, parquet, verbo
         from ..output.atomic import atomic_folder
 
         loaded = load(project)
-        # built beside OUT as routes finish (their files leave memory), swapped in at the end
+        # built beside OUT (each route's worker writes its files there), swapped in at the end
         with atomic_folder(outdir, inputs=[loaded.path, *loaded.input_paths()]) as tmp:
-            result = run_routes(loaded, workers=workers, scheduler=scheduler, figures=figures,
-                                layers=layers, progress=RoutesBar(enabled=not quiet), sink=tmp)
-            result.write_into(tmp, parquet)
-        return result
+            return run_routes(loaded, workers=workers, scheduler=scheduler, figures=figures,
+                              layers=layers, progress=RoutesBar(enabled=not quiet), sink=tmp,
+                              parquet=parquet)
 
     result, status = guarded(work)
     if status:
