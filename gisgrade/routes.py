@@ -37,7 +37,7 @@ log = logging.getLogger("gisgrade")
 #: The columns of ``routes.csv``, one row per route and scenario.
 COLUMNS = ("route", "folder", "scenario", "status", "length_m", "trench_volume_m3", "bends", "air_valves",
            "crossings", "min_pressure_kpa", "max_pressure_kpa", "pump_head_m",
-           "annual_energy_kwh", "findings")
+           "annual_energy_kwh", "findings", "below_vapour")
 
 #: Points kept per route for the comparison figure (a 20 km line at 0.5 m has 40 000).
 PLOT_POINTS = 1500
@@ -191,8 +191,19 @@ def route_rows(name: str, result) -> list[dict]:
                          max_pressure_kpa=sc["pressure_max_kpa"],
                          pump_head_m=sc.get("pump_head_m", 0.0 if e is None else e.pump_head_m),
                          annual_energy_kwh=None if e is None else e.energy_j / 3.6e6,
-                         findings=count))
+                         findings=count, below_vapour=not sc.get("achievable", True)))
     return rows or [dict(common, scenario="")]
+
+
+def route_line(rows, display) -> str:
+    """A route's rows of ``routes.csv`` (status ok) in a few words: its length,
+    its lowest pressure over every scenario and where (in words where the
+    column separates, below vapour pressure), the most findings of one scenario."""
+    worst = rows.loc[rows["min_pressure_kpa"].astype(float).idxmin()]
+    low = ("below vapour pressure (the column separates)" if bool(worst["below_vapour"])
+           else f"lowest pressure {display.text(float(worst['min_pressure_kpa']) * 1e3, 'pressure')}")
+    return (f"{display.text(float(rows['length_m'].iloc[0]), 'length', 0)}, {low} in "
+            f"{worst['scenario']}, {int(rows['findings'].max())} findings in the worst scenario")
 
 
 def _thin(n: int, keep: int = PLOT_POINTS) -> np.ndarray:
@@ -432,17 +443,18 @@ def write_layers(layers: dict, path) -> None:
     from pyogrio.raw import write_arrow
 
     from .cautions import CAUTIONS
-    from .output.layers import GEOMETRY
+    from .output.layers import GEOMETRY, unsynced_sqlite
 
-    for i, (name, parts) in enumerate(layers.items()):
-        table, crs, kinds = merge_parts(parts)
-        epsg = crs.to_epsg() if crs is not None else None  # as pyogrio names a CRS
-        write_arrow(_for_gdal(table, kinds), str(path), layer=name, driver="GPKG",
-                    geometry_name="geometry", geometry_type=GEOMETRY[name], append=i > 0,
-                    crs=None if crs is None else f"EPSG:{epsg}" if epsg
-                    else crs.to_wkt("WKT1_GDAL"),
-                    layer_metadata={"DESCRIPTION": f"gisgrade {name}, every route. "
-                                                  f"CAUTION: {CAUTIONS}"})
+    with unsynced_sqlite():  # the folder being built is swapped in whole
+        for i, (name, parts) in enumerate(layers.items()):
+            table, crs, kinds = merge_parts(parts)
+            epsg = crs.to_epsg() if crs is not None else None  # as pyogrio names a CRS
+            write_arrow(_for_gdal(table, kinds), str(path), layer=name, driver="GPKG",
+                        geometry_name="geometry", geometry_type=GEOMETRY[name], append=i > 0,
+                        crs=None if crs is None else f"EPSG:{epsg}" if epsg
+                        else crs.to_wkt("WKT1_GDAL"),
+                        layer_metadata={"DESCRIPTION": f"gisgrade {name}, every route. "
+                                                      f"CAUTION: {CAUTIONS}"})
 
 
 def write_geoparquet(layers: dict, folder) -> None:

@@ -371,3 +371,23 @@ def test_routes_csv_names_each_route_folder(routes_run):
     for r in ok.itertuples():
         assert (out / r.folder / "summary.json").exists()
     assert (t[t["route"] == "D"]["folder"] == "").all()  # a failed route has no folder
+
+
+def test_a_routes_line_gives_its_worst_scenario_in_words():
+    # rows of routes.csv for one route: the lowest pressure over every scenario
+    # is named with its scenario, and a pressure below vapour pressure (the
+    # column separates; summary.json "achievable" false) is said in words
+    import pandas as pd
+
+    from gisgrade.display import Display
+    from gisgrade.routes import route_line
+
+    rows = pd.DataFrame({"scenario": ["average day", "max day + fire"], "length_m": [5712.4] * 2,
+                         "min_pressure_kpa": [189.0, -131.8], "findings": [1, 4],
+                         "below_vapour": [False, True]})
+    line = route_line(rows, Display())
+    assert line == ("5712 m, below vapour pressure (the column separates) in max day + fire, "
+                    "4 findings in the worst scenario")
+    rows["below_vapour"] = False
+    rows.loc[1, "min_pressure_kpa"] = 120.0
+    assert "lowest pressure 120 kPa in max day + fire" in route_line(rows, Display())

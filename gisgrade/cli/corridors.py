@@ -44,6 +44,7 @@ def comparison_lines(project, table) -> list[str]:
     """One line per route of the comparison: length, the lowest pressure of
     any scenario and the most findings of one, or why it failed."""
     from ..display import display_of
+    from ..routes import route_line
 
     d, out = display_of(project), []
     for route, rows in table.groupby("route", sort=False):
@@ -51,9 +52,7 @@ def comparison_lines(project, table) -> list[str]:
         if len(bad):
             out.append(f"compared {route}: {bad.status.iloc[0]}")
             continue
-        out.append(f"compared {route}: {d.text(rows.length_m.iloc[0], 'length', 0)}, lowest "
-                   f"pressure {d.text(rows.min_pressure_kpa.min() * 1e3, 'pressure')}, "
-                   f"{int(rows.findings.max())} findings in the worst scenario")
+        out.append(f"compared {route}: {route_line(rows, d)}")
     return out
 
 

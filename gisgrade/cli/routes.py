@@ -87,6 +87,7 @@ def command(project, outdir, workers, scheduler, figures, layers, parquet, verbo
 
 def _summary(result) -> str:
     from ..display import display_of
+    from ..routes import route_line
 
     d = display_of(result.project)
     t = result.table
@@ -97,8 +98,5 @@ def _summary(result) -> str:
         if o.error is not None:
             lines.append(f"  {o.name}: {o.error}")
         else:
-            first = ok[ok["route"] == o.name].iloc[0]
-            lines.append(f"  {o.name}: {d.text(first['length_m'], 'length', 0)}, lowest "
-                         f"pressure {d.text(first['min_pressure_kpa'] * 1e3, 'pressure')} "
-                         f"({first['scenario']}), {int(first['findings'])} findings")
+            lines.append(f"  {o.name}: {route_line(ok[ok['route'] == o.name], d)}")
     return "\n".join(lines)
