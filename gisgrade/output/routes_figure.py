@@ -86,6 +86,9 @@ def draw_routes(outcomes, table, display, path, project=None) -> None:
             lines.append(f"... and {len(failed) - 6} more (routes.csv has every reason)")
         fig.text(0.06, 0.01, "\n".join(textwrap.shorten(s, 170) for s in lines), fontsize=7.5,
                  va="bottom", color="#7a2e00")
+    from ..cautions import SHORT
+
+    fig.text(0.98, 0.005, SHORT, fontsize=7, color="#555555", ha="right", va="bottom")
     fig.savefig(path, dpi=110)
 
 
