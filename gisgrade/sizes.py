@@ -167,9 +167,8 @@ def scenario_rows(result, c: Candidate) -> list[dict]:
     steps = (g.elements.groupby("scenario")["step_m"].sum() if len(g.elements)
              else pd.Series(dtype=float))
     bad = f[f["code"].isin(HYDRAULIC_CHECKS)] if f is not None else None
-    failing = set(bad["scenario"]) if bad is not None else set()
     why = ({n: ", ".join(dict.fromkeys(grp["check"])) for n, grp in bad.groupby("scenario")}
-           if bad is not None else {})
+           if bad is not None else {})  # scenario -> the checks failing it
     floor = vapour_floor(g.axis, result.project.hydraulics.temperature)
     rows = []
     for k, name in enumerate(g.names):
@@ -185,7 +184,7 @@ def scenario_rows(result, c: Candidate) -> list[dict]:
             pump_head_m=float(e.pump_head_m) if e is not None else 0.0,
             annual_energy_kwh=float(e.energy_j / KWH) if e is not None else 0.0,
             annual_cost=(np.nan if e is None or e.cost is None else float(e.cost)),
-            passes=name not in failing, fails=why.get(name, ""), inflow_m3_s=float(g.flow[k, 0]),
+            passes=name not in why, fails=why.get(name, ""), inflow_m3_s=float(g.flow[k, 0]),
             below_vapour=bool((g.pressure_low[k] < floor).any())))
     return rows
 

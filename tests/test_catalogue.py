@@ -43,13 +43,18 @@ def _args(case, folder):
     return [*case.command, str(folder / "project.toml"), "-o", out]
 
 
-@pytest.mark.parametrize("case", [c for c in CASES if c.level == "error"], ids=lambda c: c.name)
-def test_bad_input_is_refused_in_one_line(case, tmp_path, capsys):
+def _case_site(case, tmp_path):
+    """The valid site in tmp_path/site with ``case``'s change made; its digest before the command."""
     folder = tmp_path / "site"
     folder.mkdir()
     make_site(folder)
     case.setup(folder)
-    before = digest(folder)
+    return folder, digest(folder)
+
+
+@pytest.mark.parametrize("case", [c for c in CASES if c.level == "error"], ids=lambda c: c.name)
+def test_bad_input_is_refused_in_one_line(case, tmp_path, capsys):
+    folder, before = _case_site(case, tmp_path)
     entries = sorted(p.name for p in folder.iterdir())
     status = main(_args(case, folder))
     err = capsys.readouterr().err
@@ -71,11 +76,7 @@ def test_bad_input_is_refused_in_one_line(case, tmp_path, capsys):
 
 @pytest.mark.parametrize("case", [c for c in CASES if c.level == "warning"], ids=lambda c: c.name)
 def test_suspicious_input_is_warned_and_passes(case, tmp_path, capsys):
-    folder = tmp_path / "site"
-    folder.mkdir()
-    make_site(folder)
-    case.setup(folder)
-    before = digest(folder)
+    folder, before = _case_site(case, tmp_path)
     assert main(["check", str(folder / "project.toml")]) == 0
     captured = capsys.readouterr()
     lines = captured.err.splitlines()
