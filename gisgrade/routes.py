@@ -20,6 +20,7 @@ this process (files as bytes, layers as Arrow tables), which writes them.
 from __future__ import annotations
 
 import logging
+import os
 import re
 import tempfile
 import warnings
@@ -156,6 +157,11 @@ class LayerPart:
     crs: object  #: pyproj CRS of the geometries
     table: object = None  #: pyarrow Table, or None when it is at ``path``
     path: str | None = None
+    rows: int = 0  #: features (set from ``table``)
+
+    def __post_init__(self):
+        if self.table is not None:
+            self.rows = self.table.num_rows
 
     def read(self):
         """The table (memory-mapped from ``path``: no copy)."""
@@ -457,6 +463,72 @@ def write_layers(layers: dict, path) -> None:
                                                       f"CAUTION: {CAUTIONS}"})
 
 
+def layer_groups(layers: dict, n: int) -> list[dict]:
+    """``layers`` (name -> parts) in at most ``n`` groups of about as many
+    features each (the largest layer first, each to the lightest group; a
+    layer counts 10 000 features more for its own setting up), each group in
+    the layers' order: what each of ``n`` workers writes.
+
+    >>> sizes = {"a": 10, "b": 900_000, "c": 500_000, "d": 450_000}
+    >>> [list(g) for g in layer_groups({k: [LayerPart((), None, rows=v)] for k, v in sizes.items()}, 2)]
+    [['a', 'b'], ['c', 'd']]
+    """
+    weight = {name: 10_000 + sum(p.rows for p in parts) for name, parts in layers.items()}
+    groups: list[list[str]] = [[] for _ in range(max(1, min(n, len(layers))))]
+    load = [0] * len(groups)
+    for name in sorted(layers, key=lambda k: -weight[k]):
+        i = load.index(min(load))
+        groups[i].append(name)
+        load[i] += weight[name]
+    return [{k: layers[k] for k in layers if k in g} for g in groups if g]
+
+
+def join_layers(parts: list, layers: dict, path) -> None:
+    """``routes.gpkg`` at ``path`` from the GeoPackages ``parts`` that
+    :func:`write_layers` wrote of each :func:`layer_groups` group: joined
+    into the first (:func:`~gisgrade.output.geopackage.join_geopackages`),
+    layers in order, which then becomes ``path``. Where they do not join
+    (e.g. two CRSs without EPSG codes numbered alike), ``layers`` are written
+    to ``path`` whole instead. ``parts`` are gone afterwards."""
+    import os
+
+    from .output.geopackage import join_geopackages
+
+    first, *rest = parts
+    if join_geopackages(first, rest, order=list(layers)):
+        os.replace(first, path)
+    else:
+        log.debug("routes: the GeoPackage parts do not join; writing routes.gpkg whole")
+        write_layers(layers, path)
+        Path(first).unlink()
+    for other in rest:
+        Path(other).unlink()
+
+
+def _layers_on(client, layers: dict, tmp: Path):
+    """``routes.gpkg`` written on the cluster: each worker writes a group of
+    layers (:func:`layer_groups`) into a GeoPackage of its own in the folder
+    being built, at once, and one joins them (:func:`join_layers`). The
+    future of the whole; one worker: the one file written at once."""
+    workers = max(1, sum(client.nthreads().values()))
+    groups = layer_groups(layers, min(workers, 3))  # (past three, the large layers are each alone)
+    path = str(tmp / "routes.gpkg")
+    if len(groups) == 1:
+        return client.submit(write_layers, layers, path, pure=False, key="gisgrade-routes-gpkg")
+    parts = []
+    for j, group in enumerate(groups):
+        part = str(tmp / PARTS / f"routes-{j}.gpkg")
+        parts.append(client.submit(_written, group, part, pure=False,
+                                   key=f"gisgrade-routes-gpkg-{j}"))
+    return client.submit(join_layers, parts, layers, path, pure=False,
+                         key="gisgrade-routes-gpkg")
+
+
+def _written(layers: dict, path: str) -> str:
+    write_layers(layers, path)
+    return path
+
+
 def write_geoparquet(layers: dict, folder) -> None:
     """``parquet/<layer>.parquet``: each layer's parts merged, as GeoParquet."""
     folder = Path(folder)
@@ -540,8 +612,7 @@ class RoutesResult:
         on_disk = all(p.path is not None for parts in layers.values() for p in parts)
         jobs = []
         if client is not None and on_disk and layers:
-            jobs.append(client.submit(write_layers, layers, str(tmp / "routes.gpkg"),
-                                      pure=False, key="gisgrade-routes-gpkg"))
+            jobs.append(_layers_on(client, layers, tmp))
             if parquet:
                 jobs.append(client.submit(write_geoparquet, layers, str(tmp / "parquet"),
                                           pure=False, key="gisgrade-routes-parquet"))

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import json
 import shutil
+import sqlite3
 import sys
 
 import numpy as np
@@ -133,6 +134,70 @@ def test_layers_hold_every_route(routes_run):
     pipe = pyogrio.read_dataframe(out / "routes.gpkg", layer="route")
     # C's two features were merged into one route line
     assert (pipe["route"] == "C").sum() == 1
+    # two workers wrote the layers in two files, joined into one: in the layers' own
+    # order, each with its spatial index (GDAL and SQLite's own checks as the reference)
+    from gisgrade.output.layers import GEOMETRY
+
+    assert layers == [k for k in GEOMETRY if k in layers]
+    for k in layers:
+        assert pyogrio.read_info(out / "routes.gpkg", layer=k)["capabilities"]["fast_spatial_filter"]
+    con = sqlite3.connect(out / "routes.gpkg")
+    try:
+        assert con.execute("PRAGMA integrity_check").fetchall() == [("ok",)]
+    finally:
+        con.close()
+
+
+@pytest.mark.parametrize("joins", [True, False])
+def test_layer_groups_joined_as_one_file(tmp_path, caplog, joins):
+    """Layers written in groups (one file each) and joined read back as the
+    layers written whole; where the parts cannot join (each group in its own
+    CRS without an EPSG code, which GDAL numbers alike in both files), the
+    layers are written whole instead. GDAL through pyogrio reads both (the
+    reference)."""
+    import logging
+
+    import geopandas as gpd
+    import pyogrio
+    import shapely
+    from pyproj import CRS
+
+    from gisgrade.output.layers import GEOMETRY
+    from gisgrade.routes import LayerPart, arrow_layer, join_layers, layer_groups, write_layers
+
+    local = CRS.from_proj4("+proj=tmerc +lon_0=14.1 +x_0=500000 +ellps=GRS80 +units=m +no_defs")
+    other = CRS.from_proj4("+proj=tmerc +lon_0=15.3 +x_0=500000 +ellps=GRS80 +units=m +no_defs")
+    sizes = {"route": 2, "pipe_pressure": 30, "crossings": 4, "valves": 7}
+    groups = layer_groups({k: [LayerPart((), None, rows=n)] for k, n in sizes.items()}, 2)
+    # about as many features a group, each group in the layers' order
+    assert [list(g) for g in groups] == [["route", "pipe_pressure"], ["crossings", "valves"]]
+    layers = {}
+    for name, n in sizes.items():
+        x = np.arange(float(n))
+        ends = [np.stack([x, x * 0], 1), np.stack([x + 1, x * 0], 1)]
+        geometry = (shapely.linestrings(np.stack(ends, 1)) if GEOMETRY[name] == "LineString"
+                    else shapely.points(x, x * 0))
+        crs = other if not joins and name in groups[1] else local
+        gdf = gpd.GeoDataFrame({"route": ["a"] * n, "value": x}, geometry=geometry, crs=crs)
+        table, kinds = arrow_layer(gdf)
+        layers[name] = [LayerPart(kinds, gdf.crs, table)]
+    parts = []
+    for j, group in enumerate(layer_groups(layers, 2)):
+        parts.append(tmp_path / f"part-{j}.gpkg")
+        write_layers(group, parts[-1])
+    with caplog.at_level(logging.DEBUG, logger="gisgrade"):
+        join_layers(parts, layers, tmp_path / "joined.gpkg")
+    assert ("do not join" in caplog.text) is not joins
+    write_layers(layers, tmp_path / "whole.gpkg")
+    assert not any(p.exists() for p in parts)
+    names = [n for n, _ in pyogrio.list_layers(tmp_path / "joined.gpkg")]
+    assert names == list(layers) == [n for n, _ in pyogrio.list_layers(tmp_path / "whole.gpkg")]
+    for name in layers:
+        got = pyogrio.read_dataframe(tmp_path / "joined.gpkg", layer=name)
+        want = pyogrio.read_dataframe(tmp_path / "whole.gpkg", layer=name)
+        pd.testing.assert_frame_equal(got.drop(columns="geometry"), want.drop(columns="geometry"))
+        assert got.geometry.geom_equals_exact(want.geometry, tolerance=0).all()
+        assert CRS.from_user_input(got.crs) == CRS.from_user_input(want.crs)
 
 
 def test_the_folder_holds_only_the_result(routes_run):
