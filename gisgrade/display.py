@@ -54,9 +54,24 @@ SUFFIXES = {"_kpa": ("pressure", 1e3, "_psi"), "_m3_s": ("flow", 1.0, "_gpm"),
             "_m_s": ("velocity", 1.0, "_ft_s"), "_m3": ("volume", 1.0, "_yd3"),
             "_m": ("length", 1.0, "_ft")}
 
-#: A quantity token in a message template: ``{kind:si}`` or ``{kind.decimals:si}``
-#: (``{station:1250.0}`` for a station label); see :meth:`Display.render`.
-TOKEN = re.compile(r"\{([a-z]+)(?:\.(\d))?:([-+0-9.eEinfa]+)\}")
+#: A quantity token in a message template: ``{kind:si}``, ``{kind.decimals:si}``
+#: or ``{kind~:si}`` (a rule of thumb: a round figure in either system),
+#: ``{station:1250.0}`` for a station label; see :meth:`Display.render`.
+TOKEN = re.compile(r"\{([a-z]+)(?:\.(\d)|(~))?:([-+0-9.eEinfa]+)\}")
+
+
+def round_figure(x: float, digits: int = 2) -> str:
+    """``x`` to ``digits`` significant figures, written without an exponent:
+    how a rule of thumb reads once converted (400 m is "1300 ft", not
+    "1312 ft").
+
+    >>> round_figure(1312.3), round_figure(137.9), round_figure(0.0463), round_figure(20.0)
+    ('1300', '140', '0.046', '20')
+    """
+    if x == 0 or not np.isfinite(x):
+        return f"{x:g}"
+    places = digits - 1 - int(np.floor(np.log10(abs(x))))
+    return f"{round(x, places):.{max(places, 0)}f}"
 
 
 def token(si: float, kind: str, decimals: int | None = None) -> str:
@@ -137,11 +152,15 @@ class Display:
 
         >>> Display().render("cover {length:1.0}, short of {length.1:1.2}")
         'cover 1.00 m, short of 1.2 m'
+        >>> Display("US").render("{length~:400.0} to {length~:800.0} is usual")
+        '1300 ft to 2600 ft is usual'
         """
         def one(m):
-            kind, decimals, si = m.group(1), m.group(2), float(m.group(3))
+            kind, decimals, rough, si = m.group(1), m.group(2), m.group(3), float(m.group(4))
             if kind == "station":
                 return self.station([si])[0]
+            if rough:
+                return f"{round_figure(self.value(si, kind))} {self.unit(kind)}"
             return self.text(si, kind, None if decimals is None else int(decimals))
 
         return TOKEN.sub(one, str(template))

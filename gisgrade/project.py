@@ -418,10 +418,10 @@ class ChecksConfig:
     """[checks]: planning checks (defaults: common practice, see docs/hydraulics.md)."""
 
     min_pressure: float = key("pressure", "floor under all demands (common practice: about "
-                              "{pressure.0:137895.1})",
+                              "{pressure~:140000.0})",
                               140e3, "140 kPa")
     max_pressure: float = key("pressure", "upper end of normal working pressure (common "
-                              "practice: about {pressure.0:551580.6})", 550e3, "550 kPa")
+                              "practice: about {pressure~:550000.0})", 550e3, "550 kPa")
     min_velocity: float = key("velocity>=0", "least velocity (0: off)", 0.0, "0 m/s")
     max_velocity: float = key("velocity>=0", "upper end even in fire flow (common practice)", 3.0,
                               "3 m/s")
@@ -441,7 +441,7 @@ class ValvesConfig:
     """[valves]: how air valves and drains are sited (AWWA M51 as recalled, from memory;
     common practice)."""
 
-    interval: float = key("length>0", "longest run without an air valve ({length.0:400.0} to {length.0:800.0} is usual)",
+    interval: float = key("length>0", "longest run without an air valve ({length~:400.0} to {length~:800.0} is usual)",
                           500.0, "500 m")
     grade_change: float = key("grade>0", "a change of slope that needs a valve", 0.01, "1 %")
     flat_grade: float = key("grade>=0", "flatter runs are near-horizontal", 0.001, "0.1 %")
