@@ -186,3 +186,32 @@ def test_a_missing_file_is_an_error_and_not_made(tmp_path, two_files):
     with pytest.raises(FileNotFoundError):
         join_geopackages(a, [tmp_path / "nothing.gpkg"])
     assert not (tmp_path / "nothing.gpkg").exists()
+
+
+def test_feature_ids_are_not_reused_after_the_join(two_files):
+    """SQLite's AUTOINCREMENT keeps one ``sqlite_sequence`` row per table, the
+    largest id it ever gave (sqlite.org/autoinc.html): a feature GDAL adds to
+    a joined layer takes the id it would take in the file alone, even where
+    the last features were deleted (their ids are not given again)."""
+    a, b, originals = two_files
+    con = sqlite3.connect(b)
+    try:
+        con.execute("DELETE FROM pts_b WHERE fid > 1990")  # GDAL's own triggers follow
+        con.commit()
+    finally:
+        con.close()
+    alone = b.with_name("alone.gpkg")
+    alone.write_bytes(b.read_bytes())
+    assert join_geopackages(a, [b])
+    extra = originals["pts_b"].iloc[:2]
+    for path in (a, alone):
+        extra.to_file(path, layer="pts_b", driver="GPKG", engine="pyogrio", mode="a")
+    ids = [list(pyogrio.read_dataframe(p, layer="pts_b", fid_as_index=True).index[-2:])
+           for p in (a, alone)]
+    assert ids[0] == ids[1] == [2001, 2002]
+    con = sqlite3.connect(a)
+    try:
+        assert con.execute("SELECT name, count(*) FROM sqlite_sequence GROUP BY name "
+                           "HAVING count(*) > 1").fetchall() == []
+    finally:
+        con.close()

@@ -26,6 +26,8 @@ References
    (geometry columns) and F.3 (RTree spatial indexes).
 .. [2] SQLite, "The SQLite R*Tree Module", sqlite.org/rtree.html, section
    "Shadow tables".
+.. [3] SQLite, "SQLite Autoincrement", sqlite.org/autoinc.html: the largest
+   rowid a table ever held, one row of ``sqlite_sequence`` a table.
 """
 from __future__ import annotations
 
@@ -129,6 +131,9 @@ def _move(con, schema: str, layers: list[str]) -> None:
         for kind, _, sql in objs:  # indexes, then triggers once the rows are in
             if kind == "index" and sql:
                 con.execute(sql)
+        # the rows' INSERT gave the layer a sequence row (its largest fid); the
+        # file's own (the largest fid it ever gave) takes its place: one row a table [3]_
+        con.execute("DELETE FROM main.sqlite_sequence WHERE name = ?", (layer,))
         con.execute(f"INSERT INTO main.sqlite_sequence SELECT * FROM {schema}.sqlite_sequence "
                     "WHERE name = ?", (layer,))
         for table in PER_LAYER:
