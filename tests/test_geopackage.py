@@ -215,3 +215,32 @@ def test_feature_ids_are_not_reused_after_the_join(two_files):
                            "HAVING count(*) > 1").fetchall() == []
     finally:
         con.close()
+
+
+@pytest.mark.parametrize("without", [("a",), ("b",), ("a", "b")])
+def test_layers_without_a_spatial_index_join(tmp_path, without):
+    """GDAL writes a layer without its R*Tree when asked (``SPATIAL_INDEX=NO``)
+    and then makes no ``gpkg_extensions`` table where no layer has an
+    extension: such files join as the others do, and GDAL reads each layer
+    back as it wrote it, with an index exactly where it built one."""
+    points, lines, _ = frames(4)
+    files = {}
+    for name, gdf, kind in (("a", points, "Point"), ("b", lines, "LineString")):
+        files[name] = tmp_path / f"{name}.gpkg"
+        gdf.to_file(files[name], layer=name, driver="GPKG", engine="pyogrio", geometry_type=kind,
+                    SPATIAL_INDEX="NO" if name in without else "YES")
+    info_before = {n: pyogrio.read_info(f, layer=n) for n, f in files.items()}
+    assert join_geopackages(files["a"], [files["b"]])
+    for name, gdf in (("a", points), ("b", lines)):
+        back = pyogrio.read_dataframe(files["a"], layer=name)
+        assert_geodataframe_equal(back, gdf, check_dtype=False)
+        info = pyogrio.read_info(files["a"], layer=name)
+        for key in ("features", "total_bounds", "crs", "capabilities"):
+            assert info[key] == info_before[name][key], (name, key)
+        assert info["capabilities"]["fast_spatial_filter"] is (name not in without)
+    con = sqlite3.connect(files["a"])
+    try:
+        assert con.execute("PRAGMA integrity_check").fetchall() == [("ok",)]
+        assert con.execute("PRAGMA foreign_key_check").fetchall() == []
+    finally:
+        con.close()

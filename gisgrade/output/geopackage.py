@@ -62,6 +62,13 @@ def _quoted(name: str) -> str:
     return '"' + name.replace('"', '""') + '"'
 
 
+def _table_sql(con, schema: str, table: str) -> str | None:
+    """The ``CREATE`` statement of ``table`` in ``schema``; None where there is no such table."""
+    row = con.execute(f"SELECT sql FROM {schema}.sqlite_master WHERE type = 'table' AND name = ?",
+                      (table,)).fetchone()
+    return None if row is None else row[0]
+
+
 def _layer_objects(con, schema: str, layers: list[str]) -> dict[str, list[tuple]]:
     """Each layer -> its ``(type, name, sql)`` objects in ``schema``: its table,
     indexes and triggers, and the R*Tree ``rtree_<layer>_<column>`` with its
@@ -94,11 +101,12 @@ def _check(con, schema: str, layers: list[str]) -> None:
         raise _Refused(f"layer {sorted(clash)[0]} in both")
     for table in ("gpkg_metadata", "gpkg_metadata_reference", "gpkg_data_columns",
                   "gpkg_tile_matrix_set"):
-        present = con.execute(f"SELECT 1 FROM {schema}.sqlite_master WHERE name = ?", (table,)).fetchone()
-        if present and con.execute(f"SELECT 1 FROM {schema}.{table} LIMIT 1").fetchone():
+        if _table_sql(con, schema, table) and con.execute(
+                f"SELECT 1 FROM {schema}.{table} LIMIT 1").fetchone():
             raise _Refused(table)
-    stray = con.execute(f"SELECT extension_name FROM {schema}.gpkg_extensions WHERE table_name IS NULL "
-                        f"OR table_name NOT IN ({','.join('?' * len(layers))})", layers).fetchone()
+    stray = _table_sql(con, schema, "gpkg_extensions") and con.execute(
+        f"SELECT extension_name FROM {schema}.gpkg_extensions WHERE table_name IS NULL "
+        f"OR table_name NOT IN ({','.join('?' * len(layers))})", layers).fetchone()
     if stray:
         raise _Refused(f"extension {stray[0]}")
     if con.execute(f"SELECT 1 FROM {schema}.gpkg_contents WHERE data_type != 'features'").fetchone():
@@ -114,6 +122,11 @@ def _check(con, schema: str, layers: list[str]) -> None:
 def _move(con, schema: str, layers: list[str]) -> None:
     """Copy every layer of ``schema`` into ``main`` (inside the caller's transaction)."""
     objects = _layer_objects(con, schema, layers)
+    # GDAL makes gpkg_extensions with the first extension (a spatial index):
+    # a file without one has none, and takes the other's where it has one
+    per_layer = [t for t in PER_LAYER if _table_sql(con, schema, t)]
+    if "gpkg_extensions" in per_layer and not _table_sql(con, "main", "gpkg_extensions"):
+        con.execute(_table_sql(con, schema, "gpkg_extensions"))
     con.execute(f"INSERT INTO main.gpkg_spatial_ref_sys SELECT * FROM {schema}.gpkg_spatial_ref_sys "
                 "WHERE srs_id NOT IN (SELECT srs_id FROM main.gpkg_spatial_ref_sys)")
     for layer in layers:
@@ -136,7 +149,7 @@ def _move(con, schema: str, layers: list[str]) -> None:
         con.execute("DELETE FROM main.sqlite_sequence WHERE name = ?", (layer,))
         con.execute(f"INSERT INTO main.sqlite_sequence SELECT * FROM {schema}.sqlite_sequence "
                     "WHERE name = ?", (layer,))
-        for table in PER_LAYER:
+        for table in per_layer:
             con.execute(f"INSERT INTO main.{table} SELECT * FROM {schema}.{table} "
                         "WHERE table_name = ?", (layer,))
         for kind, _, sql in objs:
