@@ -244,3 +244,17 @@ def test_layers_without_a_spatial_index_join(tmp_path, without):
         assert con.execute("PRAGMA foreign_key_check").fetchall() == []
     finally:
         con.close()
+
+
+@pytest.mark.parametrize("which", ["target", "other"])
+def test_a_file_that_is_not_a_database_is_refused(two_files, which):
+    """A file SQLite does not open as a database ("file is not a database",
+    SQLite's own check of the header) joins nothing: ``False``, and the target
+    as it was."""
+    a, b, _ = two_files
+    junk = a.with_name("notes.gpkg")
+    junk.write_text("not a GeoPackage\n" * 100)
+    target, others = (junk, [b]) if which == "target" else (a, [b, junk])
+    before = digest(target)
+    assert join_geopackages(target, others) is False
+    assert digest(target) == before

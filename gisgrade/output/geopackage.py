@@ -161,6 +161,8 @@ def _reorder(con, order: list[str]) -> None:
     """List the layers in ``order`` (GDAL lists them in ``gpkg_contents``' row
     order); layers not named keep their place after those named."""
     rows = con.execute("SELECT * FROM main.gpkg_contents").fetchall()
+    if not rows:
+        return
     rank = {name: i for i, name in enumerate(order)}
     rows.sort(key=lambda r: rank.get(r[0], len(rank)))
     con.execute("DELETE FROM main.gpkg_contents")
@@ -172,8 +174,8 @@ def join_geopackages(target, others, order=None) -> bool:
     :func:`gisgrade.routes.write_layers` writes them) into ``target``, then
     list the layers in ``order`` (names; optional). One transaction: on
     ``True`` the layers are in ``target`` and ``others`` are unchanged; on
-    ``False`` (something that does not simply move, see the module's text)
-    ``target`` is as it was.
+    ``False`` (something that does not simply move, see the module's text,
+    or a file that is not a GeoPackage) ``target`` is as it was.
 
     Each layer keeps its rows and feature ids, its spatial index (copied,
     not rebuilt), feature count, extent, description and spatial reference.
@@ -194,22 +196,23 @@ def join_geopackages(target, others, order=None) -> bool:
         raise ValueError(f"at most {MAX_OTHERS} files join at once (SQLite attaches 10)")
     con = sqlite3.connect(target, isolation_level=None)
     try:
-        con.execute("PRAGMA synchronous = OFF")  # the caller's folder is swapped in whole
-        schemas = [f"other{i}" for i in range(len(others))]
-        for schema, other in zip(schemas, others):
-            con.execute(f"ATTACH DATABASE ? AS {schema}", (other,))
-        con.execute("BEGIN")
-        try:
+        try:  # (a file that is not a database fails here: nothing to join)
+            con.execute("PRAGMA synchronous = OFF")  # the caller's folder is swapped in whole
+            schemas = [f"other{i}" for i in range(len(others))]
+            for schema, other in zip(schemas, others):
+                con.execute(f"ATTACH DATABASE ? AS {schema}", (other,))
+            con.execute("BEGIN")
             for schema in schemas:
                 layers = [r[0] for r in con.execute(f"SELECT table_name FROM {schema}.gpkg_contents")]
                 _check(con, schema, layers)
                 _move(con, schema, layers)
             if order:
                 _reorder(con, list(order))
+            con.execute("COMMIT")
         except (_Refused, sqlite3.Error):
-            con.execute("ROLLBACK")
+            if con.in_transaction:  # (SQLite rolls some errors back itself)
+                con.execute("ROLLBACK")
             return False
-        con.execute("COMMIT")
     finally:
         con.close()
     return True
