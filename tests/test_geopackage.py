@@ -258,3 +258,24 @@ def test_a_file_that_is_not_a_database_is_refused(two_files, which):
     before = digest(target)
     assert join_geopackages(target, others) is False
     assert digest(target) == before
+
+
+def test_ten_others_join_at_once_and_eleven_are_too_many(tmp_path):
+    """SQLite attaches ten databases besides ``main`` (SQLITE_MAX_ATTACHED,
+    sqlite.org/limits.html, what this sqlite3 reports): ten others join, and
+    GDAL reads every layer back; eleven are an error before anything is read."""
+    limit = sqlite3.connect(":memory:").getlimit(sqlite3.SQLITE_LIMIT_ATTACHED) \
+        if hasattr(sqlite3, "SQLITE_LIMIT_ATTACHED") else 10
+    assert limit == 10  # the premise
+    files = []
+    for j in range(12):
+        path = tmp_path / f"{j}.gpkg"
+        gdf = gpd.GeoDataFrame({"k": [j, j + 1]}, geometry=shapely.points([[j, 0.0], [j, 1.0]]),
+                               crs=UTM)
+        gdf.to_file(path, layer=f"layer_{j}", driver="GPKG", engine="pyogrio")
+        files.append(path)
+    with pytest.raises(ValueError):
+        join_geopackages(files[0], files[1:])
+    assert join_geopackages(files[0], files[1:11])
+    assert [n for n, _ in pyogrio.list_layers(files[0])] == [f"layer_{j}" for j in range(11)]
+    assert [pyogrio.read_info(files[0], layer=f"layer_{j}")["features"] for j in range(11)] == [2] * 11

@@ -47,8 +47,9 @@ SYSTEM = frozenset({
 #: The per-layer rows copied with each layer.
 PER_LAYER = ("gpkg_contents", "gpkg_geometry_columns", "gpkg_ogr_contents", "gpkg_extensions")
 
-#: The most files joined into one at once (SQLite attaches at most 10 by default).
-MAX_OTHERS = 9
+#: The most files joined into one at once: SQLite attaches at most 10 databases
+#: besides ``main`` by default (SQLITE_MAX_ATTACHED, sqlite.org/limits.html).
+MAX_OTHERS = 10
 
 #: The shadow tables of an R*Tree virtual table [2]_.
 SHADOWS = ("node", "parent", "rowid")
