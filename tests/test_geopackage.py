@@ -186,3 +186,96 @@ def test_a_missing_file_is_an_error_and_not_made(tmp_path, two_files):
     with pytest.raises(FileNotFoundError):
         join_geopackages(a, [tmp_path / "nothing.gpkg"])
     assert not (tmp_path / "nothing.gpkg").exists()
+
+
+def test_feature_ids_are_not_reused_after_the_join(two_files):
+    """SQLite's AUTOINCREMENT keeps one ``sqlite_sequence`` row per table, the
+    largest id it ever gave (sqlite.org/autoinc.html): a feature GDAL adds to
+    a joined layer takes the id it would take in the file alone, even where
+    the last features were deleted (their ids are not given again)."""
+    a, b, originals = two_files
+    con = sqlite3.connect(b)
+    try:
+        con.execute("DELETE FROM pts_b WHERE fid > 1990")  # GDAL's own triggers follow
+        con.commit()
+    finally:
+        con.close()
+    alone = b.with_name("alone.gpkg")
+    alone.write_bytes(b.read_bytes())
+    assert join_geopackages(a, [b])
+    extra = originals["pts_b"].iloc[:2]
+    for path in (a, alone):
+        extra.to_file(path, layer="pts_b", driver="GPKG", engine="pyogrio", mode="a")
+    ids = [list(pyogrio.read_dataframe(p, layer="pts_b", fid_as_index=True).index[-2:])
+           for p in (a, alone)]
+    assert ids[0] == ids[1] == [2001, 2002]
+    con = sqlite3.connect(a)
+    try:
+        assert con.execute("SELECT name, count(*) FROM sqlite_sequence GROUP BY name "
+                           "HAVING count(*) > 1").fetchall() == []
+    finally:
+        con.close()
+
+
+@pytest.mark.parametrize("without", [("a",), ("b",), ("a", "b")])
+def test_layers_without_a_spatial_index_join(tmp_path, without):
+    """GDAL writes a layer without its R*Tree when asked (``SPATIAL_INDEX=NO``)
+    and then makes no ``gpkg_extensions`` table where no layer has an
+    extension: such files join as the others do, and GDAL reads each layer
+    back as it wrote it, with an index exactly where it built one."""
+    points, lines, _ = frames(4)
+    files = {}
+    for name, gdf, kind in (("a", points, "Point"), ("b", lines, "LineString")):
+        files[name] = tmp_path / f"{name}.gpkg"
+        gdf.to_file(files[name], layer=name, driver="GPKG", engine="pyogrio", geometry_type=kind,
+                    SPATIAL_INDEX="NO" if name in without else "YES")
+    info_before = {n: pyogrio.read_info(f, layer=n) for n, f in files.items()}
+    assert join_geopackages(files["a"], [files["b"]])
+    for name, gdf in (("a", points), ("b", lines)):
+        back = pyogrio.read_dataframe(files["a"], layer=name)
+        assert_geodataframe_equal(back, gdf, check_dtype=False)
+        info = pyogrio.read_info(files["a"], layer=name)
+        for key in ("features", "total_bounds", "crs", "capabilities"):
+            assert info[key] == info_before[name][key], (name, key)
+        assert info["capabilities"]["fast_spatial_filter"] is (name not in without)
+    con = sqlite3.connect(files["a"])
+    try:
+        assert con.execute("PRAGMA integrity_check").fetchall() == [("ok",)]
+        assert con.execute("PRAGMA foreign_key_check").fetchall() == []
+    finally:
+        con.close()
+
+
+@pytest.mark.parametrize("which", ["target", "other"])
+def test_a_file_that_is_not_a_database_is_refused(two_files, which):
+    """A file SQLite does not open as a database ("file is not a database",
+    SQLite's own check of the header) joins nothing: ``False``, and the target
+    as it was."""
+    a, b, _ = two_files
+    junk = a.with_name("notes.gpkg")
+    junk.write_text("not a GeoPackage\n" * 100)
+    target, others = (junk, [b]) if which == "target" else (a, [b, junk])
+    before = digest(target)
+    assert join_geopackages(target, others) is False
+    assert digest(target) == before
+
+
+def test_ten_others_join_at_once_and_eleven_are_too_many(tmp_path):
+    """SQLite attaches ten databases besides ``main`` (SQLITE_MAX_ATTACHED,
+    sqlite.org/limits.html, what this sqlite3 reports): ten others join, and
+    GDAL reads every layer back; eleven are an error before anything is read."""
+    limit = sqlite3.connect(":memory:").getlimit(sqlite3.SQLITE_LIMIT_ATTACHED) \
+        if hasattr(sqlite3, "SQLITE_LIMIT_ATTACHED") else 10
+    assert limit == 10  # the premise
+    files = []
+    for j in range(12):
+        path = tmp_path / f"{j}.gpkg"
+        gdf = gpd.GeoDataFrame({"k": [j, j + 1]}, geometry=shapely.points([[j, 0.0], [j, 1.0]]),
+                               crs=UTM)
+        gdf.to_file(path, layer=f"layer_{j}", driver="GPKG", engine="pyogrio")
+        files.append(path)
+    with pytest.raises(ValueError):
+        join_geopackages(files[0], files[1:])
+    assert join_geopackages(files[0], files[1:11])
+    assert [n for n, _ in pyogrio.list_layers(files[0])] == [f"layer_{j}" for j in range(11)]
+    assert [pyogrio.read_info(files[0], layer=f"layer_{j}")["features"] for j in range(11)] == [2] * 11

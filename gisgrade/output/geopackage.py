@@ -26,6 +26,8 @@ References
    (geometry columns) and F.3 (RTree spatial indexes).
 .. [2] SQLite, "The SQLite R*Tree Module", sqlite.org/rtree.html, section
    "Shadow tables".
+.. [3] SQLite, "SQLite Autoincrement", sqlite.org/autoinc.html: the largest
+   rowid a table ever held, one row of ``sqlite_sequence`` a table.
 """
 from __future__ import annotations
 
@@ -45,8 +47,9 @@ SYSTEM = frozenset({
 #: The per-layer rows copied with each layer.
 PER_LAYER = ("gpkg_contents", "gpkg_geometry_columns", "gpkg_ogr_contents", "gpkg_extensions")
 
-#: The most files joined into one at once (SQLite attaches at most 10 by default).
-MAX_OTHERS = 9
+#: The most files joined into one at once: SQLite attaches at most 10 databases
+#: besides ``main`` by default (SQLITE_MAX_ATTACHED, sqlite.org/limits.html).
+MAX_OTHERS = 10
 
 #: The shadow tables of an R*Tree virtual table [2]_.
 SHADOWS = ("node", "parent", "rowid")
@@ -58,6 +61,13 @@ class _Refused(Exception):
 
 def _quoted(name: str) -> str:
     return '"' + name.replace('"', '""') + '"'
+
+
+def _table_sql(con, schema: str, table: str) -> str | None:
+    """The ``CREATE`` statement of ``table`` in ``schema``; None where there is no such table."""
+    row = con.execute(f"SELECT sql FROM {schema}.sqlite_master WHERE type = 'table' AND name = ?",
+                      (table,)).fetchone()
+    return None if row is None else row[0]
 
 
 def _layer_objects(con, schema: str, layers: list[str]) -> dict[str, list[tuple]]:
@@ -92,11 +102,12 @@ def _check(con, schema: str, layers: list[str]) -> None:
         raise _Refused(f"layer {sorted(clash)[0]} in both")
     for table in ("gpkg_metadata", "gpkg_metadata_reference", "gpkg_data_columns",
                   "gpkg_tile_matrix_set"):
-        present = con.execute(f"SELECT 1 FROM {schema}.sqlite_master WHERE name = ?", (table,)).fetchone()
-        if present and con.execute(f"SELECT 1 FROM {schema}.{table} LIMIT 1").fetchone():
+        if _table_sql(con, schema, table) and con.execute(
+                f"SELECT 1 FROM {schema}.{table} LIMIT 1").fetchone():
             raise _Refused(table)
-    stray = con.execute(f"SELECT extension_name FROM {schema}.gpkg_extensions WHERE table_name IS NULL "
-                        f"OR table_name NOT IN ({','.join('?' * len(layers))})", layers).fetchone()
+    stray = _table_sql(con, schema, "gpkg_extensions") and con.execute(
+        f"SELECT extension_name FROM {schema}.gpkg_extensions WHERE table_name IS NULL "
+        f"OR table_name NOT IN ({','.join('?' * len(layers))})", layers).fetchone()
     if stray:
         raise _Refused(f"extension {stray[0]}")
     if con.execute(f"SELECT 1 FROM {schema}.gpkg_contents WHERE data_type != 'features'").fetchone():
@@ -112,6 +123,11 @@ def _check(con, schema: str, layers: list[str]) -> None:
 def _move(con, schema: str, layers: list[str]) -> None:
     """Copy every layer of ``schema`` into ``main`` (inside the caller's transaction)."""
     objects = _layer_objects(con, schema, layers)
+    # GDAL makes gpkg_extensions with the first extension (a spatial index):
+    # a file without one has none, and takes the other's where it has one
+    per_layer = [t for t in PER_LAYER if _table_sql(con, schema, t)]
+    if "gpkg_extensions" in per_layer and not _table_sql(con, "main", "gpkg_extensions"):
+        con.execute(_table_sql(con, schema, "gpkg_extensions"))
     con.execute(f"INSERT INTO main.gpkg_spatial_ref_sys SELECT * FROM {schema}.gpkg_spatial_ref_sys "
                 "WHERE srs_id NOT IN (SELECT srs_id FROM main.gpkg_spatial_ref_sys)")
     for layer in layers:
@@ -129,9 +145,12 @@ def _move(con, schema: str, layers: list[str]) -> None:
         for kind, _, sql in objs:  # indexes, then triggers once the rows are in
             if kind == "index" and sql:
                 con.execute(sql)
+        # the rows' INSERT gave the layer a sequence row (its largest fid); the
+        # file's own (the largest fid it ever gave) takes its place: one row a table [3]_
+        con.execute("DELETE FROM main.sqlite_sequence WHERE name = ?", (layer,))
         con.execute(f"INSERT INTO main.sqlite_sequence SELECT * FROM {schema}.sqlite_sequence "
                     "WHERE name = ?", (layer,))
-        for table in PER_LAYER:
+        for table in per_layer:
             con.execute(f"INSERT INTO main.{table} SELECT * FROM {schema}.{table} "
                         "WHERE table_name = ?", (layer,))
         for kind, _, sql in objs:
@@ -143,6 +162,8 @@ def _reorder(con, order: list[str]) -> None:
     """List the layers in ``order`` (GDAL lists them in ``gpkg_contents``' row
     order); layers not named keep their place after those named."""
     rows = con.execute("SELECT * FROM main.gpkg_contents").fetchall()
+    if not rows:
+        return
     rank = {name: i for i, name in enumerate(order)}
     rows.sort(key=lambda r: rank.get(r[0], len(rank)))
     con.execute("DELETE FROM main.gpkg_contents")
@@ -154,8 +175,8 @@ def join_geopackages(target, others, order=None) -> bool:
     :func:`gisgrade.routes.write_layers` writes them) into ``target``, then
     list the layers in ``order`` (names; optional). One transaction: on
     ``True`` the layers are in ``target`` and ``others`` are unchanged; on
-    ``False`` (something that does not simply move, see the module's text)
-    ``target`` is as it was.
+    ``False`` (something that does not simply move, see the module's text,
+    or a file that is not a GeoPackage) ``target`` is as it was.
 
     Each layer keeps its rows and feature ids, its spatial index (copied,
     not rebuilt), feature count, extent, description and spatial reference.
@@ -176,22 +197,23 @@ def join_geopackages(target, others, order=None) -> bool:
         raise ValueError(f"at most {MAX_OTHERS} files join at once (SQLite attaches 10)")
     con = sqlite3.connect(target, isolation_level=None)
     try:
-        con.execute("PRAGMA synchronous = OFF")  # the caller's folder is swapped in whole
-        schemas = [f"other{i}" for i in range(len(others))]
-        for schema, other in zip(schemas, others):
-            con.execute(f"ATTACH DATABASE ? AS {schema}", (other,))
-        con.execute("BEGIN")
-        try:
+        try:  # (a file that is not a database fails here: nothing to join)
+            con.execute("PRAGMA synchronous = OFF")  # the caller's folder is swapped in whole
+            schemas = [f"other{i}" for i in range(len(others))]
+            for schema, other in zip(schemas, others):
+                con.execute(f"ATTACH DATABASE ? AS {schema}", (other,))
+            con.execute("BEGIN")
             for schema in schemas:
                 layers = [r[0] for r in con.execute(f"SELECT table_name FROM {schema}.gpkg_contents")]
                 _check(con, schema, layers)
                 _move(con, schema, layers)
             if order:
                 _reorder(con, list(order))
+            con.execute("COMMIT")
         except (_Refused, sqlite3.Error):
-            con.execute("ROLLBACK")
+            if con.in_transaction:  # (SQLite rolls some errors back itself)
+                con.execute("ROLLBACK")
             return False
-        con.execute("COMMIT")
     finally:
         con.close()
     return True
