@@ -495,6 +495,8 @@ def join_layers(parts: list, layers: dict, path) -> None:
     from .output.geopackage import join_geopackages
 
     first, *rest = parts
+    if Path(path).is_file() and not Path(first).exists():
+        return  # (the task run again after it had joined and moved the file)
     if join_geopackages(first, rest, order=list(layers)):
         os.replace(first, path)
     else:

@@ -178,6 +178,10 @@ def join_geopackages(target, others, order=None) -> bool:
     ``False`` (something that does not simply move, see the module's text,
     or a file that is not a GeoPackage) ``target`` is as it was.
 
+    The target is written without SQLite's sync (``synchronous = OFF``):
+    it is meant for files in a folder that is swapped in whole once written
+    (``output.atomic``), where a crash loses the folder, not one file.
+
     Each layer keeps its rows and feature ids, its spatial index (copied,
     not rebuilt), feature count, extent, description and spatial reference.
 
