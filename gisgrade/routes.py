@@ -667,9 +667,11 @@ class RoutesResult:
         draw_routes(self.outcomes, self.table, display_of(self.project), path, self.project)
 
 
-def _cluster(workers: int | None, scheduler: str | None):
+def _cluster(workers: int | None, scheduler: str | None, n_routes: int):
     """A Dask client: on ``scheduler`` (an address), else a LocalCluster of
-    ``workers`` processes (default: the machine's cores)."""
+    ``workers`` processes (default: the machine's cores, at most one a route)."""
+    import os
+
     from distributed import Client, LocalCluster
 
     if scheduler:
@@ -682,63 +684,10 @@ def _cluster(workers: int | None, scheduler: str | None):
     if workers and workers > cores:
         log.warning("--workers %d: more worker processes than the %d cores only adds start-up "
                     "time and memory", workers, cores)
-    cluster = LocalCluster(n_workers=max(1, workers or cores), threads_per_worker=1,
-                           processes=True, dashboard_address=None, silence_logs=logging.ERROR)
+    n = min(workers or cores, n_routes)  # never more workers than routes
+    cluster = LocalCluster(n_workers=max(1, n), threads_per_worker=1, processes=True,
+                           dashboard_address=None, silence_logs=logging.ERROR)
     return Client(cluster), cluster
-
-
-def _warm() -> None:
-    """What a route's task imports (about 2 s), done on each local worker
-    as the cluster starts, while the routes are read."""
-    import pyarrow  # noqa: F401
-    import pyogrio  # noqa: F401
-
-    from . import output, pipeline  # noqa: F401
-    from .output import layers  # noqa: F401
-
-
-def _started(workers: int | None, scheduler: str | None):
-    client, cluster = _cluster(workers, scheduler)
-    if cluster is not None:  # (a scheduler's own workers warm on their first route)
-        try:
-            client.run(_warm)
-        except Exception:  # then the first route imports it, and says what is wrong
-            log.debug("routes: the workers could not import ahead", exc_info=True)
-    return client, cluster
-
-
-class _Starting:
-    """The cluster (:func:`_cluster`) being started in a thread, its workers
-    importing what a route needs (:func:`_warm`), while this process reads
-    the routes; :meth:`get` waits for it, :meth:`stop` closes it."""
-
-    def __init__(self, workers: int | None, scheduler: str | None):
-        from concurrent.futures import ThreadPoolExecutor
-
-        pool = ThreadPoolExecutor(1, thread_name_prefix="gisgrade-cluster")
-        self._future = pool.submit(_started, workers, scheduler)
-        pool.shutdown(wait=False)
-
-    def get(self, n_routes: int):
-        """``(client, cluster)``, a LocalCluster cut to ``n_routes`` workers
-        (never more workers than routes)."""
-        client, cluster = self._future.result()
-        if cluster is not None and n_routes < len(cluster.workers):
-            cluster.scale(max(1, n_routes))
-        return client, cluster
-
-    def stop(self) -> None:
-        try:
-            client, cluster = self._future.result()
-        except Exception:  # it never started: nothing to close
-            return
-        _close(client, cluster)
-
-
-def _close(client, cluster) -> None:
-    client.close()
-    if cluster is not None:
-        cluster.close()
 
 
 def run_routes(project, lines=None, *, workers: int | None = None, scheduler: str | None = None,
@@ -764,51 +713,42 @@ def run_routes(project, lines=None, *, workers: int | None = None, scheduler: st
     route's layers).
     ``progress(done, total)`` is called as routes finish.
     """
-    import time
-
     from .project import Project, load
 
     project = project if isinstance(project, Project) else load(project)
+    if lines is None:
+        routes = read_routes(project)
+    else:
+        routes = group_routes(lines, "route", "lines", "the candidate routes")
+    names = [n for n, _ in routes]
+    folders = _unique_folders(names)
+    total = len(routes)
+    shown = progress or (lambda done, total: None)
+    if sink is None:
+        places = [(None, None)] * total
+    else:
+        places = [(str(Path(sink) / f), str(Path(sink) / PARTS / f)) for f in folders]
+
+    def arrived(i, outcome, done):
+        if sink is not None:
+            _put(outcome, Path(sink) / folders[i])
+        shown(done, total)
+
+    shown(0, total)
+    if workers == 0 and not scheduler:
+        outcomes = []
+        for i, (name, frame) in enumerate(routes):
+            outcomes.append(run_route(project, name, frame, figures, layers, *places[i]))
+            arrived(i, outcomes[-1], i + 1)
+        result = RoutesResult(project, outcomes, folders)
+        if sink is not None:
+            result.write_into(Path(sink), parquet)
+        return result
+    import time
+
     t0 = time.perf_counter()
-    # the cluster starts (in a thread) while the routes are read
-    starting = None if workers == 0 and not scheduler else _Starting(workers, scheduler)
-    try:
-        if lines is None:
-            routes = read_routes(project)
-        else:
-            routes = group_routes(lines, "route", "lines", "the candidate routes")
-        names = [n for n, _ in routes]
-        folders = _unique_folders(names)
-        total = len(routes)
-        shown = progress or (lambda done, total: None)
-        if sink is None:
-            places = [(None, None)] * total
-        else:
-            places = [(str(Path(sink) / f), str(Path(sink) / PARTS / f)) for f in folders]
-
-        def arrived(i, outcome, done):
-            if sink is not None:
-                _put(outcome, Path(sink) / folders[i])
-            shown(done, total)
-
-        shown(0, total)
-        if starting is None:
-            outcomes = []
-            for i, (name, frame) in enumerate(routes):
-                outcomes.append(run_route(project, name, frame, figures, layers, *places[i]))
-                arrived(i, outcomes[-1], i + 1)
-            result = RoutesResult(project, outcomes, folders)
-            if sink is not None:
-                result.write_into(Path(sink), parquet)
-            return result
-        t1 = time.perf_counter()
-        client, cluster = starting.get(len(routes))
-    except BaseException:
-        if starting is not None:
-            starting.stop()
-        raise
-    log.debug("routes: Dask cluster %.2f s (waited %.2f s after reading the routes)",
-              time.perf_counter() - t0, time.perf_counter() - t1)
+    client, cluster = _cluster(workers, scheduler, len(routes))
+    log.debug("routes: Dask cluster %.2f s", time.perf_counter() - t0)
     try:
         outcomes = _on_dask(client, project, routes, places, figures, layers, arrived)
         log.debug("routes: %d routes run %.2f s", total, time.perf_counter() - t0)
@@ -818,7 +758,9 @@ def run_routes(project, lines=None, *, workers: int | None = None, scheduler: st
         return result
     finally:
         t1 = time.perf_counter()
-        _close(client, cluster)
+        client.close()
+        if cluster is not None:
+            cluster.close()
         log.debug("routes: Dask cluster closed %.2f s", time.perf_counter() - t1)
 
 

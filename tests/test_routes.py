@@ -413,8 +413,6 @@ def test_interrupt_exits_130_and_says_the_folder_is_untouched(tmp_path, capsys, 
 
 
 def test_never_more_workers_than_routes(monkeypatch):
-    """The cluster starts before the routes are counted (while they are read),
-    its workers importing ahead; it is then cut to one worker a route."""
     import distributed
 
     from gisgrade import routes
@@ -424,25 +422,11 @@ def test_never_more_workers_than_routes(monkeypatch):
     class FakeCluster:
         def __init__(self, n_workers, **kw):
             seen["n"] = n_workers
-            self.workers = dict.fromkeys(range(n_workers))
-
-        def scale(self, n):
-            seen["scaled"] = n
-
-    class FakeClient:
-        def __init__(self, cluster):
-            pass
-
-        def run(self, function):
-            seen["warmed"] = function
 
     monkeypatch.setattr(distributed, "LocalCluster", FakeCluster)
-    monkeypatch.setattr(distributed, "Client", FakeClient)
-    routes._Starting(500, None).get(3)
-    assert seen == {"n": 500, "warmed": routes._warm, "scaled": 3}
-    seen.clear()
-    routes._Starting(2, None).get(30)
-    assert seen == {"n": 2, "warmed": routes._warm}
+    monkeypatch.setattr(distributed, "Client", lambda cluster: None)
+    routes._cluster(500, None, 3)
+    assert seen["n"] == 3
 
 
 def test_routes_csv_names_each_route_folder(routes_run):
