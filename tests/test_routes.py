@@ -456,3 +456,28 @@ def test_a_routes_line_gives_its_worst_scenario_in_words():
     rows["below_vapour"] = False
     rows.loc[1, "min_pressure_kpa"] = 120.0
     assert "lowest pressure 120 kPa in max day + fire" in route_line(rows, Display())
+
+
+@pytest.mark.parametrize("epsg", [4326, 32632])
+def test_the_plan_keeps_the_routes_shape_as_geopandas_draws_them(epsg):
+    """The comparison figure's plan takes the aspect geopandas gives a layer
+    in that CRS (geopandas' ``GeoSeries.plot`` as the reference: equal in a
+    projected CRS, 1/cos of the middle latitude in degrees), and says its
+    axes' units."""
+    import geopandas as gpd
+    from matplotlib.figure import Figure
+    from pyproj import CRS
+    from shapely.geometry import LineString
+
+    from gisgrade.output.routes_figure import plan_aspect, plan_labels
+
+    line = gpd.GeoSeries([LineString([(8.37, 47.03), (8.45, 47.04), (8.40, 47.10)])],
+                         crs="EPSG:4326").to_crs(epsg)
+    ax = Figure().add_subplot()
+    line.plot(ax=ax)
+    want = ax.get_aspect()
+    want = 1.0 if want == "equal" else want
+    y = np.asarray(line.iloc[0].coords)[:, 1]
+    assert plan_aspect(CRS.from_epsg(epsg), y) == pytest.approx(want, rel=1e-12)
+    assert plan_labels(CRS.from_epsg(epsg)) == (("longitude (deg)", "latitude (deg)") if epsg == 4326
+                                               else ("easting (metre)", "northing (metre)"))

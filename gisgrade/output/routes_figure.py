@@ -14,7 +14,7 @@ import numpy as np
 
 from .style import OKABE_ITO
 
-__all__ = ["draw_routes"]
+__all__ = ["draw_routes", "plan_aspect", "plan_labels"]
 
 #: Line styles taken in turn with the colours (a colour is never the only cue).
 DASHES = ("-", "--", "-.", ":")
@@ -28,6 +28,41 @@ def _looks(n: int):
     """(colour, line style) per route: both change from one route to the next."""
     colours = [c for k, c in OKABE_ITO.items() if k not in ("black", "yellow")]
     return [(colours[i % len(colours)], DASHES[i % len(DASHES)]) for i in range(n)]
+
+
+def plan_aspect(crs, y) -> float:
+    """The plan's aspect (the length of a unit of y over a unit of x): 1 in
+    a projected CRS; in degrees of longitude and latitude, 1 / cos of the
+    latitude in the middle of the y range of ``y``, so that a square of
+    longitude and latitude looks square there, as geopandas draws a
+    geographic layer [1]_.
+
+    >>> from pyproj import CRS
+    >>> plan_aspect(None, [4.6e6]), round(plan_aspect(CRS("EPSG:4326"), [59.0, 61.0]), 3)
+    (1.0, 2.0)
+
+    .. [1] geopandas, ``GeoSeries.plot``, argument ``aspect``: "1/cos(s_y *
+       pi/180) with s_y the y coordinate of the middle of the GeoSeries (the
+       mean of the y range of bounding box)" (geopandas.org, API reference).
+    """
+    y = np.asarray(y, dtype=float)
+    y = y[np.isfinite(y)]
+    if crs is None or not crs.is_geographic or not y.size:
+        return 1.0
+    return float(1.0 / np.cos(np.radians((y.min() + y.max()) / 2.0)))
+
+
+def plan_labels(crs) -> tuple[str, str]:
+    """The plan's axis labels: longitude and latitude in degrees, or the
+    CRS's own axes and unit (e.g. "easting (metre)")."""
+    if crs is None:
+        return "x", "y"
+    if crs.is_geographic:
+        return "longitude (deg)", "latitude (deg)"
+    axes = {a.direction: a for a in crs.axis_info}
+    east, north = axes.get("east"), axes.get("north")
+    unit = (east or north).unit_name if (east or north) else ""
+    return (f"easting ({unit})" if unit else "easting"), (f"northing ({unit})" if unit else "northing")
 
 
 def draw_routes(outcomes, table, display, path, project=None) -> None:
@@ -59,7 +94,12 @@ def draw_routes(outcomes, table, display, path, project=None) -> None:
                   alpha=0.8)
         if "hgl" in p:
             prof.plot(st, display.value(p["hgl"], "elevation"), color=colour, ls=dash, lw=2.0)
-    plan.set_aspect("equal", adjustable="datalim")
+    crs = next((p.crs for o in ok for p in o.layers.values() if p.crs is not None), None)
+    y = np.concatenate([o.plan[:, 1] for o in ok]) if ok else []
+    plan.set_aspect(plan_aspect(crs, y), adjustable="datalim")
+    xlabel, ylabel = plan_labels(crs)
+    plan.set_xlabel(xlabel, fontsize=8)
+    plan.set_ylabel(ylabel, fontsize=8)
     plan.set_title("plan (a dot marks each start)", fontsize=10, loc="left")
     plan.tick_params(labelsize=7)
     plan.ticklabel_format(useOffset=False, style="plain")
@@ -116,6 +156,7 @@ def _bars(axes, ok, looks, table, display, project=None) -> None:
     axes[0].barh(y, length, 0.7, color=colours, edgecolor="black", lw=0.5)
     axes[0].set_title(f"length ({display.unit('length')})", fontsize=9, loc="left")
     axes[1].barh(y, high - low, 0.7, left=low, color=colours, edgecolor="black", lw=0.5)
+    axes[1].use_sticky_edges = False  # a margin past the lowest bar's end, not flush on the frame
     title = f"pressure range, every scenario ({display.unit('pressure')})"
     checks = getattr(project, "checks", None)
     limits = [(getattr(checks, "min_pressure", None), "minimum"),
