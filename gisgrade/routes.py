@@ -490,8 +490,6 @@ def join_layers(parts: list, layers: dict, path) -> None:
     layers in order, which then becomes ``path``. Where they do not join
     (e.g. two CRSs without EPSG codes numbered alike), ``layers`` are written
     to ``path`` whole instead. ``parts`` are gone afterwards."""
-    import os
-
     from .output.geopackage import join_geopackages
 
     first, *rest = parts
@@ -670,8 +668,6 @@ class RoutesResult:
 def _cluster(workers: int | None, scheduler: str | None, n_routes: int):
     """A Dask client: on ``scheduler`` (an address), else a LocalCluster of
     ``workers`` processes (default: the machine's cores, at most one a route)."""
-    import os
-
     from distributed import Client, LocalCluster
 
     if scheduler:
