@@ -591,9 +591,10 @@ def test_report_renders_in_chromium_with_its_figures_and_key_numbers(demo_us, tm
         p = g[g["scenario"] == name]["pressure_kpa"] * 1e3 / PSI
         assert f"{p.max():.1f} psi" in dom, name
     assert "licensed professional engineer" in dom and "below vapour pressure (the column separates)" in dom
-    # the settings' meanings quote their quantities in feet too: 400 m = 1312 ft,
-    # 800 m = 2625 ft (NIST SP 811: 1 ft = 0.3048 m)
-    assert "1312 ft to 2625 ft is usual" in html and "800 m" not in html
+    # the settings' meanings quote their rules of thumb in feet too, as round figures:
+    # 400 m = 1312 ft and 800 m = 2625 ft (NIST SP 811: 1 ft = 0.3048 m), to two figures
+    assert "1300 ft to 2600 ft is usual" in html and "800 m" not in html
+    assert "(common practice: about 20 psi)" in html  # 140 kPa = 20.3 psi
 
 
 def test_surge_and_energy_are_shown_when_a_run_has_them(demo_si, tmp_path):
