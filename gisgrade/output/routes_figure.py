@@ -59,10 +59,9 @@ def plan_labels(crs) -> tuple[str, str]:
         return "x", "y"
     if crs.is_geographic:
         return "longitude (deg)", "latitude (deg)"
-    axes = {a.direction: a for a in crs.axis_info}
-    east, north = axes.get("east"), axes.get("north")
-    unit = (east or north).unit_name if (east or north) else ""
-    return (f"easting ({unit})" if unit else "easting"), (f"northing ({unit})" if unit else "northing")
+    axis = next((a for a in crs.axis_info if a.direction in ("east", "north")), None)
+    unit = f" ({axis.unit_name})" if axis is not None and axis.unit_name else ""
+    return f"easting{unit}", f"northing{unit}"
 
 
 def draw_routes(outcomes, table, display, path, project=None) -> None:
