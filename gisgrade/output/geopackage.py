@@ -161,7 +161,7 @@ def _move(con, schema: str, layers: list[str]) -> None:
 def _reorder(con, order: list[str]) -> None:
     """List the layers in ``order`` (GDAL lists them in ``gpkg_contents``' row
     order); layers not named keep their place after those named."""
-    rows = con.execute("SELECT * FROM main.gpkg_contents").fetchall()
+    rows = con.execute("SELECT * FROM main.gpkg_contents ORDER BY rowid").fetchall()
     if not rows:
         return
     rank = {name: i for i, name in enumerate(order)}
