@@ -508,20 +508,30 @@ def join_layers(parts: list, layers: dict, path) -> None:
 def _layers_on(client, layers: dict, tmp: Path):
     """``routes.gpkg`` written on the cluster: each worker writes a group of
     layers (:func:`layer_groups`) into a GeoPackage of its own in the folder
-    being built, at once, and one joins them (:func:`join_layers`). The
-    future of the whole; one worker: the one file written at once."""
+    being built, at once, and one joins them (:func:`join_layers`).
+    ``(writes, whole)``: the futures of the group writes and of the whole
+    file; one worker: no groups, the one file written at once."""
     workers = max(1, sum(client.nthreads().values()))
     groups = layer_groups(layers, min(workers, 3))  # (past three, the large layers are each alone)
     path = str(tmp / "routes.gpkg")
     if len(groups) == 1:
-        return client.submit(write_layers, layers, path, pure=False, key="gisgrade-routes-gpkg")
+        return [], client.submit(write_layers, layers, path, pure=False, key="gisgrade-routes-gpkg")
     parts = []
     for j, group in enumerate(groups):
         part = str(tmp / PARTS / f"routes-{j}.gpkg")
         parts.append(client.submit(_written, group, part, pure=False,
                                    key=f"gisgrade-routes-gpkg-{j}"))
-    return client.submit(join_layers, parts, layers, path, pure=False,
-                         key="gisgrade-routes-gpkg")
+    return parts, client.submit(join_layers, parts, layers, path, pure=False,
+                                key="gisgrade-routes-gpkg")
+
+
+def _on_this_machine(client) -> bool:
+    """Whether every worker of ``client`` is on this machine (a LocalCluster's
+    are, at loopback addresses): their cores are then this process's too."""
+    from urllib.parse import urlsplit
+
+    hosts = {urlsplit(a).hostname for a in client.scheduler_info().get("workers", {})}
+    return bool(hosts) and all(h in ("127.0.0.1", "localhost", "::1") for h in hosts)
 
 
 def _written(layers: dict, path: str) -> str:
@@ -601,7 +611,9 @@ class RoutesResult:
         already written there by its worker, see ``run_routes(sink=...)``, are
         not written again). ``client``: a Dask client whose workers see
         ``tmp``: ``routes.gpkg`` (and the GeoParquet layers) are then written
-        by a worker while this process writes the table and draws the figure."""
+        by the workers while this process writes the table and draws the
+        figure; on this machine the figure waits for the workers' group writes
+        (which take every core) and is drawn beside the join."""
         import time
 
         from .display import display_of
@@ -610,9 +622,10 @@ class RoutesResult:
         t0 = time.perf_counter()
         layers = self._parts()
         on_disk = all(p.path is not None for parts in layers.values() for p in parts)
-        jobs = []
+        writes, jobs = [], []
         if client is not None and on_disk and layers:
-            jobs.append(_layers_on(client, layers, tmp))
+            writes, whole = _layers_on(client, layers, tmp)
+            jobs.append(whole)
             if parquet:
                 jobs.append(client.submit(write_geoparquet, layers, str(tmp / "parquet"),
                                           pure=False, key="gisgrade-routes-parquet"))
@@ -624,9 +637,15 @@ class RoutesResult:
         write_csv(display_of(self.project).dual(table), tmp / "routes.csv")
         if parquet:
             table.to_parquet(tmp / "routes.parquet", index=False)
-        self._write_figure(tmp / "routes.png")
         for o, folder in zip(self.outcomes, self.folders):
             _put(o, tmp / folder)
+        if writes and _on_this_machine(client):
+            # the workers' group writes take every core of this machine, and the join
+            # after them one: the figure is drawn beside the join, not beside the writes
+            for w in writes:
+                w.result()
+            log.debug("routes: the groups of routes.gpkg written %.2f s", time.perf_counter() - t0)
+        self._write_figure(tmp / "routes.png")
         log.debug("routes: routes.csv, routes.png %s %.2f s", "and routes.gpkg" if not jobs
                   else "(routes.gpkg on a worker)", time.perf_counter() - t0)
         for job in jobs:

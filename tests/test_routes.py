@@ -200,6 +200,41 @@ def test_layer_groups_joined_as_one_file(tmp_path, caplog, joins):
         assert CRS.from_user_input(got.crs) == CRS.from_user_input(want.crs)
 
 
+def test_the_figure_is_drawn_beside_the_join_on_this_machine(tmp_path, caplog):
+    """On a LocalCluster (workers at loopback addresses, sharing this
+    machine's cores) routes.png is drawn once the group writes of
+    routes.gpkg are done, beside the join, not beside the writes that take
+    every core; the result is the same as ever (common practice in
+    scheduling: fill the core the serial step leaves idle)."""
+    import logging
+
+    import pyogrio
+
+    from gisgrade.output.atomic import atomic_folder
+    from gisgrade.routes import _on_this_machine, run_routes
+
+    class Client:  # what _on_this_machine reads of a distributed Client
+        def __init__(self, *addresses):
+            self.info = {"workers": dict.fromkeys(addresses, {})}
+
+        def scheduler_info(self):
+            return self.info
+
+    assert _on_this_machine(Client("tcp://127.0.0.1:40001", "tcp://127.0.0.1:40002"))
+    assert not _on_this_machine(Client("tcp://127.0.0.1:40001", "tcp://10.0.0.5:8788"))
+    assert not _on_this_machine(Client())
+    project = make_site(tmp_path)
+    with caplog.at_level(logging.DEBUG, logger="gisgrade"):
+        with atomic_folder(tmp_path / "out", inputs=[project]) as tmp:
+            run_routes(project, workers=2, sink=tmp)
+    said = [r.getMessage() for r in caplog.records if r.getMessage().startswith("routes:")]
+    groups = next(i for i, m in enumerate(said) if "groups of routes.gpkg written" in m)
+    figure = next(i for i, m in enumerate(said) if "routes.png" in m)
+    assert groups < figure
+    assert (tmp_path / "out" / "routes.png").is_file()
+    assert "pipe_pressure" in [n for n, _ in pyogrio.list_layers(tmp_path / "out" / "routes.gpkg")]
+
+
 def test_the_folder_holds_only_the_result(routes_run):
     """The workers' Arrow parts and the folder of the failed route are gone; the
     manifest lists every file (written last, after the workers' own files)."""
