@@ -16,7 +16,11 @@ benchmarks/_data/, git-ignored):
 ``routes``
     ``--routes`` straight routes of 2 to 10 km (default 200) at
     ``--spacing`` (default 2 m) through ``gisgrade routes`` with 1 and 2
-    workers, printing routes per second; beside it the naive baseline
+    workers, in ``--repeat`` pairs run one after the other (so that a busy
+    spell of a shared machine hits both of a pair; the ratio is the median of
+    the pairs'), printing routes per second and CPU seconds (the ratio that
+    both cores busy all the time would give with those CPU seconds shows
+    whether 2 workers lose time to idle cores or to extra work); beside it the naive baseline
     measured in the same run: one ``gisgrade run`` process per route, over
     the first ``--naive`` routes (default 10), as seconds a route. Targets:
     the time a route in ``routes`` at most a third of a standalone run; 2
@@ -30,6 +34,7 @@ Run from the repository root::
     python benchmarks/bench_run.py                       # both cases
     python benchmarks/bench_run.py --case long --repeat 7
     python benchmarks/bench_run.py --case routes --routes 40
+    python benchmarks/bench_run.py --case routes --repeat 5   # 5 pairs
 
 It prints the figures; it asserts nothing.
 """
@@ -37,6 +42,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import shutil
 import statistics
 import subprocess
 import sys
@@ -83,16 +89,17 @@ def project(folder: Path, lines, spacing: float, names=None) -> Path:
     return path
 
 
-def timed(cmd, cwd=ROOT) -> tuple[float, float]:
-    """Wall seconds and peak RSS (MiB, of the process tree's largest) of ``cmd``."""
+def timed(cmd, cwd=ROOT) -> tuple[float, float, float]:
+    """Wall seconds, peak RSS (MiB, of the process tree's largest) and CPU
+    seconds (user + system, the process and the children it waited for) of ``cmd``."""
     t0 = time.perf_counter()
-    proc = subprocess.run(["/usr/bin/time", "-f", "%M", *cmd], capture_output=True, text=True,
-                          cwd=cwd)
+    proc = subprocess.run(["/usr/bin/time", "-f", "%M %U %S", *cmd], capture_output=True,
+                          text=True, cwd=cwd)
     dt = time.perf_counter() - t0
     if proc.returncode not in (0, 1):
         raise SystemExit(f"{cmd[:3]} failed ({proc.returncode}): {proc.stderr[-800:]}")
-    peak = float(proc.stderr.strip().splitlines()[-1]) / 1024.0
-    return dt, peak
+    peak, user, system = map(float, proc.stderr.strip().splitlines()[-1].split())
+    return dt, peak / 1024.0, user + system
 
 
 SAMPLER = """
@@ -124,7 +131,7 @@ def case_long(repeat: int, figures: bool) -> None:
     print(f"long line: {ground.ROUTE_M / 1000:.0f} km at {ground.SPACING} m ({station.size} stations), "
           f"DEM {ground.SIZE}^2 tiled; medians of {repeat}"
           + ("" if figures else "; no figures (--no-figures)"))
-    med = {k: (statistics.median(t for t, _ in v), statistics.median(m for _, m in v))
+    med = {k: (statistics.median(r[0] for r in v), statistics.median(r[1] for r in v))
            for k, v in runs.items()}
     for k, (t, m) in med.items():
         print(f"  {k:<18} {t:6.2f} s  {m:6.0f} MB peak")
@@ -175,21 +182,31 @@ def two_at_once() -> float:
     return min(two(), two()) / alone
 
 
-def case_routes(n: int, spacing: float, naive: int) -> None:
+def case_routes(n: int, spacing: float, naive: int, pairs: int) -> None:
     lines = random_routes(n)
     km = sum(float(np.hypot(*np.subtract(b, a))) for a, b in lines) / 1000.0
     with tempfile.TemporaryDirectory() as tmp:
         folder = Path(tmp)
         p = project(folder, lines, spacing)
-        print(f"routes: {n} straight routes of 2-10 km ({km:.0f} km in all) at {spacing} m stations")
+        print(f"routes: {n} straight routes of 2-10 km ({km:.0f} km in all) at {spacing} m stations; "
+              f"1 and 2 workers in {pairs} pairs, run one after the other (the order turned "
+              "each pair), so that a busy spell of the machine hits both runs of a pair")
         before = two_at_once()
-        per = {}
-        for workers in (1, 2):
-            t, m = timed([sys.executable, "-m", "gisgrade", "routes", str(p), "-o",
-                          str(folder / f"out{workers}"), "--workers", str(workers), "-q"])
-            per[workers] = t
-            print(f"  gisgrade routes --workers {workers}: {t:7.1f} s, {n / t:5.2f} routes/s, "
-                  f"{t / n:5.2f} s a route, {m:.0f} MB peak (largest process)")
+        runs = {1: [], 2: []}
+        for i in range(pairs):
+            for workers in ((1, 2) if i % 2 == 0 else (2, 1)):
+                out = folder / f"out{workers}"
+                runs[workers].append(timed([sys.executable, "-m", "gisgrade", "routes", str(p),
+                                            "-o", str(out), "--workers", str(workers), "-q"]))
+                shutil.rmtree(out)  # (each run writes a new folder, as a first run does)
+            (w1, _, c1), (w2, _, c2) = runs[1][-1], runs[2][-1]
+            print(f"  pair {i + 1}: 1 worker {w1:6.1f} s ({c1:5.1f} s CPU), "
+                  f"2 workers {w2:6.1f} s ({c2:5.1f} s CPU): {w2 / w1:.2f}")
+        med = {w: [statistics.median(r[k] for r in v) for k in range(3)] for w, v in runs.items()}
+        for w, (t, m, c) in med.items():
+            print(f"  gisgrade routes --workers {w}: {t:7.1f} s, {n / t:5.2f} routes/s, "
+                  f"{t / n:5.2f} s a route, {c:6.1f} s CPU, {m:.0f} MB peak (largest process); "
+                  f"medians")
         alone = []
         for i in range(min(naive, n)):
             q = folder / f"alone{i}"
@@ -201,8 +218,12 @@ def case_routes(n: int, spacing: float, naive: int) -> None:
         base = statistics.mean(alone)
         print(f"  naive: one `gisgrade run` process a route, first {len(alone)} routes: "
               f"{base:5.2f} s a route ({1 / base:5.2f} routes/s)")
-        print(f"  a route in `routes` (1 worker) / alone: {per[1] / n / base:.2f} (target <= 0.33)")
-        print(f"  2 workers / 1 worker: {per[2] / per[1]:.2f} (target <= 0.6)")
+        print(f"  a route in `routes` (1 worker) / alone: {med[1][0] / n / base:.2f} "
+              "(target <= 0.33)")
+        ratios = sorted(b[0] / a[0] for a, b in zip(runs[1], runs[2]))
+        print(f"  2 workers / 1 worker: {statistics.median(ratios):.2f}, the median of the pairs "
+              f"({ratios[0]:.2f} to {ratios[-1]:.2f}) (target <= 0.6); both cores busy all the "
+              f"time with the CPU seconds used would give {med[2][2] / 2 / med[1][0]:.2f}")
         print(f"  two CPU-bound processes at once / one alone: {before:.2f} before the runs, "
               f"{two_at_once():.2f} after (1.00: two whole cores free; more: the cores are "
               "shared, and 2 workers gain less)")
@@ -223,7 +244,7 @@ def main() -> None:
     if args.case in ("long", "both"):
         case_long(args.repeat, args.figures)
     if args.case in ("routes", "both"):
-        case_routes(args.routes, args.spacing, args.naive)
+        case_routes(args.routes, args.spacing, args.naive, args.repeat)
 
 
 if __name__ == "__main__":
