@@ -818,13 +818,22 @@ def stage_alignment(project, frame=None):
     kind``, the cover limits per station, and point-layer offtakes as
     ``offtake_m3_s``). Returns ``(line, crossings, table)``. ``frame``: the
     route's features already read (a GeoDataFrame, one route of ``routes``)
-    in place of the ``[alignment]`` file."""
+    in place of the ``[alignment]`` file. With ``[alignment] route_field``
+    and no ``frame``, the layer (after ``where`` / ``feature``) must hold one
+    route by that field; several are refused (:func:`~gisgrade.routes.several_routes`)."""
     import pandas as pd
 
     from .pipe import special_stations
     from .terrain import vertical_unit_factor
 
     cfg = project.alignment
+    if frame is None and cfg.route_field is not None:  # a layer of routes: one must be picked
+        from .routes import read_routes, several_routes
+
+        routes = read_routes(project)
+        if len(routes) > 1:
+            raise InputError(several_routes(routes, cfg))
+        frame = routes[0][1]
     if frame is None:
         line = read_alignment(cfg.path, layer=cfg.layer, reverse=cfg.reverse, where=cfg.where,
                               feature=cfg.feature, start_station=cfg.start_station)

@@ -81,7 +81,8 @@ class AlignmentConfig:
     feature: int | None = key("feature", "feature id (FID) picking one route", None)
     start_station: float = key("length", "station of the first point", 0.0, "0 m")
     route_field: str | None = key("text", "attribute naming each feature's route for "
-                                  "`gisgrade routes` (each feature a route when unset)", None)
+                                  "`gisgrade routes` (each feature a route when unset); "
+                                  "`run` then needs `where` picking one route", None)
 
     def _rules(self, t: _Table) -> AlignmentConfig:
         if self.where is not None and self.feature is not None:

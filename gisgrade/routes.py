@@ -102,7 +102,35 @@ def read_routes(project) -> list[tuple[str, object]]:
     cfg = project.alignment
     gdf = read_vector(cfg.path, "alignment.path", layer=cfg.layer, where=cfg.where,
                       fids=None if cfg.feature is None else [cfg.feature])
+    if len(gdf) == 0 and (cfg.where is not None or cfg.feature is not None):
+        chosen = (f"matching alignment.where = {cfg.where!r}" if cfg.where is not None
+                  else f"with alignment.feature = {cfg.feature}")
+        raise InputError(f"alignment.path: {cfg.path.name} holds no line feature {chosen}")
     return group_routes(gdf, cfg.route_field, "alignment.path", cfg.path.name)
+
+
+def several_routes(routes, cfg) -> str:
+    """The one-line refusal of a single-route command (``run``, ``profile``)
+    given a layer of several routes by ``[alignment] route_field``: how many,
+    which, and how to pick one or run them all.
+
+    >>> from types import SimpleNamespace as NS
+    >>> cfg = NS(route_field="name", path=NS(name="mains.gpkg"))
+    >>> print(several_routes([("east", None), ("west", None)], cfg))  # doctest: +NORMALIZE_WHITESPACE
+    alignment.route_field: mains.gpkg holds 2 routes by 'name' (east, west); a run sets out
+    one: pick it with [alignment] where = "name = 'east'", or run every route with
+    `gisgrade routes`
+    """
+    names = [n for n, _ in routes]
+    shown = ", ".join(names[:4]) + (f" and {len(names) - 4} more" if len(names) > 4 else "")
+    field_name, first = cfg.route_field, names[0]
+    if re.fullmatch(r"[A-Za-z_]\w*", field_name) and "'" not in first and '"' not in first:
+        pick = f"with [alignment] where = \"{field_name} = '{first}'\""
+    else:
+        pick = f"with [alignment] where (an attribute filter on {field_name!r})"
+    return (f"alignment.route_field: {cfg.path.name} holds {len(names)} routes by "
+            f"{field_name!r} ({shown}); a run sets out one: pick it {pick}, or run every "
+            "route with `gisgrade routes`")
 
 
 def _unique_folders(names) -> list[str]:

@@ -376,6 +376,7 @@ def _cli(args, capsys):
     ("both", "one or the other"),
     ("scheduler", "cannot reach a Dask scheduler"),
     ("points", "routes must be lines"),
+    ("nothing", "holds no line feature matching alignment.where = \"name = 'Z'\""),
 ])
 def test_bad_input_to_the_command(tmp_path, capsys, case, message):
     project = make_site(tmp_path)
@@ -389,6 +390,9 @@ def test_bad_input_to_the_command(tmp_path, capsys, case, message):
         args += ["--scheduler", "tcp://127.0.0.1:1"]
     elif case == "scheduler":
         args = args[:4] + ["--scheduler", "tcp://127.0.0.1:9"]
+    elif case == "nothing":  # a filter that leaves no route
+        project.write_text(project.read_text().replace('route_field = "name"',
+                                                       'route_field = "name"\nwhere = "name = \'Z\'"'))
     elif case == "points":
         (tmp_path / "lines.geojson").write_text(json.dumps({
             "type": "FeatureCollection", "features": [{"type": "Feature", "properties": {"name": "a"},
@@ -400,6 +404,42 @@ def test_bad_input_to_the_command(tmp_path, capsys, case, message):
     assert len(err) == 1 and message in err[0], err
     assert "Traceback" not in "\n".join(err)
     assert sorted(p.name for p in tmp_path.iterdir()) == before  # nothing written
+
+
+@pytest.mark.parametrize("command", ["run", "profile"])
+def test_a_single_route_command_refuses_a_layer_of_routes(tmp_path, capsys, command):
+    """`gisgrade run` and `profile` set out one centerline: on a layer of
+    several routes by route_field they say how many, which, and how to pick
+    one (or run them all), in one line, exit 2, nothing written (the house
+    rule for bad input); `where` picking one route runs it."""
+    project = make_site(tmp_path)
+    before = sorted(p.name for p in tmp_path.iterdir())
+    status, err = _cli([command, str(project), "-o", str(tmp_path / "o"), "-q"], capsys)
+    assert status == 2 and len(err) == 1, err
+    assert ("alignment.route_field: lines.geojson holds 4 routes by 'name' (A, B/north, C, D)"
+            in err[0]), err
+    assert """where = "name = 'A'\"""" in err[0] and "gisgrade routes" in err[0]
+    assert sorted(p.name for p in tmp_path.iterdir()) == before
+    text = project.read_text().replace('route_field = "name"', 'route_field = "name"\nwhere = "name = \'C\'"')
+    project.write_text(text)
+    status, err = _cli([command, str(project), "-o", str(tmp_path / "o"), "-q"], capsys)
+    assert status == 0, err
+
+
+def test_check_checks_each_route_of_a_layer_of_routes(tmp_path, capsys):
+    """`gisgrade check` on a layer of routes checks each as `routes` runs it:
+    the route off the DEM is named with its problem, the others pass, and
+    what concerns the whole project is said once, not once a route."""
+    project = make_site(tmp_path)  # a cover deeper than usual: a warning on the whole project
+    project.write_text(project.read_text().replace('minimum = "1.2 m"', 'minimum = "6 m"'))
+    status, err = _cli(["check", str(project)], capsys)
+    assert status == 2
+    errors = [e for e in err if e.startswith("gisgrade: error: ")]
+    assert len(errors) == 1 and errors[0].startswith("gisgrade: error: route 'D': terrain.dem: "
+                                                     "outside every DEM"), err
+    assert not any(f"route '{n}'" in e for e in err for n in GOOD), err
+    deep = [e for e in err if "cover.minimum = 6 m is deeper" in e]
+    assert len(deep) == 1 and "route '" not in deep[0], err
 
 
 def test_progress_bar_counts_routes():

@@ -14,8 +14,9 @@ def check_project(path, *, ground_only: bool = False) -> list:
     :class:`~gisgrade.screening.Problem` records, errors first: each bad key
     (all of them, not the first), then what the files show (the line, the
     DEM, the ground, the crossings, the pipe and flows: the stages run up to
-    the hydraulics), then an earlier result folder without a valid manifest.
-    Writes nothing."""
+    the hydraulics; each route on its own, named, where ``[alignment]
+    route_field`` groups the layer into several), then an earlier result
+    folder without a valid manifest. Writes nothing."""
     from ..display import display_of, using
     from ..errors import InputError
     from ..output.atomic import verify_folder
@@ -32,7 +33,17 @@ def check_project(path, *, ground_only: bool = False) -> list:
     if project is None:
         return problems
     with using(display_of(project)):
-        problems += _stages(project, ground_only, error, screen, screen_config, screen_dems)
+        problems += screen_config(project) + screen_dems(project, project.alignment.spacing)
+        try:
+            routes = _routes(project)
+        except InputError as exc:
+            return problems + [error(str(exc))]
+        whole = set(problems)  # (the stages repeat these; said once, not for each route)
+        for name, frame in routes:  # each route of a layer of several on its own
+            said = [p for p in _stages(project, ground_only, frame, error, screen)
+                    if p not in whole]
+            problems += said if name is None else [
+                type(p)(p.level, f"route {name!r}: {p.text}") for p in said]
     out = resolve_outdir(project)
     if out.is_dir():
         try:
@@ -43,17 +54,30 @@ def check_project(path, *, ground_only: bool = False) -> list:
     return sorted(unique, key=lambda p: p.level != "error")
 
 
-def _stages(project, ground_only, error, screen, screen_config, screen_dems) -> list:
+def _routes(project) -> list:
+    """``[(name, features)]`` of a layer of several routes by ``[alignment]
+    route_field`` (each checked on its own, as ``gisgrade routes`` runs them),
+    else ``[(None, None)]``: the one centerline."""
+    if project.alignment.route_field is None:
+        return [(None, None)]
+    from ..routes import read_routes
+
+    routes = read_routes(project)
+    return routes if len(routes) > 1 else [(None, None)]
+
+
+def _stages(project, ground_only, frame, error, screen) -> list:
+    """What the files show of one centerline (``frame``: a route's features,
+    or None for the project's own): its stages run up to the hydraulics."""
     from ..alignment import stage_alignment
     from ..errors import InputError
     from ..terrain import stage_terrain
 
-    early = screen_config(project) + screen_dems(project, project.alignment.spacing)
     try:
-        line, crossings, table = stage_alignment(project)
+        line, crossings, table = stage_alignment(project, frame)
         table, _ = stage_terrain(project, line, table)
     except InputError as exc:
-        return early + [error(str(exc))]
+        return [error(str(exc))]
     problems = screen(project, line, crossings, table)
     if ground_only or project.pipe is None or any(p.level == "error" for p in problems):
         return problems
