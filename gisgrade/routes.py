@@ -715,6 +715,7 @@ class RoutesResult:
 def _cluster(workers: int | None, scheduler: str | None, n_routes: int):
     """A Dask client: on ``scheduler`` (an address), else a LocalCluster of
     ``workers`` processes (default: the machine's cores, at most one a route)."""
+    import dask
     from distributed import Client, LocalCluster
 
     if scheduler:
@@ -728,9 +729,44 @@ def _cluster(workers: int | None, scheduler: str | None, n_routes: int):
         log.warning("--workers %d: more worker processes than the %d cores only adds start-up "
                     "time and memory", workers, cores)
     n = min(workers or cores, n_routes)  # never more workers than routes
-    cluster = LocalCluster(n_workers=max(1, n), threads_per_worker=1, processes=True,
-                           dashboard_address=None, silence_logs=logging.ERROR)
+    # (set before each worker process starts, which glibc's malloc needs; a
+    # Nanny's own ``env`` is applied once the process runs)
+    spawn = "distributed.nanny.pre-spawn-environ"
+    environ = {**dask.config.get(spawn, default={}), **worker_environment()}
+    with dask.config.set({spawn: environ}):
+        cluster = LocalCluster(n_workers=max(1, n), threads_per_worker=1, processes=True,
+                               dashboard_address=None, silence_logs=logging.ERROR)
     return Client(cluster), cluster
+
+
+#: glibc's malloc settings for a LocalCluster's workers. Dask starts its
+#: workers with ``MALLOC_TRIM_THRESHOLD_=65536`` (for long-lived workers, to
+#: give memory back to the system at once), which also fixes the size from
+#: which a block is mapped afresh from the kernel (mmap) and unmapped on
+#: free at its 128 KiB default: every array of a route's stations and DEM
+#: window then faults its pages in one by one, route after route. Our workers
+#: live for one command: blocks up to 32 MiB (glibc's ceiling for the mmap
+#: threshold on 64-bit) come from the heap and the heap is kept. See
+#: mallopt(3), M_MMAP_THRESHOLD and M_TRIM_THRESHOLD. A variable this
+#: process was started with is passed on instead.
+MALLOC_ENVIRONMENT = {"MALLOC_MMAP_THRESHOLD_": str(32 << 20),
+                      "MALLOC_TRIM_THRESHOLD_": str(1 << 30)}
+
+
+def worker_environment() -> dict[str, str]:
+    """The environment variables a LocalCluster's worker processes get over
+    Dask's own (``distributed.nanny.pre-spawn-environ``): glibc's malloc
+    thresholds (:data:`MALLOC_ENVIRONMENT`), each as this process has it
+    where it has it.
+
+    >>> env = worker_environment()
+    >>> sorted(env)
+    ['MALLOC_MMAP_THRESHOLD_', 'MALLOC_TRIM_THRESHOLD_']
+    >>> import os
+    >>> env["MALLOC_MMAP_THRESHOLD_"] == os.environ.get("MALLOC_MMAP_THRESHOLD_", "33554432")
+    True
+    """
+    return {k: os.environ.get(k, v) for k, v in MALLOC_ENVIRONMENT.items()}
 
 
 def run_routes(project, lines=None, *, workers: int | None = None, scheduler: str | None = None,

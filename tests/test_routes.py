@@ -10,6 +10,7 @@ The terrain and lines are invented for the test.
 from __future__ import annotations
 
 import json
+import platform
 import shutil
 import sqlite3
 import sys
@@ -502,6 +503,46 @@ def test_never_more_workers_than_routes(monkeypatch):
     monkeypatch.setattr(distributed, "Client", lambda cluster: None)
     routes._cluster(500, None, 3)
     assert seen["n"] == 3
+
+
+def _start_environ_and_faults():
+    """(Run in a worker.) The malloc variables this process was started with
+    (/proc/self/environ: what it got at exec, not what was set since) and the
+    page faults of 200 allocations and frees of a 2 MiB array."""
+    import os
+    import resource
+
+    raw = open(f"/proc/{os.getpid()}/environ", "rb").read().split(b"\0")
+    start = dict(kv.decode().split("=", 1) for kv in raw if b"MALLOC_" in kv)
+    before = resource.getrusage(resource.RUSAGE_SELF).ru_minflt
+    for _ in range(200):
+        np.ones(1 << 18).sum()
+    return start, resource.getrusage(resource.RUSAGE_SELF).ru_minflt - before
+
+
+@pytest.mark.skipif(not sys.platform.startswith("linux") or platform.libc_ver()[0] != "glibc",
+                    reason="glibc on Linux only")
+def test_local_workers_start_with_malloc_keeping_its_heap(monkeypatch):
+    """Dask starts its workers with MALLOC_TRIM_THRESHOLD_=65536, which fixes
+    glibc's mmap threshold at 128 KiB: every array larger is mapped from the
+    kernel and unmapped on free, its 512 pages of 4 KiB faulting in again
+    each time (mallopt(3): M_MMAP_THRESHOLD, M_TRIM_THRESHOLD). The workers
+    of `routes` start (before exec, as glibc reads them) with the heap kept
+    and blocks to 32 MiB from it: 200 rounds of a 2 MiB array fault a few
+    pages, not ~100 000."""
+    from gisgrade import routes
+
+    for k in routes.MALLOC_ENVIRONMENT:
+        monkeypatch.delenv(k, raising=False)
+    client, cluster = routes._cluster(1, None, 1)
+    try:
+        (start, faults), = client.run(_start_environ_and_faults).values()
+    finally:
+        client.close()
+        cluster.close()
+    assert start["MALLOC_MMAP_THRESHOLD_"] == str(32 << 20)
+    assert start["MALLOC_TRIM_THRESHOLD_"] == str(1 << 30)
+    assert faults < 200 * 512 / 20, faults
 
 
 def test_routes_csv_names_each_route_folder(routes_run):
