@@ -351,7 +351,7 @@ class DesignConfig:
                                   "(0: least excavation, following every ripple)", 10.0, "10 m3")
     high_point_tolerance: float | None = key("length>=0", "high and low points less prominent "
                                              "than this are designed out (default: the DEM's "
-                                             "95 % band)", None)
+                                             "95 % band, at most 0.5 m)", None)
     curve_joints: float = key("number>0", "joints a plan turn may be spread over before a bend "
                               "fitting is used", 3.0, 3)
 
