@@ -142,6 +142,22 @@ def test_verbosity_levels_differ(tmp_path, capsys):
     assert "stage write" in two and "writer profile.csv" in two
 
 
+def test_vv_shows_the_libraries_warnings_not_their_debug_records():
+    # `--help`: "-vv: each writer's time and the libraries' warnings"; their debug
+    # records (matplotlib's font search alone is hundreds of lines) stay off
+    import logging
+
+    from gisgrade.cli import setup_logging
+
+    for verbose, warns in ((0, False), (2, True)):
+        setup_logging(verbose, False)
+        for name in ("matplotlib.font_manager", "rasterio._env", "pyogrio"):
+            lib = logging.getLogger(name)
+            assert lib.isEnabledFor(logging.WARNING) is warns, (verbose, name)
+            assert not lib.isEnabledFor(logging.DEBUG), (verbose, name)
+    setup_logging(0, False)
+
+
 def test_library_warnings_never_precede_the_one_line_error(tmp_path, capsys, monkeypatch):
     # A library warning raised on the way to a refusal stays off stderr (logged at -vv).
     import warnings

@@ -75,12 +75,13 @@ def setup_logging(verbose: int, quiet: bool) -> tuple[int, bool]:
     log.addHandler(handler)
     log.setLevel(level)
     log.propagate = False
-    # The libraries' own log records (GDAL through rasterio, pyogrio, ...) go to
-    # our handler at -vv only, never to Python's last-resort stderr handler.
+    # The libraries' own warnings (GDAL through rasterio, pyogrio, ...) go to our
+    # handler at -vv only, never to Python's last-resort stderr handler; their
+    # debug records (matplotlib's font search: hundreds of lines) never.
     for name in LIBRARY_LOGGERS:
         lib = logging.getLogger(name)
         lib.handlers[:] = [handler] if verbose >= 2 and not quiet else [logging.NullHandler()]
-        lib.setLevel(logging.DEBUG if verbose >= 2 else logging.CRITICAL)
+        lib.setLevel(logging.WARNING if verbose >= 2 else logging.CRITICAL)
         lib.propagate = False
     return verbose, quiet
 
