@@ -597,3 +597,45 @@ def test_the_plan_keeps_the_routes_shape_as_geopandas_draws_them(epsg):
     assert plan_aspect(CRS.from_epsg(epsg), y) == pytest.approx(want, rel=1e-12)
     assert plan_labels(CRS.from_epsg(epsg)) == (("longitude (deg)", "latitude (deg)") if epsg == 4326
                                                else ("easting (metre)", "northing (metre)"))
+
+
+def test_the_comparison_draws_a_collection_a_kind_of_line_not_an_artist_a_route(monkeypatch,
+                                                                               tmp_path):
+    """routes.png over many routes: the plan, the ground and the HGL are one
+    collection each (hundreds of routes, not hundreds of artists), each route
+    in its own colour and dash in the routes' order, the named legend kept
+    for a few routes (matplotlib's LineCollection: one path, colour and line
+    style per line)."""
+    from types import SimpleNamespace as NS
+
+    from matplotlib.collections import LineCollection
+    from matplotlib.colors import to_rgba
+    from matplotlib.figure import Figure
+
+    from gisgrade.display import Display
+    from gisgrade.output import routes_figure as rf
+
+    drawn = []
+    monkeypatch.setattr(Figure, "savefig", lambda fig, *a, **k: drawn.append(fig))
+    for n in (30, 3):
+        st = np.linspace(0.0, 1000.0, 11)
+        ok = [NS(name=f"r{i}", error=None, layers={},
+                 plan=np.column_stack([500_000.0 + st, np.full(11, Y0 + 10.0 * i)]),
+                 profile={"station": st, "ground": 100.0 + i + 0 * st, "hgl": 150.0 - st / 100})
+              for i in range(n)]
+        table = pd.DataFrame({"route": [o.name for o in ok], "status": "ok",
+                              "length_m": 1000.0, "min_pressure_kpa": 300.0,
+                              "max_pressure_kpa": 500.0})
+        rf.draw_routes(ok, table, Display(), tmp_path / "routes.png")
+        plan, prof = drawn[-1].axes[:2]
+        assert not plan.lines and not prof.lines
+        lines = [c for c in plan.collections if isinstance(c, LineCollection)]
+        assert len(lines) == 1 and len(lines[0].get_paths()) == n
+        looks = rf._looks(n)
+        assert [tuple(c) for c in lines[0].get_colors()] == [to_rgba(c) for c, _ in looks]
+        assert len([c for c in prof.collections if isinstance(c, LineCollection)]) == 2
+        assert plan.get_xlim()[0] <= 500_000.0 and plan.get_xlim()[1] >= 501_000.0
+        legend = plan.get_legend()
+        assert (legend is None) == (n > rf.MAX_NAMED)
+        if legend is not None:
+            assert [t.get_text() for t in legend.get_texts()] == [o.name for o in ok]

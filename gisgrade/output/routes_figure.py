@@ -82,17 +82,18 @@ def draw_routes(outcomes, table, display, path, project=None) -> None:
                  + (f", {len(failed)} failed" if failed else ""), fontsize=13, x=0.06, ha="left")
     named = len(ok) <= MAX_NAMED  # beyond it, names in plan and legend are unreadable
     L, E = display.unit("length"), display.unit("elevation")
-    for o in ok:
-        colour, dash = looks[o.name]
-        plan.plot(o.plan[:, 0], o.plan[:, 1], color=colour, ls=dash, lw=1.8 if named else 0.8,
-                  label=o.name if named else None)
-        plan.plot(*o.plan[0], "o", color=colour, ms=5 if named else 2)
-        p = o.profile
-        st = display.value(p["station"], "length")
-        prof.plot(st, display.value(p["ground"], "elevation"), color=colour, ls=dash, lw=1.0,
-                  alpha=0.8)
-        if "hgl" in p:
-            prof.plot(st, display.value(p["hgl"], "elevation"), color=colour, ls=dash, lw=2.0)
+    # one collection a panel and kind of line, not an artist a route (hundreds of routes)
+    colours, dashes = [looks[o.name][0] for o in ok], [looks[o.name][1] for o in ok]
+    _lines(plan, [o.plan for o in ok], colours, dashes, 1.8 if named else 0.8)
+    if ok:
+        plan.scatter([o.plan[0, 0] for o in ok], [o.plan[0, 1] for o in ok], c=colours,
+                     s=25 if named else 4, zorder=3)
+    st = [display.value(o.profile["station"], "length") for o in ok]
+    _lines(prof, [np.column_stack([s, display.value(o.profile["ground"], "elevation")])
+                  for s, o in zip(st, ok)], colours, dashes, 1.0, alpha=0.8)
+    hgl = [i for i, o in enumerate(ok) if "hgl" in o.profile]
+    _lines(prof, [np.column_stack([st[i], display.value(ok[i].profile["hgl"], "elevation")])
+                  for i in hgl], [colours[i] for i in hgl], [dashes[i] for i in hgl], 2.0)
     crs = next((p.crs for o in ok for p in o.layers.values() if p.crs is not None), None)
     y = np.concatenate([o.plan[:, 1] for o in ok]) if ok else []
     plan.set_aspect(plan_aspect(crs, y), adjustable="datalim")
@@ -107,7 +108,10 @@ def draw_routes(outcomes, table, display, path, project=None) -> None:
     plan.xaxis.set_major_locator(MaxNLocator(4))  # long grid coordinates: few ticks
     plan.grid(alpha=0.25)
     if ok and named:
-        plan.legend(fontsize=8, loc="best")
+        from matplotlib.lines import Line2D
+
+        plan.legend(handles=[Line2D([], [], color=c, ls=d, lw=1.8, label=o.name)
+                             for o, c, d in zip(ok, colours, dashes)], fontsize=8, loc="best")
     elif ok:
         plan.set_title(f"plan of {len(ok)} routes (too many to name; routes.csv lists them)",
                        fontsize=10, loc="left")
@@ -129,6 +133,18 @@ def draw_routes(outcomes, table, display, path, project=None) -> None:
 
     fig.text(0.98, 0.005, SHORT, fontsize=7, color="#555555", ha="right", va="bottom")
     fig.savefig(path, dpi=110)
+
+
+def _lines(ax, xy, colours, dashes, width, alpha=None) -> None:
+    """The lines ``xy`` (each an (n, 2) array) on ``ax`` as one collection,
+    each with its colour and dash, the axes' limits taken in."""
+    if not xy:
+        return
+    from matplotlib.collections import LineCollection
+
+    ax.add_collection(LineCollection(xy, colors=colours, linestyles=dashes, linewidths=width,
+                                     alpha=alpha), autolim=True)
+    ax.autoscale_view()
 
 
 def _bars(axes, ok, looks, table, display, project=None) -> None:
