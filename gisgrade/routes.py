@@ -746,9 +746,10 @@ def _cluster(workers: int | None, scheduler: str | None, n_routes: int):
 #: free at its 128 KiB default: every array of a route's stations and DEM
 #: window then faults its pages in one by one, route after route. Our workers
 #: live for one command: blocks up to 32 MiB (glibc's ceiling for the mmap
-#: threshold on 64-bit) come from the heap and the heap is kept. See
-#: mallopt(3), M_MMAP_THRESHOLD and M_TRIM_THRESHOLD. A variable this
-#: process was started with is passed on instead.
+#: threshold on 64-bit, 4 * 1024 * 1024 * sizeof(long)) come from the heap and
+#: the heap is kept. See mallopt(3), M_MMAP_THRESHOLD and M_TRIM_THRESHOLD (the
+#: ceiling from memory of that page; tests/test_routes.py measures the faults).
+#: A variable this process was started with is passed on instead.
 MALLOC_ENVIRONMENT = {"MALLOC_MMAP_THRESHOLD_": str(32 << 20),
                       "MALLOC_TRIM_THRESHOLD_": str(1 << 30)}
 
