@@ -133,15 +133,25 @@ def several_routes(routes, cfg) -> str:
             "route with `gisgrade routes`")
 
 
+#: What ``routes`` writes beside the route folders (and SQLite's files beside
+#: the GeoPackage while it is written), lower case: never a route's folder.
+RESERVED = frozenset({"routes.csv", "routes.gpkg", "routes.png", "routes.parquet", "parquet",
+                      "manifest.json", "routes.gpkg-journal", "routes.gpkg-wal",
+                      "routes.gpkg-shm"})
+
+
 def _unique_folders(names) -> list[str]:
     """A folder per route, apart even on a case-blind file system: a name that
     is already a folder name keeps it; the others get theirs made safe, with
-    ``-2``, ``-3`` ... where it is taken (``routes.csv`` has each route's folder).
+    ``-2``, ``-3`` ... where it is taken (``routes.csv`` has each route's folder),
+    as are the names of what ``routes`` writes beside them (:data:`RESERVED`).
 
     >>> _unique_folders(["Route/B", "Route_B", "a", "A"])
     ['Route_B-2', 'Route_B', 'a', 'A-2']
+    >>> _unique_folders(["Routes.CSV", "manifest.json"])
+    ['Routes.CSV-2', 'manifest.json-2']
     """
-    taken, out = set(), [None] * len(names)
+    taken, out = set(RESERVED), [None] * len(names)
     for i, n in enumerate(names):  # exact names first, in order
         if folder_name(n) == str(n) and str(n).lower() not in taken:
             out[i] = str(n)

@@ -639,3 +639,18 @@ def test_the_comparison_draws_a_collection_a_kind_of_line_not_an_artist_a_route(
         assert (legend is None) == (n > rf.MAX_NAMED)
         if legend is not None:
             assert [t.get_text() for t in legend.get_texts()] == [o.name for o in ok]
+
+
+def test_a_route_named_like_a_file_of_the_run_gets_a_folder_of_its_own(tmp_path, capsys):
+    """Routes named "routes.csv" and "MANIFEST.json" (any case) run like the
+    others, in folders beside those files ("routes.csv-2"), not over them."""
+    make_site(tmp_path)
+    write_lines(tmp_path / "lines.geojson", LINES[:2],
+                props=[{"name": "Routes.CSV"}, {"name": "MANIFEST.json"}])
+    out = tmp_path / "o"
+    status, err = _cli(["routes", str(tmp_path / "project.toml"), "-o", str(out), "--workers", "0",
+                        "-q"], capsys)
+    assert status == 0, err
+    t = pd.read_csv(out / "routes.csv", keep_default_na=False)
+    assert list(dict.fromkeys(t["folder"])) == ["Routes.CSV-2", "MANIFEST.json-2"]
+    assert (out / "Routes.CSV-2" / "summary.json").is_file() and (out / "MANIFEST.json").is_file()
