@@ -654,3 +654,15 @@ def test_a_route_named_like_a_file_of_the_run_gets_a_folder_of_its_own(tmp_path,
     t = pd.read_csv(out / "routes.csv", keep_default_na=False)
     assert list(dict.fromkeys(t["folder"])) == ["Routes.CSV-2", "MANIFEST.json-2"]
     assert (out / "Routes.CSV-2" / "summary.json").is_file() and (out / "MANIFEST.json").is_file()
+
+
+def test_check_says_a_problem_of_several_routes_once_naming_them(tmp_path, capsys):
+    """A problem found on several routes alike (here the flow's velocity in the
+    pipe, the same on each) is one line naming the routes, not a line a route."""
+    project = make_site(tmp_path)
+    project.write_text(project.read_text().replace('flow = "50 L/s"', 'flow = "400 L/s"'))
+    status, err = _cli(["check", str(project)], capsys)
+    fast = [e for e in err if "m/s, beyond" in e]
+    assert len(fast) == 1 and "routes 'A', 'B/north' and 'C': " in fast[0], err
+    assert status == 2  # (D runs off the DEM: an error, on its own line)
+    assert sum("route 'D': terrain.dem: outside every DEM" in e for e in err) == 1, err

@@ -39,11 +39,13 @@ def check_project(path, *, ground_only: bool = False) -> list:
         except InputError as exc:
             return problems + [error(str(exc))]
         whole = set(problems)  # (the stages repeat these; said once, not for each route)
+        said = {}  # problem -> the routes it was found on, in order
         for name, frame in routes:  # each route of a layer of several on its own
-            said = [p for p in _stages(project, ground_only, frame, error, screen)
-                    if p not in whole]
-            problems += said if name is None else [
-                type(p)(p.level, f"route {name!r}: {p.text}") for p in said]
+            for p in _stages(project, ground_only, frame, error, screen):
+                if p not in whole:
+                    said.setdefault(p, []).append(name)
+        problems += [p if names == [None] else type(p)(p.level, f"{_on(names, len(routes))}: {p.text}")
+                     for p, names in said.items()]
     out = resolve_outdir(project)
     if out.is_dir():
         try:
@@ -52,6 +54,24 @@ def check_project(path, *, ground_only: bool = False) -> list:
             problems.append(warning(f"earlier output {exc}"))
     unique = list(dict.fromkeys(problems))
     return sorted(unique, key=lambda p: p.level != "error")
+
+
+def _on(names, total: int) -> str:
+    """Which routes a problem was found on: one named, a few named, or every one.
+
+    >>> _on(["A"], 3), _on(["A", "B"], 3), _on(["A", "B", "C"], 3)
+    ("route 'A'", "routes 'A' and 'B'", 'every route (3)')
+    >>> _on([f"r{i}" for i in range(7)], 9)
+    "routes 'r0', 'r1', 'r2', 'r3' and 3 more"
+    """
+    if len(names) == 1:
+        return f"route {names[0]!r}"
+    if len(names) == total:
+        return f"every route ({total})"
+    quoted = [repr(n) for n in names]
+    if len(quoted) > 4:
+        return f"routes {', '.join(quoted[:4])} and {len(quoted) - 4} more"
+    return f"routes {', '.join(quoted[:-1])} and {quoted[-1]}"
 
 
 def _routes(project) -> list:
