@@ -112,7 +112,8 @@ def read_routes(project) -> list[tuple[str, object]]:
 def several_routes(routes, cfg) -> str:
     """The one-line refusal of a single-route command (``run``, ``profile``)
     given a layer of several routes by ``[alignment] route_field``: how many,
-    which, and how to pick one or run them all.
+    which, and the ``where`` that picks the first, ready to paste (an SQL
+    filter in a TOML string), or ``gisgrade routes`` to run them all.
 
     >>> from types import SimpleNamespace as NS
     >>> cfg = NS(route_field="name", path=NS(name="mains.gpkg"))
@@ -122,15 +123,43 @@ def several_routes(routes, cfg) -> str:
     `gisgrade routes`
     """
     names = [n for n, _ in routes]
-    shown = ", ".join(names[:4]) + (f" and {len(names) - 4} more" if len(names) > 4 else "")
-    field_name, first = cfg.route_field, names[0]
-    if re.fullmatch(r"[A-Za-z_]\w*", field_name) and "'" not in first and '"' not in first:
-        pick = f"with [alignment] where = \"{field_name} = '{first}'\""
-    else:
-        pick = f"with [alignment] where (an attribute filter on {field_name!r})"
+    shown = ", ".join(n.encode("unicode_escape").decode() if not n.isprintable() else n
+                      for n in names[:4]) + (f" and {len(names) - 4} more" if len(names) > 4 else "")
+    frame, field_name = routes[0][1], cfg.route_field
+    kind = frame[field_name].dtype if frame is not None and field_name in frame else None
     return (f"alignment.route_field: {cfg.path.name} holds {len(names)} routes by "
-            f"{field_name!r} ({shown}); a run sets out one: pick it {pick}, or run every "
-            "route with `gisgrade routes`")
+            f"{field_name!r} ({shown}); a run sets out one: pick it with [alignment] "
+            f"{pick_route(field_name, names[0], kind)}, or run every route with "
+            "`gisgrade routes`")
+
+
+def pick_route(field_name: str, value: str, kind=None) -> str:
+    r"""``where = "..."``: the TOML line whose SQL filter picks the features
+    whose ``field_name`` is ``value`` (a text value quoted, its ``'``
+    doubled, as SQL writes them; a field name that is not a plain word in
+    double quotes; a number bare and a true/false field as 1/0, as OGR's SQL
+    holds them), escaped for a TOML basic string.
+
+    >>> print(pick_route("route id", "O'Dell \\ 2"))
+    where = "\"route id\" = 'O''Dell \\ 2'"
+    >>> import numpy as np
+    >>> pick_route("zone", "7", np.dtype("int64")), pick_route("ok", "True", np.dtype(bool))
+    ('where = "zone = 7"', 'where = "ok = 1"')
+    """
+    from pandas.api.types import is_bool_dtype, is_numeric_dtype
+
+    column = field_name if re.fullmatch(r"[A-Za-z_]\w*", field_name) else \
+        '"' + field_name.replace('"', '""') + '"'
+    if kind is not None and is_bool_dtype(kind):
+        literal = "1" if value == "True" else "0"
+    elif kind is not None and is_numeric_dtype(kind):
+        literal = value
+    else:
+        literal = "'" + value.replace("'", "''") + "'"
+    sql = f"{column} = {literal}"
+    escaped = (sql.replace("\\", "\\\\").replace('"', '\\"').replace("\n", "\\n")
+               .replace("\t", "\\t").replace("\r", "\\r"))
+    return f'where = "{escaped}"'
 
 
 #: What ``routes`` writes beside the route folders (and SQLite's files beside

@@ -666,3 +666,31 @@ def test_check_says_a_problem_of_several_routes_once_naming_them(tmp_path, capsy
     assert len(fast) == 1 and "routes 'A', 'B/north' and 'C': " in fast[0], err
     assert status == 2  # (D runs off the DEM: an error, on its own line)
     assert sum("route 'D': terrain.dem: outside every DEM" in e for e in err) == 1, err
+
+
+@pytest.mark.parametrize("first", ["O'Hare Gill", "Fen\\Dyke", 'Say "when"', "Zürich Ost"])
+def test_the_where_a_refusal_suggests_picks_that_route(tmp_path, first):
+    """The `where` line in the several-routes refusal, pasted into the project
+    file as it stands, is valid TOML (tomllib) whose SQL filter, applied by GDAL
+    (pyogrio), leaves that route's features and no other's."""
+    import re as re_
+    import tomllib
+
+    from gisgrade.errors import InputError
+    from gisgrade.project import load
+
+    project = make_site(tmp_path)
+    write_lines(tmp_path / "lines.geojson", LINES[:3],
+                props=[{"name": first}, {"name": "Brook"}, {"name": first}])
+    with pytest.raises(InputError) as refused:
+        from gisgrade.alignment import stage_alignment
+
+        stage_alignment(load(project))
+    line = re_.search(r'where = ".*?(?<!\\)"', str(refused.value)).group(0)
+    where = tomllib.loads(line)["where"]
+    project.write_text(project.read_text().replace('route_field = "name"',
+                                                   'route_field = "name"\n' + line))
+    from gisgrade.routes import read_routes
+
+    picked = read_routes(load(project))
+    assert [n for n, _ in picked] == [first] and len(picked[0][1]) == 2, where
