@@ -828,12 +828,9 @@ def stage_alignment(project, frame=None):
 
     cfg = project.alignment
     if frame is None and cfg.route_field is not None:  # a layer of routes: one must be picked
-        from .routes import read_routes, several_routes
+        from .routes import the_one_route
 
-        routes = read_routes(project)
-        if len(routes) > 1:
-            raise InputError(several_routes(routes, cfg))
-        frame = routes[0][1]
+        frame = the_one_route(project)
     if frame is None:
         line = read_alignment(cfg.path, layer=cfg.layer, reverse=cfg.reverse, where=cfg.where,
                               feature=cfg.feature, start_station=cfg.start_station)

@@ -109,6 +109,17 @@ def read_routes(project) -> list[tuple[str, object]]:
     return group_routes(gdf, cfg.route_field, "alignment.path", cfg.path.name)
 
 
+def the_one_route(project):
+    """The features of the one route that ``[alignment] route_field`` (after
+    ``where`` / ``feature``) leaves in the centerline layer, for a command
+    that sets out one route; several are an input error
+    (:func:`several_routes`)."""
+    routes = read_routes(project)
+    if len(routes) > 1:
+        raise InputError(several_routes(routes, project.alignment))
+    return routes[0][1]
+
+
 def several_routes(routes, cfg) -> str:
     """The one-line refusal of a single-route command (``run``, ``profile``)
     given a layer of several routes by ``[alignment] route_field``: how many,

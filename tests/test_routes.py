@@ -407,15 +407,18 @@ def test_bad_input_to_the_command(tmp_path, capsys, case, message):
     assert sorted(p.name for p in tmp_path.iterdir()) == before  # nothing written
 
 
-@pytest.mark.parametrize("command", ["run", "profile"])
+@pytest.mark.parametrize("command", [["run", "-q"], ["profile", "-q"],
+                                     ["sizes", "--candidates", "250 mm, 300 mm"]])
 def test_a_single_route_command_refuses_a_layer_of_routes(tmp_path, capsys, command):
-    """`gisgrade run` and `profile` set out one centerline: on a layer of
-    several routes by route_field they say how many, which, and how to pick
-    one (or run them all), in one line, exit 2, nothing written (the house
-    rule for bad input); `where` picking one route runs it."""
+    """`gisgrade run`, `profile` and `sizes` set out one centerline: on a layer
+    of several routes by route_field they say how many, which, and how to pick
+    one (or run them all), in one line (`sizes` before any candidate's line),
+    exit 2, nothing written (the house rule for bad input); `where` picking
+    one route runs it."""
     project = make_site(tmp_path)
     before = sorted(p.name for p in tmp_path.iterdir())
-    status, err = _cli([command, str(project), "-o", str(tmp_path / "o"), "-q"], capsys)
+    command, *more = command
+    status, err = _cli([command, str(project), "-o", str(tmp_path / "o"), *more], capsys)
     assert status == 2 and len(err) == 1, err
     assert ("alignment.route_field: lines.geojson holds 4 routes by 'name' (A, B/north, C, D)"
             in err[0]), err
@@ -423,7 +426,7 @@ def test_a_single_route_command_refuses_a_layer_of_routes(tmp_path, capsys, comm
     assert sorted(p.name for p in tmp_path.iterdir()) == before
     text = project.read_text().replace('route_field = "name"', 'route_field = "name"\nwhere = "name = \'C\'"')
     project.write_text(text)
-    status, err = _cli([command, str(project), "-o", str(tmp_path / "o"), "-q"], capsys)
+    status, err = _cli([command, str(project), "-o", str(tmp_path / "o"), *more], capsys)
     assert status == 0, err
 
 

@@ -36,6 +36,10 @@ def run_sizes(project_path, candidates_text, outdir, echo=lambda s: None):
         raise InputError(f"{project.path.name}: no candidates: give --candidates \"200 mm, 250 mm\" "
                          "or [[size_candidates]] tables")
     results = []
+    if project.alignment.route_field is not None:  # one route, said before any candidate runs
+        from ..routes import the_one_route
+
+        the_one_route(project)
     for c in candidates:
         echo(f"candidate {c.name} ...")
         results.append(compute(candidate_project(project, c)))
