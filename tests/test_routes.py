@@ -697,3 +697,14 @@ def test_the_where_a_refusal_suggests_picks_that_route(tmp_path, first):
 
     picked = read_routes(load(project))
     assert [n for n, _ in picked] == [first] and len(picked[0][1]) == 2, where
+
+
+def test_the_summary_counts_one_route_in_the_singular(tmp_path, capsys):
+    project = make_site(tmp_path)
+    project.write_text(project.read_text().replace('route_field = "name"',
+                                                   'route_field = "name"\nwhere = "name = \'C\'"'))
+    from gisgrade.cli import main
+
+    assert main(["routes", str(project), "-o", str(tmp_path / "o"), "--workers", "0"]) == 0
+    said = capsys.readouterr()
+    assert "1 route, 1 ran, 0 failed" in said.out + said.err

@@ -92,7 +92,8 @@ def _summary(result) -> str:
     d = display_of(result.project)
     t = result.table
     ok = t[t["status"] == "ok"]
-    lines = [f"{len(result.outcomes)} routes, {len(result.outcomes) - len(result.failed)} ran, "
+    n = len(result.outcomes)
+    lines = [f"{n} route{'' if n == 1 else 's'}, {n - len(result.failed)} ran, "
              f"{len(result.failed)} failed"]
     for o in result.outcomes:
         if o.error is not None:
