@@ -106,7 +106,30 @@ def read_routes(project) -> list[tuple[str, object]]:
         chosen = (f"matching alignment.where = {cfg.where!r}" if cfg.where is not None
                   else f"with alignment.feature = {cfg.feature}")
         raise InputError(f"alignment.path: {cfg.path.name} holds no line feature {chosen}")
-    return group_routes(gdf, cfg.route_field, "alignment.path", cfg.path.name)
+    routes = group_routes(gdf, cfg.route_field, "alignment.path", cfg.path.name)
+    if cfg.route_field is not None and (cfg.where is not None or cfg.feature is not None):
+        _say_parts_left_out(cfg, routes)
+    return routes
+
+
+def _say_parts_left_out(cfg, routes) -> None:
+    """Warn of each route of which ``where`` / ``feature`` left out some
+    features (a route drawn in several parts, one part picked): the run then
+    sets out only those parts, under the route's name."""
+    import pyogrio
+
+    try:
+        names = pyogrio.read_dataframe(cfg.path, layer=cfg.layer, columns=[cfg.route_field],
+                                       read_geometry=False)[cfg.route_field]
+    except Exception:  # (the layer was read a moment ago; nothing more to say then)
+        return
+    whole = names.dropna().astype(str).value_counts()
+    for name, features in routes:
+        if whole.get(name, 0) > len(features):
+            chosen = "where" if cfg.where is not None else "feature"
+            log.warning("alignment.%s leaves %d of the %d features of route %r: only %s "
+                        "is set out", chosen, len(features), whole[name], name,
+                        "it" if len(features) == 1 else "they")
 
 
 def the_one_route(project):

@@ -708,3 +708,19 @@ def test_the_summary_counts_one_route_in_the_singular(tmp_path, capsys):
     assert main(["routes", str(project), "-o", str(tmp_path / "o"), "--workers", "0"]) == 0
     said = capsys.readouterr()
     assert "1 route, 1 ran, 0 failed" in said.out + said.err
+
+
+def test_a_filter_leaving_part_of_a_route_is_warned(tmp_path, capsys):
+    """Route C is drawn as two features; `feature` picking one of them runs
+    that part only, and says so (a run of half a route under its name would
+    be mistaken for the whole)."""
+    project = make_site(tmp_path)
+    fid = 2  # GeoJSON features are numbered from 0 by GDAL: the first part of C
+    project.write_text(project.read_text().replace('route_field = "name"',
+                                                   f'route_field = "name"\nfeature = {fid}'))
+    status, err = _cli(["run", str(project), "-o", str(tmp_path / "o")], capsys)
+    assert status == 0, err
+    assert any("alignment.feature leaves 1 of the 2 features of route 'C'" in e for e in err), err
+    project.write_text(project.read_text().replace(f"feature = {fid}", "where = \"name = 'C'\""))
+    status, err = _cli(["run", str(project), "-o", str(tmp_path / "o2")], capsys)
+    assert status == 0 and not any("leaves" in e for e in err), err
