@@ -161,10 +161,17 @@ def several_routes(routes, cfg) -> str:
                       for n in names[:4]) + (f" and {len(names) - 4} more" if len(names) > 4 else "")
     frame, field_name = routes[0][1], cfg.route_field
     kind = frame[field_name].dtype if frame is not None and field_name in frame else None
+    alike = [n for n in names if n.casefold() == names[0].casefold()]
+    if len(alike) > 1 and Path(cfg.path.name).suffix.lower() != ".gpkg":
+        # GDAL's filter on GeoJSON and other files compares text regardless of case
+        pick = (f"by a name that differs from the others by more than case "
+                f"({', '.join(map(repr, alike[:3]))} are one to a filter on "
+                f"{Path(cfg.path.name).suffix or 'this file'}): rename them")
+    else:
+        pick = f"with [alignment] {pick_route(field_name, names[0], kind)}"
     return (f"alignment.route_field: {cfg.path.name} holds {len(names)} routes by "
-            f"{field_name!r} ({shown}); a run sets out one: pick it with [alignment] "
-            f"{pick_route(field_name, names[0], kind)}, or run every route with "
-            "`gisgrade routes`")
+            f"{field_name!r} ({shown}); a run sets out one: pick it {pick}, or run every "
+            "route with `gisgrade routes`")
 
 
 def pick_route(field_name: str, value: str, kind=None) -> str:

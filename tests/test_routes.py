@@ -724,3 +724,20 @@ def test_a_filter_leaving_part_of_a_route_is_warned(tmp_path, capsys):
     project.write_text(project.read_text().replace(f"feature = {fid}", "where = \"name = 'C'\""))
     status, err = _cli(["run", str(project), "-o", str(tmp_path / "o2")], capsys)
     assert status == 0 and not any("leaves" in e for e in err), err
+
+
+def test_routes_named_alike_but_for_case_are_not_offered_a_where_that_picks_both(tmp_path, capsys):
+    """GDAL's attribute filter on a GeoJSON file compares text regardless of
+    case (checked here through pyogrio: the reference), so `where = "name =
+    'Moss'"` would leave 'MOSS' too and the refusal would repeat itself; it
+    says to rename them instead."""
+    import pyogrio
+
+    project = make_site(tmp_path)
+    write_lines(tmp_path / "lines.geojson", LINES[:3],
+                props=[{"name": "Moss"}, {"name": "MOSS"}, {"name": "Brook"}])
+    both = pyogrio.read_dataframe(tmp_path / "lines.geojson", where="name = 'Moss'")
+    assert sorted(both["name"]) == ["MOSS", "Moss"]  # what GDAL does
+    status, err = _cli(["run", str(project), "-o", str(tmp_path / "o"), "-q"], capsys)
+    assert status == 2 and len(err) == 1, err
+    assert "'Moss', 'MOSS' are one to a filter on .geojson" in err[0] and "where =" not in err[0]
