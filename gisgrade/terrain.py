@@ -716,8 +716,18 @@ def sample_ground(
 
 
 def _box(x, y) -> str:
-    return (f"x {np.nanmin(x):.6g} to {np.nanmax(x):.6g}, y {np.nanmin(y):.6g} to "
-            f"{np.nanmax(y):.6g}")
+    """The extent of x, y in words, grid coordinates to the unit, degrees to 1e-6.
+
+    >>> _box([500100.4, 504500.0], [4648500.0, 4648500.0])
+    'x 500100 to 504500, y 4648500 to 4648500'
+    >>> _box([8.37, 8.45], [47.03, 47.1])
+    'x 8.37 to 8.45, y 47.03 to 47.1'
+    """
+    def num(v) -> str:
+        return f"{v:.0f}" if abs(v) >= 1e4 else f"{v:.6g}"
+
+    return (f"x {num(np.nanmin(x))} to {num(np.nanmax(x))}, y {num(np.nanmin(y))} to "
+            f"{num(np.nanmax(y))}")
 
 
 def _inside(x, y, b) -> float:
@@ -743,9 +753,13 @@ def where_line_lies(x, y, crs, dem_paths, all_out: bool = True) -> str:
     back = Transformer.from_crs(dem_crs, crs, always_xy=True)
     xd, yd = (np.asarray(v, dtype=float) for v in to_dem.transform(x, y, errcheck=False))
     bx, by = back.transform([b[0], b[2], b[0], b[2]], [b[1], b[1], b[3], b[3]], errcheck=False)
-    text = (f" (the line lies at {_box(xd, yd)} in the DEM's {dem_crs.name}, {_box(x, y)} in "
-            f"{crs.name}; the DEM covers {_box([b[0], b[2]], [b[1], b[3]])}, that is "
-            f"{_box(bx, by)} in {crs.name})")
+    if dem_crs == crs:  # one CRS: each extent said once
+        text = (f" (the line lies at {_box(x, y)} in {crs.name}; the DEM covers "
+                f"{_box([b[0], b[2]], [b[1], b[3]])})")
+    else:
+        text = (f" (the line lies at {_box(xd, yd)} in the DEM's {dem_crs.name}, {_box(x, y)} "
+                f"in {crs.name}; the DEM covers {_box([b[0], b[2]], [b[1], b[3]])}, that is "
+                f"{_box(bx, by)} in {crs.name})")
     if not all_out:
         return text
     cause = ""

@@ -441,6 +441,9 @@ def test_check_checks_each_route_of_a_layer_of_routes(tmp_path, capsys):
     errors = [e for e in err if e.startswith("gisgrade: error: ")]
     assert len(errors) == 1 and errors[0].startswith("gisgrade: error: route 'D': terrain.dem: "
                                                      "outside every DEM"), err
+    # where the line and the DEM lie: grid coordinates to the metre, once (one CRS)
+    assert "the DEM covers x 500000 to 503000, y 4647000 to 4650000)" in errors[0], errors[0]
+    assert "e+06" not in errors[0] and "in the DEM's" not in errors[0], errors[0]
     assert not any(f"route '{n}'" in e for e in err for n in GOOD), err
     deep = [e for e in err if "cover.minimum = 6 m is deeper" in e]
     assert len(deep) == 1 and "route '" not in deep[0], err
