@@ -18,6 +18,7 @@ from __future__ import annotations
 
 import logging
 import math
+import re
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 
@@ -236,7 +237,8 @@ def read_vector(path: Path, key: str, layer=None, where=None, fids=None):
     try:
         gdf = gpd.read_file(path, layer=layer, where=where, engine="pyogrio", **extra)
     except Exception as exc:  # GDAL raises a variety of errors for bad files or SQL
-        raise InputError(f"{key}: cannot read {path.name} ({first_line(exc)})") from None
+        said = re.sub(r"'b'([^']*)''", r"'\1'", first_line(exc))  # (a layer name as bytes)
+        raise InputError(f"{key}: cannot read {path.name} ({said})") from None
     if not isinstance(gdf, gpd.GeoDataFrame):
         raise InputError(f"{key}: {path.name} holds no geometry")
     if gdf.crs is None:

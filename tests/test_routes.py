@@ -378,6 +378,7 @@ def _cli(args, capsys):
     ("scheduler", "cannot reach a Dask scheduler"),
     ("points", "routes must be lines"),
     ("nothing", "holds no line feature matching alignment.where = \"name = 'Z'\""),
+    ("sql", "cannot read lines.geojson (Invalid SQL query for layer 'lines': 'nme = 1')"),
 ])
 def test_bad_input_to_the_command(tmp_path, capsys, case, message):
     project = make_site(tmp_path)
@@ -394,6 +395,9 @@ def test_bad_input_to_the_command(tmp_path, capsys, case, message):
     elif case == "nothing":  # a filter that leaves no route
         project.write_text(project.read_text().replace('route_field = "name"',
                                                        'route_field = "name"\nwhere = "name = \'Z\'"'))
+    elif case == "sql":  # GDAL's message, its layer name not as Python bytes
+        project.write_text(project.read_text().replace('route_field = "name"',
+                                                       'route_field = "name"\nwhere = "nme = 1"'))
     elif case == "points":
         (tmp_path / "lines.geojson").write_text(json.dumps({
             "type": "FeatureCollection", "features": [{"type": "Feature", "properties": {"name": "a"},
