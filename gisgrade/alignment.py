@@ -413,12 +413,17 @@ def align_frame(gdf, name: str, *, reverse=False, start_station=0.0,
             raise
         # a route of `gisgrade routes` says which route and how to mend it (attrs["route"])
         route = gdf.attrs.get("route")
-        hint = (f"of route {route!r} ({gdf.attrs.get('field')} = {route!r}); give each route "
-                "its own name or join the lines" if route is not None else
+        # where: "part 2 ... does not touch part 1 (gap of 23.000 m at x, y)", in file order
+        where = re.search(r"part (\d+) of the multipart line does not touch part (\d+) (\(.*\))",
+                          str(exc))
+        gap = (f": line {where[1]} does not meet line {where[2]} {where[3]}"
+               if where else "")
+        hint = (f" ({gdf.attrs.get('field')} = {route!r}); give each route its own name or join "
+                "the lines" if route is not None else
                 "; choose one with alignment.where (an attribute filter) or alignment.feature "
                 "(a feature id)")
         raise InputError(f"{key}: {path.name} holds {len(gdf)} separate lines that do not join "
-                         f"end to end{' ' if route is not None else ''}{hint}") from exc
+                         f"end to end{gap}{hint}") from exc
     if len(gdf) > 1:
         a, b = np.asarray(line.coords)[[0, -1], :2]
         notes.append(f"{len(gdf)} features in {path.name} joined end to end in file order, from "

@@ -748,3 +748,26 @@ def test_routes_named_alike_but_for_case_are_not_offered_a_where_that_picks_both
     status, err = _cli(["run", str(project), "-o", str(tmp_path / "o"), "-q"], capsys)
     assert status == 2 and len(err) == 1, err
     assert "'Moss', 'MOSS' are one to a filter on .geojson" in err[0] and "where =" not in err[0]
+
+
+def test_a_route_in_parts_that_do_not_meet_says_where_the_gap_is(tmp_path):
+    """A route drawn as two features with a 50 m gap between them fails with
+    where the gap is and how wide on the ellipsoid (pyproj's Geod between the
+    two ends as the reference), and how to mend it; the others run."""
+    from pyproj import Geod, Transformer
+
+    from gisgrade.routes import run_routes
+
+    project = make_site(tmp_path)
+    a, b = (501_000.0, Y0 - 1500), (501_050.0, Y0 - 1500)
+    write_lines(tmp_path / "lines.geojson", [[(500_100, Y0 - 1500), a], [b, (502_500, Y0 - 1500)],
+                                             LINES[0]],
+                props=[{"name": "Gap Lane"}, {"name": "Gap Lane"}, {"name": "A"}])
+    t = run_routes(project, workers=0).table
+    status = t.loc[t["route"] == "Gap Lane", "status"].iloc[0]
+    lon, lat = Transformer.from_crs("EPSG:32633", "EPSG:4326", always_xy=True).transform(
+        [a[0], b[0]], [a[1], b[1]])
+    gap = Geod(ellps="WGS84").line_length(lon, lat)
+    assert f"line 2 does not meet line 1 (gap of {gap:.3f} m at " in status, status
+    assert "(name = 'Gap Lane'); give each route its own name or join the lines" in status
+    assert set(t.loc[t["route"] == "A", "status"]) == {"ok"}
