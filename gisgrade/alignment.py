@@ -241,6 +241,8 @@ def read_vector(path: Path, key: str, layer=None, where=None, fids=None):
         raise InputError(f"{key}: cannot read {path.name} ({said})") from None
     if not isinstance(gdf, gpd.GeoDataFrame):
         raise InputError(f"{key}: {path.name} holds no geometry")
+    if layer is None:
+        _say_first_layer(path, key)
     if gdf.crs is None:
         raise InputError(f"{key}: {path.name} has no coordinate reference system")
     gdf = gdf[~(gdf.geometry.isna() | gdf.geometry.is_empty)]
@@ -251,6 +253,29 @@ def read_vector(path: Path, key: str, layer=None, where=None, fids=None):
                              f"but holds coordinates up to {max(abs(x0), abs(x1)):.0f}, "
                              f"{max(abs(y0), abs(y1)):.0f}: the file does not state its CRS")
     return gdf
+
+
+_SAID_FIRST_LAYER: set = set()  # (file, key) warned of in this process: once, not a route
+
+
+def _say_first_layer(path: Path, key: str) -> None:
+    """Warn when a file of several layers was read without ``layer``: GDAL
+    reads the first, which may not be the one meant (once a file and key in
+    a process, however many routes read it)."""
+    import pyogrio
+
+    if (str(Path(path).resolve()), key) in _SAID_FIRST_LAYER:
+        return
+    _SAID_FIRST_LAYER.add((str(Path(path).resolve()), key))
+    try:
+        names = [str(n) for n in pyogrio.list_layers(path)[:, 0]]
+    except Exception:  # (read a moment ago; nothing more to say then)
+        return
+    if len(names) > 1:
+        shown = ", ".join(names[:5]) + (f" and {len(names) - 5} more" if len(names) > 5 else "")
+        logging.getLogger("gisgrade").warning(
+            f"warning: {key}: {path.name} holds {len(names)} layers ({shown}); the first, "
+            f"{names[0]!r}, was read: name the one meant with {key.rsplit('.', 1)[0]}.layer")
 
 
 def require_lines(gdf, key: str, path: Path) -> None:

@@ -771,3 +771,24 @@ def test_a_route_in_parts_that_do_not_meet_says_where_the_gap_is(tmp_path):
     assert f"line 2 does not meet line 1 (gap of {gap:.3f} m at " in status, status
     assert "(name = 'Gap Lane'); give each route its own name or join the lines" in status
     assert set(t.loc[t["route"] == "A", "status"]) == {"ok"}
+
+
+def test_a_file_of_several_layers_read_without_layer_is_warned(tmp_path, capsys):
+    """A GeoPackage holding two line layers and no `layer =`: GDAL reads the
+    first (pyogrio's own list of the file's layers is the reference); the run
+    says which it read and which key chooses."""
+    import geopandas as gpd
+    import pyogrio
+
+    project = make_site(tmp_path)
+    lines = gpd.read_file(tmp_path / "lines.geojson")
+    lines.iloc[[0]].to_file(tmp_path / "mains.gpkg", layer="proposed")
+    lines.iloc[[1]].to_file(tmp_path / "mains.gpkg", layer="existing")
+    assert [str(n) for n in pyogrio.list_layers(tmp_path / "mains.gpkg")[:, 0]] == \
+        ["proposed", "existing"]
+    project.write_text(project.read_text().replace('path = "lines.geojson"', 'path = "mains.gpkg"'))
+    status, err = _cli(["run", str(project), "-o", str(tmp_path / "o")], capsys)
+    assert status == 0, err
+    said = [e for e in err if "holds 2 layers" in e]
+    assert len(said) == 1 and "alignment.path: mains.gpkg holds 2 layers (proposed, existing); " \
+        "the first, 'proposed', was read: name the one meant with alignment.layer" in said[0], err
