@@ -316,8 +316,9 @@ def route_line(rows, display) -> str:
     worst = rows.loc[rows["min_pressure_kpa"].astype(float).idxmin()]
     low = ("below vapour pressure (the column separates)" if bool(worst["below_vapour"])
            else f"lowest pressure {display.text(float(worst['min_pressure_kpa']) * 1e3, 'pressure')}")
+    most = int(rows["findings"].max())
     return (f"{display.text(float(rows['length_m'].iloc[0]), 'length', 0)}, {low} in "
-            f"{worst['scenario']}, {int(rows['findings'].max())} findings in the worst scenario")
+            f"{worst['scenario']}, {most} finding{'' if most == 1 else 's'} in the worst scenario")
 
 
 def _thin(n: int, keep: int = PLOT_POINTS) -> np.ndarray:

@@ -582,6 +582,8 @@ def test_a_routes_line_gives_its_worst_scenario_in_words():
     rows["below_vapour"] = False
     rows.loc[1, "min_pressure_kpa"] = 120.0
     assert "lowest pressure 120 kPa in max day + fire" in route_line(rows, Display())
+    rows["findings"] = [0, 1]
+    assert route_line(rows, Display()).endswith(", 1 finding in the worst scenario")
 
 
 @pytest.mark.parametrize("epsg", [4326, 32632])
