@@ -127,9 +127,9 @@ def _say_parts_left_out(cfg, routes) -> None:
     for name, features in routes:
         if whole.get(name, 0) > len(features):
             chosen = "where" if cfg.where is not None else "feature"
-            log.warning("alignment.%s leaves %d of the %d features of route %r: only %s "
-                        "is set out", chosen, len(features), whole[name], name,
-                        "it" if len(features) == 1 else "they")
+            log.warning("alignment.%s leaves %d of the %d features of route %r: only %s set "
+                        "out", chosen, len(features), whole[name], name,
+                        "that feature is" if len(features) == 1 else "those features are")
 
 
 def the_one_route(project):
