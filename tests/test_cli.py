@@ -234,3 +234,14 @@ def test_us_display_labels_stations_in_feet(demo_us):
     assert prof["station"].iloc[-1] == f"{int(feet // 100)}+{feet % 100:05.2f}"
     text = (out / "summary.txt").read_text()
     assert re.search(r"crossing .* at \d+\+\d{2}\.\d{2}:", text)
+
+
+def test_summary_counts_one_high_point_in_the_singular():
+    from gisgrade.output.summary import summary_text
+
+    base = {"length_m": 1000.0, "working_crs": "EPSG:32633", "stations": 101,
+            "ground_min_m": 100.0, "ground_max_m": 110.0}
+    text = summary_text({**base, "grade_breaks": 1, "high_points": 1, "low_points": 2})
+    assert "pipe profile: 1 grade break; between the ends 1 high point and 2 low points" in text
+    text = summary_text({**base, "grade_breaks": 0, "high_points": 0, "low_points": 1})
+    assert "0 grade breaks; between the ends 0 high points and 1 low point" in text

@@ -205,8 +205,12 @@ def summary_text(summary: dict) -> str:
                      f"{d.text(summary['excavation_m3'], 'volume', 1)} below the minimum-cover line; "
                      f"pipe length (3D) {m(summary['pipe_length_3d_m'], 1)}")
     if "high_points" in summary:
-        lines.append(f"pipe profile: {summary['grade_breaks']} grade breaks; between the ends "
-                     f"{summary['high_points']} high points and {summary['low_points']} low points")
+        def count(n, what):
+            return f"{n} {what}" if n == 1 else f"{n} {what}s"
+
+        lines.append(f"pipe profile: {count(summary['grade_breaks'], 'grade break')}; between the "
+                     f"ends {count(summary['high_points'], 'high point')} and "
+                     f"{count(summary['low_points'], 'low point')}")
     if "valves" in summary:
         v = summary["valves"]
         lines.append(f"valves: {v['combination']} combination, {v['air-release']} air-release, "
