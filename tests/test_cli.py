@@ -240,7 +240,8 @@ def test_summary_counts_one_high_point_in_the_singular():
     from gisgrade.output.summary import summary_text
 
     base = {"length_m": 1000.0, "working_crs": "EPSG:32633", "stations": 101,
-            "ground_min_m": 100.0, "ground_max_m": 110.0}
+            "ground_min_m": 100.0, "ground_max_m": 110.0, "notes": [], "scenarios": {},
+            "crossings": [], "cautions": ""}
     text = summary_text({**base, "grade_breaks": 1, "high_points": 1, "low_points": 2})
     assert "pipe profile: 1 grade break; between the ends 1 high point and 2 low points" in text
     text = summary_text({**base, "grade_breaks": 0, "high_points": 0, "low_points": 1})
