@@ -592,18 +592,21 @@ def layer_groups(layers: dict, n: int) -> list[dict]:
     return [{k: layers[k] for k in layers if k in g} for g in groups if g]
 
 
-def join_layers(parts: list, layers: dict, path) -> None:
+def join_layers(parts: list, layers: dict, path) -> tuple:
     """``routes.gpkg`` at ``path`` from the GeoPackages ``parts`` that
     :func:`write_layers` wrote of each :func:`layer_groups` group: joined
     into the first (:func:`~gisgrade.output.geopackage.join_geopackages`),
     layers in order, which then becomes ``path``. Where they do not join
     (e.g. two CRSs without EPSG codes numbered alike), ``layers`` are written
-    to ``path`` whole instead. ``parts`` are gone afterwards."""
+    to ``path`` whole instead. ``parts`` are gone afterwards. Returns the
+    file's :func:`~gisgrade.output.atomic.digest_of` for the manifest (read
+    here, on the worker, while the client draws the figure)."""
+    from .output.atomic import digest_of
     from .output.geopackage import join_geopackages
 
     first, *rest = parts
     if Path(path).is_file() and not Path(first).exists():
-        return  # (the task run again after it had joined and moved the file)
+        return digest_of(path)  # (the task run again after it had joined and moved the file)
     if join_geopackages(first, rest, order=list(layers)):
         os.replace(first, path)
     else:
@@ -612,6 +615,15 @@ def join_layers(parts: list, layers: dict, path) -> None:
         Path(first).unlink()
     for other in rest:
         Path(other).unlink()
+    return digest_of(path)
+
+
+def _write_whole(layers: dict, path) -> tuple:
+    """:func:`write_layers` into one file on a worker, and its digest for the manifest."""
+    from .output.atomic import digest_of
+
+    write_layers(layers, path)
+    return digest_of(path)
 
 
 def _layers_on(client, layers: dict, tmp: Path):
@@ -624,7 +636,7 @@ def _layers_on(client, layers: dict, tmp: Path):
     groups = layer_groups(layers, min(workers, 3))  # (past three, the large layers are each alone)
     path = str(tmp / "routes.gpkg")
     if len(groups) == 1:
-        return [], client.submit(write_layers, layers, path, pure=False, key="gisgrade-routes-gpkg")
+        return [], client.submit(_write_whole, layers, path, pure=False, key="gisgrade-routes-gpkg")
     parts = []
     for j, group in enumerate(groups):
         part = str(tmp / PARTS / f"routes-{j}.gpkg")
@@ -757,8 +769,12 @@ class RoutesResult:
         self._write_figure(tmp / "routes.png")
         log.debug("routes: routes.csv, routes.png %s %.2f s", "and routes.gpkg" if not jobs
                   else "(routes.gpkg on a worker)", time.perf_counter() - t0)
+        from .output.atomic import vouch
+
         for job in jobs:
-            job.result()  # an error there is raised here
+            done = job.result()  # an error there is raised here
+            if job is jobs[0]:  # routes.gpkg, read where it was written
+                vouch(tmp, "routes.gpkg", done)
         log.debug("routes: all written %.2f s", time.perf_counter() - t0)
         self._tidy(tmp)
 

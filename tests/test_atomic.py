@@ -213,3 +213,23 @@ def test_the_gap_between_two_renames_is_repaired_by_the_next_run(tmp_path):
     atomic._clean(tmp_path, out)  # what the next run does first
     assert (out / "a.csv").read_text() == "one\n" and hidden(tmp_path) == []
     verify_folder(out)
+
+
+def test_a_vouched_digest_is_taken_only_for_the_file_as_it_was(tmp_path):
+    """A writer's digest_of stamp stands in for reading the file again, but only
+    while the file keeps that size and modification time; SHA-256 by hashlib
+    (the standard library's) is the reference."""
+    from gisgrade.output.atomic import digest_of, vouch
+
+    with atomic_folder(tmp_path / "out") as tmp:
+        (tmp / "big.bin").write_bytes(b"x" * 1000)
+        size, mtime, digest = digest_of(tmp / "big.bin")
+        assert digest == hashlib.sha256(b"x" * 1000).hexdigest() and size == 1000
+        vouch(tmp, "big.bin", (size, mtime, "0" * 64))  # a stand-in: shows it was taken
+        (tmp / "late.bin").write_bytes(b"a")
+        stamp = digest_of(tmp / "late.bin")
+        (tmp / "late.bin").write_bytes(b"bb")  # changed after its stamp: read again
+        vouch(tmp, "late.bin", stamp)
+    doc = json.loads((tmp_path / "out" / MANIFEST).read_text())
+    got = {e["path"]: e["sha256"] for e in doc["files"]}
+    assert got == {"big.bin": "0" * 64, "late.bin": hashlib.sha256(b"bb").hexdigest()}

@@ -38,7 +38,7 @@ from pathlib import Path
 
 from ..errors import InputError
 
-__all__ = ["atomic_folder", "verify_folder", "refuse_outdir", "MANIFEST"]
+__all__ = ["atomic_folder", "verify_folder", "refuse_outdir", "MANIFEST", "digest_of", "vouch"]
 
 #: The manifest's file name, written last into every result folder.
 MANIFEST = "MANIFEST.json"
@@ -54,6 +54,34 @@ def _sha256(path: Path) -> str:
     return h.hexdigest()
 
 
+def digest_of(path) -> tuple[int, int, str]:
+    """``(bytes, mtime_ns, sha256)`` of a file: what the process that wrote it
+    (e.g. a worker) hands to :func:`vouch`, so that the manifest need not
+    read it again."""
+    st = os.stat(path)
+    return st.st_size, st.st_mtime_ns, _sha256(Path(path))
+
+
+#: folder -> {relative path: (bytes, mtime_ns, sha256)} vouched for by their writers
+_VOUCHED: dict = {}
+
+
+def vouch(folder, rel: str, stamp) -> None:
+    """Take the :func:`digest_of` ``stamp`` of ``folder/rel`` for its manifest
+    entry; taken only if the file still has that size and modification time
+    when the manifest is written (else it is read again)."""
+    _VOUCHED.setdefault(str(Path(folder).resolve()), {})[rel] = tuple(stamp)
+
+
+def _digest(folder: Path, rel: str, vouched: dict) -> str:
+    stamp = vouched.get(rel)
+    if stamp is not None:
+        st = os.stat(folder / rel)
+        if (st.st_size, st.st_mtime_ns) == stamp[:2]:
+            return stamp[2]
+    return _sha256(folder / rel)
+
+
 def _files(folder: Path) -> list[str]:
     """Every file under ``folder`` as a sorted POSIX relative path (the manifest aside)."""
     return sorted(p.relative_to(folder).as_posix() for p in folder.rglob("*")
@@ -63,8 +91,9 @@ def _files(folder: Path) -> list[str]:
 def _write_manifest(folder: Path) -> None:
     from .. import __version__
 
-    files = [{"path": rel, "bytes": (folder / rel).stat().st_size, "sha256": _sha256(folder / rel)}
-             for rel in _files(folder)]
+    vouched = _VOUCHED.pop(str(Path(folder).resolve()), {})
+    files = [{"path": rel, "bytes": (folder / rel).stat().st_size,
+              "sha256": _digest(folder, rel, vouched)} for rel in _files(folder)]
     doc = {"format": _FORMAT, "gisgrade": __version__, "files": files}
     with open(folder / MANIFEST, "w", encoding="utf-8") as f:
         f.write(json.dumps(doc, indent=1, sort_keys=True) + "\n")
@@ -267,5 +296,6 @@ def atomic_folder(outdir, *, inputs=()):
         else:
             os.rename(tmp, target)
     finally:
+        _VOUCHED.pop(str(tmp.resolve()), None)
         if tmp.exists():
             shutil.rmtree(tmp, ignore_errors=True)
