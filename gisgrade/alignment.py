@@ -264,9 +264,10 @@ def _say_first_layer(path: Path, key: str) -> None:
     a process, however many routes read it)."""
     import pyogrio
 
-    if (str(Path(path).resolve()), key) in _SAID_FIRST_LAYER:
+    said = (str(Path(path).resolve()), key)
+    if said in _SAID_FIRST_LAYER:
         return
-    _SAID_FIRST_LAYER.add((str(Path(path).resolve()), key))
+    _SAID_FIRST_LAYER.add(said)
     try:
         names = [str(n) for n in pyogrio.list_layers(path)[:, 0]]
     except Exception:  # (read a moment ago; nothing more to say then)
@@ -350,6 +351,15 @@ def in_metres(crs: pyproj.CRS) -> pyproj.CRS:
     return pyproj.CRS.from_json_dict(doc)
 
 
+class PartsApart(InputError):
+    """Parts of a line that do not touch (:func:`merge_parts`): ``part`` (from
+    1) does not touch the one before it; ``gap`` says how wide and where."""
+
+    def __init__(self, message: str, part: int, gap: str):
+        super().__init__(message)
+        self.part, self.gap = part, gap
+
+
 def merge_parts(geom, key: str, file: str, distance=None, unit="CRS units") -> LineString:
     """One LineString from a (Multi)LineString whose parts touch end to end.
 
@@ -377,10 +387,9 @@ def merge_parts(geom, key: str, file: str, distance=None, unit="CRS units") -> L
         a, b, flip_line, flip_part = ends[j]
         if planar[j] > 1e-9 * scale:
             mid = (a + b) / 2
-            raise InputError(
-                f"{key}: {file}: part {i + 1} of the multipart line does not touch part {i} "
-                f"(gap of {distance(a, b):.3f} {unit} at {mid[0]:.6f}, {mid[1]:.6f})"
-            )
+            gap = f"(gap of {distance(a, b):.3f} {unit} at {mid[0]:.6f}, {mid[1]:.6f})"
+            raise PartsApart(f"{key}: {file}: part {i + 1} of the multipart line does not touch "
+                             f"part {i} {gap}", i + 1, gap)
         if flip_line:
             line = line[::-1]
         if flip_part:
@@ -438,11 +447,8 @@ def align_frame(gdf, name: str, *, reverse=False, start_station=0.0,
             raise
         # a route of `gisgrade routes` says which route and how to mend it (attrs["route"])
         route = gdf.attrs.get("route")
-        # where: "part 2 ... does not touch part 1 (gap of 23.000 m at x, y)", in file order
-        where = re.search(r"part (\d+) of the multipart line does not touch part (\d+) (\(.*\))",
-                          str(exc))
-        gap = (f": line {where[1]} does not meet line {where[2]} {where[3]}"
-               if where else "")
+        gap = (f": line {exc.part} does not meet line {exc.part - 1} {exc.gap}"
+               if isinstance(exc, PartsApart) else "")
         hint = (f" ({gdf.attrs.get('field')} = {route!r}); give each route its own name or join "
                 "the lines" if route is not None else
                 "; choose one with alignment.where (an attribute filter) or alignment.feature "
