@@ -398,6 +398,19 @@ def merge_parts(geom, key: str, file: str, distance=None, unit="CRS units") -> L
     return LineString(line)
 
 
+def read_chosen(path: Path, key: str, *, layer=None, where=None, feature=None):
+    """:func:`read_vector` of the features ``where`` (an attribute filter) or
+    ``feature`` (a feature id) leave; none left is an input error naming the
+    filter."""
+    gdf = read_vector(path, key, layer=layer, where=where,
+                      fids=None if feature is None else [feature])
+    if len(gdf) == 0:
+        chosen = (f" matching alignment.where = {where!r}" if where else
+                  f" with alignment.feature = {feature}" if feature is not None else "")
+        raise InputError(f"{key}: {path.name} holds no line feature{chosen}")
+    return gdf
+
+
 def read_alignment(path: Path, *, layer=None, reverse=False, where=None, feature=None,
                    start_station=0.0, key="alignment.path") -> Alignment:
     """Read the centerline and put it in its working CRS, in flow direction.
@@ -407,12 +420,7 @@ def read_alignment(path: Path, *, layer=None, reverse=False, where=None, feature
     remain and they join end to end into one line, they are merged (noted);
     otherwise the user must pick one (an input error says how many there are).
     """
-    gdf = read_vector(path, key, layer=layer, where=where,
-                      fids=None if feature is None else [feature])
-    if len(gdf) == 0:
-        chosen = (f" matching alignment.where = {where!r}" if where else
-                  f" with alignment.feature = {feature}" if feature is not None else "")
-        raise InputError(f"{key}: {path.name} holds no line feature{chosen}")
+    gdf = read_chosen(path, key, layer=layer, where=where, feature=feature)
     return align_frame(gdf, path.name, reverse=reverse, start_station=start_station, key=key)
 
 

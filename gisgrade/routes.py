@@ -97,15 +97,11 @@ def group_routes(gdf, field_name: str | None, key: str, file: str) -> list[tuple
 def read_routes(project) -> list[tuple[str, object]]:
     """The routes of the project's centerline layer (see :func:`group_routes`);
     ``[alignment] where`` and ``feature`` still filter the features first."""
-    from .alignment import read_vector
+    from .alignment import read_chosen
 
     cfg = project.alignment
-    gdf = read_vector(cfg.path, "alignment.path", layer=cfg.layer, where=cfg.where,
-                      fids=None if cfg.feature is None else [cfg.feature])
-    if len(gdf) == 0 and (cfg.where is not None or cfg.feature is not None):
-        chosen = (f"matching alignment.where = {cfg.where!r}" if cfg.where is not None
-                  else f"with alignment.feature = {cfg.feature}")
-        raise InputError(f"alignment.path: {cfg.path.name} holds no line feature {chosen}")
+    gdf = read_chosen(cfg.path, "alignment.path", layer=cfg.layer, where=cfg.where,
+                      feature=cfg.feature)
     routes = group_routes(gdf, cfg.route_field, "alignment.path", cfg.path.name)
     if cfg.route_field is not None and (cfg.where is not None or cfg.feature is not None):
         _say_parts_left_out(cfg, routes)
