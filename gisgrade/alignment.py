@@ -28,7 +28,7 @@ import shapely
 from shapely.geometry import LineString, MultiLineString
 
 from .arrays import STATION_TOLERANCE, station_index  # stations closer than this (m) are one
-from .errors import InputError, first_line
+from .errors import InputError, first_line, some_of
 
 #: Station kind flags.
 REGULAR, VERTEX, CROSSING, END, ZONE = 1, 2, 4, 8, 16
@@ -273,9 +273,8 @@ def _say_first_layer(path: Path, key: str) -> None:
     except Exception:  # (read a moment ago; nothing more to say then)
         return
     if len(names) > 1:
-        shown = ", ".join(names[:5]) + (f" and {len(names) - 5} more" if len(names) > 5 else "")
         logging.getLogger("gisgrade").warning(
-            f"warning: {key}: {path.name} holds {len(names)} layers ({shown}); the first, "
+            f"warning: {key}: {path.name} holds {len(names)} layers ({some_of(names, 5)}); the first, "
             f"{names[0]!r}, was read: name the one meant with {key.rsplit('.', 1)[0]}.layer")
 
 

@@ -19,3 +19,14 @@ def first_line(exc: BaseException) -> str:
     for quoting a library's error inside our one-line message."""
     text = str(exc).strip().splitlines()
     return text[0] if text else type(exc).__name__
+
+
+def some_of(items, limit: int) -> str:
+    """The first ``limit`` of ``items`` for a message, and how many more.
+
+    >>> some_of(["a", "b", "c"], 4), some_of(["a", "b", "c"], 2)
+    ('a, b, c', 'a, b and 1 more')
+    """
+    items = [str(i) for i in items]
+    more = f" and {len(items) - limit} more" if len(items) > limit else ""
+    return ", ".join(items[:limit]) + more

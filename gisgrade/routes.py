@@ -29,7 +29,7 @@ from pathlib import Path
 
 import numpy as np
 
-from .errors import InputError, first_line
+from .errors import InputError, first_line, some_of
 
 __all__ = ["read_routes", "run_routes", "route_rows", "RoutesResult", "COLUMNS"]
 
@@ -153,8 +153,8 @@ def several_routes(routes, cfg) -> str:
     `gisgrade routes`
     """
     names = [n for n, _ in routes]
-    shown = ", ".join(n.encode("unicode_escape").decode() if not n.isprintable() else n
-                      for n in names[:4]) + (f" and {len(names) - 4} more" if len(names) > 4 else "")
+    shown = some_of([n if n.isprintable() else n.encode("unicode_escape").decode()
+                     for n in names], 4)
     frame, field_name = routes[0][1], cfg.route_field
     kind = frame[field_name].dtype if frame is not None and field_name in frame else None
     alike = [n for n in names if n.casefold() == names[0].casefold()]

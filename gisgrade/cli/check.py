@@ -64,13 +64,15 @@ def _on(names, total: int) -> str:
     >>> _on([f"r{i}" for i in range(7)], 9)
     "routes 'r0', 'r1', 'r2', 'r3' and 3 more"
     """
+    from ..errors import some_of
+
     if len(names) == 1:
         return f"route {names[0]!r}"
     if len(names) == total:
         return f"every route ({total})"
     quoted = [repr(n) for n in names]
     if len(quoted) > 4:
-        return f"routes {', '.join(quoted[:4])} and {len(quoted) - 4} more"
+        return f"routes {some_of(quoted, 4)}"
     return f"routes {', '.join(quoted[:-1])} and {quoted[-1]}"
 
 
