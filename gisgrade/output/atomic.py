@@ -62,15 +62,19 @@ def digest_of(path) -> tuple[int, int, str]:
     return st.st_size, st.st_mtime_ns, _sha256(Path(path))
 
 
-#: folder -> {relative path: (bytes, mtime_ns, sha256)} vouched for by their writers
+#: folder (resolved) -> {relative path: (bytes, mtime_ns, sha256)} vouched for by their writers
 _VOUCHED: dict = {}
+
+
+def _vouched_key(folder) -> str:
+    return str(Path(folder).resolve())
 
 
 def vouch(folder, rel: str, stamp) -> None:
     """Take the :func:`digest_of` ``stamp`` of ``folder/rel`` for its manifest
     entry; taken only if the file still has that size and modification time
     when the manifest is written (else it is read again)."""
-    _VOUCHED.setdefault(str(Path(folder).resolve()), {})[rel] = tuple(stamp)
+    _VOUCHED.setdefault(_vouched_key(folder), {})[rel] = tuple(stamp)
 
 
 def _digest(folder: Path, rel: str, vouched: dict) -> str:
@@ -91,7 +95,7 @@ def _files(folder: Path) -> list[str]:
 def _write_manifest(folder: Path) -> None:
     from .. import __version__
 
-    vouched = _VOUCHED.pop(str(Path(folder).resolve()), {})
+    vouched = _VOUCHED.pop(_vouched_key(folder), {})
     files = [{"path": rel, "bytes": (folder / rel).stat().st_size,
               "sha256": _digest(folder, rel, vouched)} for rel in _files(folder)]
     doc = {"format": _FORMAT, "gisgrade": __version__, "files": files}
@@ -296,6 +300,6 @@ def atomic_folder(outdir, *, inputs=()):
         else:
             os.rename(tmp, target)
     finally:
-        _VOUCHED.pop(str(tmp.resolve()), None)
+        _VOUCHED.pop(_vouched_key(tmp), None)
         if tmp.exists():
             shutil.rmtree(tmp, ignore_errors=True)
