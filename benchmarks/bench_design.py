@@ -76,19 +76,19 @@ def joints(s):
 
 def timed(s, z, cx, rules):
     count = {"solves": 0}
-    real = engine.linprog
+    real = engine.solve_lp
 
     def counted(*a, **k):
         count["solves"] += 1
         return real(*a, **k)
 
-    engine.linprog = counted
+    engine.solve_lp = counted
     t0 = time.perf_counter()
     try:
         p = design_profile(s, z, cx, rules)
     finally:
         dt = time.perf_counter() - t0
-        engine.linprog = real
+        engine.solve_lp = real
     peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024  # KiB on Linux
     return p, dt, peak, count["solves"]
 

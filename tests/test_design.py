@@ -389,3 +389,45 @@ def test_crossing_far_below_max_cover_dips_just_as_deep_as_it_needs(fittings):
         assert p.bends.groupby("index")["angle_deg"].sum().max() <= 90.0 + 1e-9
     # no runaway: a pipe within 45 deg is shorter than sqrt(2) x its plan length (exact geometry)
     assert p.length_3d < 1200.0 * np.sqrt(2.0)
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_lp_solver_matches_scipy_linprog_on_random_programs(seed):
+    # reference: scipy.optimize.linprog(method="highs") (SciPy's own binding of
+    # HiGHS), on random bounded programs with duplicate entries (summed, as in a
+    # sparse matrix built from triplets), free unknowns and equality rows
+    from scipy.optimize import linprog
+    from scipy.sparse import coo_matrix
+
+    from gisgrade.design.lp import Program, solve_lp
+
+    rng = np.random.default_rng(seed)
+    n, m, k = 30, 40, 160
+    rows, cols = rng.integers(0, m, k), rng.integers(0, n, k)
+    rows[:10], cols[:10] = rows[10:20], cols[10:20]  # ten places given twice
+    values = rng.normal(size=k)
+    x0 = rng.uniform(-1, 1, n)  # a feasible point: every row holds at x0
+    a = coo_matrix((values, (rows, cols)), shape=(m, n)).toarray()
+    upper = a @ x0 + rng.uniform(0, 1, m)
+    eq = rng.random(m) < 0.2
+    lower = np.where(eq, upper, -np.inf)
+    upper = np.where(eq, a @ x0, upper)
+    lower[eq] = upper[eq]
+    lo, hi = np.full(n, -2.0), np.full(n, 2.0)
+    lo[:5] = -np.inf  # free below, bounded above
+    cost = rng.normal(size=n)
+    got = solve_lp(Program(cost, rows, cols, values, lower, upper, lo, hi))
+    ref = linprog(cost, A_ub=a[~eq], b_ub=upper[~eq], A_eq=a[eq], b_eq=upper[eq],
+                  bounds=np.c_[lo, hi], method="highs")
+    assert ref.status == 0 and got is not None
+    assert cost @ got == pytest.approx(ref.fun, rel=1e-9, abs=1e-9)
+    assert np.all(a[~eq] @ got <= upper[~eq] + 1e-9) and np.allclose(a[eq] @ got, upper[eq], atol=1e-9)
+
+
+def test_lp_solver_says_none_for_an_infeasible_program():
+    # x <= -1 with 0 <= x: no answer (scipy.optimize.linprog gives status 2 here)
+    from gisgrade.design.lp import Program, solve_lp
+
+    p = Program(np.ones(1), np.array([0]), np.array([0]), np.array([1.0]),
+                np.array([-np.inf]), np.array([-1.0]), np.zeros(1), np.full(1, np.inf))
+    assert solve_lp(p) is None

@@ -56,6 +56,19 @@ def test_listing_the_outputs_leaves_matplotlib_unloaded():
     assert out.stdout.strip() == "False False"
 
 
+def test_a_run_without_figures_leaves_scipy_optimize_unloaded(tmp_path):
+    # the design's linear programs go to HiGHS through highspy: importing
+    # scipy.optimize (most of SciPy) would be half a second of every run's start
+    import subprocess
+
+    project = flat_site(tmp_path)
+    code = ("import sys, gisgrade; r = gisgrade.run(sys.argv[1], sys.argv[2], figures=False); "
+            "print(r.grades is not None, 'scipy.optimize' in sys.modules, 'scipy.sparse' in sys.modules)")
+    out = subprocess.run([sys.executable, "-c", code, str(project), str(tmp_path / "out")],
+                         capture_output=True, text=True, check=True)
+    assert out.stdout.strip() == "True False False"
+
+
 def test_profile_figures_drawn_in_threads_match_one_drawn_alone(tmp_path):
     from gisgrade.output.plot import plot_profile
 

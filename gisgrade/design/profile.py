@@ -20,12 +20,11 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.sparse as sp
-from scipy.optimize import linprog
 
 from ..errors import InputError
 from ..arrays import STATION_TOLERANCE, runs
 from .fittings import bends_frame, place_bends
+from .lp import Program, solve_lp
 from .rules import PRIORITY, Crossing, DesignRules, PipeProfile, Relaxation, trench_width
 
 #: A rule broken by more than this (m, rad or m/m) is reported as relaxed.
@@ -295,8 +294,9 @@ def _build(P: _Problem, ghat, bends, mg_dir, mode, caps, strict=False, stage=2, 
     found in stage 1). Every segment's grade is held within
     :data:`MAX_PIPE_GRADE` in every mode. ``strict``: turning beyond the joints
     where no bend is placed is a joint-deflection violation, weighted by its
-    priority, rather than a cheap call for a bend. Returns (c, A_ub, b_ub,
-    A_eq, b_eq, bounds, layout).
+    priority, rather than a cheap call for a bend. Returns the
+    :class:`~.lp.Program` (inequality rows ``A x <= b`` first, then the
+    bends' equality rows) and the layout of its unknowns.
     """
     n, h, r = P.n, P.h, P.rules
     m = max(n - 2, 0)
@@ -423,7 +423,6 @@ def _build(P: _Problem, ghat, bends, mg_dir, mode, caps, strict=False, stage=2, 
 
     # joint deflection, linearized about ghat:
     # theta_i ~ c_i + a_i g_i - a_{i-1} g_{i-1},  a = 1/(1+ghat^2)
-    Aeq = beq = None
     eq_parts = None
     if m:
         a = 1.0 / (1.0 + ghat ** 2)
@@ -466,17 +465,20 @@ def _build(P: _Problem, ghat, bends, mg_dir, mode, caps, strict=False, stage=2, 
         a0, a1 = layout[name]
         w = np.concatenate(cost)[a0:a1]
         add_rows(np.zeros(a1 - a0, int), np.arange(a0, a1), w, np.array([budget]))
-    if eq_parts is not None and eq_parts[3]:
+    if eq_parts is not None and eq_parts[3]:  # equality rows after the inequalities
         rows_eq, cols_eq, vals_eq, beq = eq_parts
         beq = np.concatenate(beq)
-        Aeq = sp.csr_matrix((np.concatenate(vals_eq), (np.concatenate(rows_eq), np.concatenate(cols_eq))),
-                            shape=(len(beq), nv))
-    A = b = None
-    if nrow:
-        A = sp.csr_matrix((np.concatenate(V), (np.concatenate(R), np.concatenate(C))), shape=(nrow, nv))
-        b = np.concatenate(rhs)
-    bounds = np.c_[np.concatenate(lo), np.concatenate(hi)]
-    return np.concatenate(cost), A, b, Aeq, beq, bounds, layout
+        R.append(np.concatenate(rows_eq) + nrow)
+        C.append(np.concatenate(cols_eq))
+        V.append(np.concatenate(vals_eq))
+    else:
+        beq = np.zeros(0)
+    b = np.concatenate(rhs) if rhs else np.zeros(0)
+    join = lambda parts, dtype: np.concatenate(parts).astype(dtype) if parts else np.zeros(0, dtype)  # noqa: E731
+    program = Program(cost=np.concatenate(cost), rows=join(R, np.int64), cols=join(C, np.int64),
+                      values=join(V, float), row_lower=np.r_[np.full(len(b), -np.inf), beq],
+                      row_upper=np.r_[b, beq], lower=np.concatenate(lo), upper=np.concatenate(hi))
+    return program, layout
 
 
 def _hull(x, y, seg, idx, kidx, below=True):
@@ -527,11 +529,10 @@ def _solve(P, ghat, bends, mg_dir, mode, caps=None, max_iter=SLP_MAX, strict=Fal
     prev_err = np.inf
     it = 0
     while it < max_iter:
-        c, A, b, Aeq, beq, bounds, lay = _build(P, ghat, bends, mg_dir, mode, caps, strict, stage, totals)
-        res = linprog(c, A_ub=A, b_ub=b, A_eq=Aeq, b_eq=beq, bounds=bounds, method="highs")
-        if res.status != 0 or res.x is None:
+        program, lay = _build(P, ghat, bends, mg_dir, mode, caps, strict, stage, totals)
+        x = solve_lp(program)
+        if x is None:
             return best
-        x = res.x
         z = x[slice(*lay["z"])]
         g = _grades(z, P.h)
         over = (np.abs(g) > MAX_PIPE_GRADE * (1 + 1e-9)) & ~P.steep
@@ -570,7 +571,8 @@ def _least(P, ghat, bends, mg_dir, strict, max_iter):
     first = _solve(P, ghat, bends, mg_dir, "least", None, max_iter, strict, stage=1)
     if first is None or all(k.rstrip(" +-") in UPPER_RULES for k in first.slack):
         return first
-    c, *_, lay = _build(P, first.g, bends, mg_dir, "least", None, strict, 1)
+    program, lay = _build(P, first.g, bends, mg_dir, "least", None, strict, 1)
+    c = program.cost
     x = np.concatenate([first.z, first.excess] + [first.slack[k] for k in first.slack])
     held = [k for k in first.slack if k.rstrip(" +-") in UPPER_RULES] + (["excess"] if strict else [])
     totals = {}
@@ -721,7 +723,7 @@ def design_profile(station, ground, crossings=(), rules: DesignRules | None = No
     ----------
     .. [1] Huangfu, Q., Hall, J. A. J. (2018). Parallelizing the dual revised
        simplex method. Mathematical Programming Computation 10, 119-142
-       (HiGHS, the solver behind scipy.optimize.linprog(method="highs")).
+       (HiGHS, the solver :func:`~.lp.solve_lp` calls).
     .. [2] Nocedal, J., Wright, S. J. (2006). Numerical Optimization, 2nd ed.,
        ch. 18 (sequential linearization of nonlinear constraints).
 

@@ -38,7 +38,6 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.optimize import brentq
 
 from gisgrade.hydraulics.friction import (
     G,
@@ -368,6 +367,8 @@ def solve_flow(
         hi = lo + 2.0 * (hi - lo)
     else:  # pragma: no cover - only for absurd inputs
         raise ValueError("could not bracket the flow between the two heads")
+    from scipy.optimize import brentq  # here: scipy.optimize takes half a second to import
+
     return float(brentq(residual, lo, hi, xtol=1e-14, rtol=1e-15, maxiter=500))
 
 
