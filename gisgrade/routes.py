@@ -254,7 +254,7 @@ class Outcome:
 @dataclass
 class LayerPart:
     """One route's features of one layer, as the Arrow table the GeoPackage
-    writer takes (:func:`arrow_layer`): in memory (``table``) or in an Arrow
+    writer takes (:func:`~gisgrade.output.layers.arrow_layer`): in memory (``table``) or in an Arrow
     IPC file the worker wrote into the folder being built (``path``)."""
 
     kinds: tuple  #: the geometry types present (e.g. ``("LineString",)``)
@@ -347,42 +347,6 @@ def _read_tree(folder: Path) -> dict:
 
 
 #: Shapely's geometry type ids -> names (``GeoSeries.geom_type``).
-GEOM_TYPES = ("Point", "LineString", "LinearRing", "Polygon", "MultiPoint", "MultiLineString",
-              "MultiPolygon", "GeometryCollection")
-
-
-def arrow_layer(gdf) -> tuple:
-    """``(table, kinds)``: a layer's GeoDataFrame as the Arrow table that
-    ``pyogrio.write_dataframe(..., use_arrow=True)`` builds to write it
-    (geometry as WKB; object columns of mixed values as text, as it does),
-    with ``route`` first, and the geometry types present. Columns that hold
-    no value stay of Arrow's null type here, so that :func:`merge_parts`
-    gives each the type of the routes that have values, as one frame of
-    every route would; it makes what is left null text, as pyogrio does."""
-    import pandas as pd
-    import pyarrow as pa
-    import shapely
-    from geopandas.array import to_wkb
-
-    geoms = gdf.geometry.values
-    ids = np.unique(shapely.get_type_id(np.asarray(geoms)))
-    kinds = tuple(sorted(GEOM_TYPES[i] for i in ids if i >= 0))
-    arrays = {}
-    for name in ["route", *[c for c in gdf.columns if c != "route"]]:
-        if name == "geometry":  # each column as pyarrow's from_pandas converts it (much faster)
-            arrays[name] = pa.array(to_wkb(geoms), from_pandas=True)
-            continue
-        column = gdf[name]
-        if column.dtype == "object" and pd.api.types.infer_dtype(column) != "string":
-            try:
-                arrays[name] = pa.array(column, from_pandas=True)
-                continue
-            except pa.ArrowInvalid:
-                column = column.astype("string")
-        arrays[name] = pa.array(column, from_pandas=True)
-    return pa.table(arrays), kinds
-
-
 def merge_parts(parts: list) -> tuple:
     """``(table, crs, kinds)``: the :class:`LayerPart` of every route of one
     layer as one table in the first part's CRS, in the routes' order, and
@@ -390,7 +354,7 @@ def merge_parts(parts: list) -> tuple:
     (``pandas.concat``) holds. A field's types across routes are widened as
     ``concat`` would (a field without values takes the others' type,
     integers and floats become floats); types that do not widen become
-    text, as pyogrio writes a column of mixed values (:func:`_for_gdal`
+    text, as pyogrio writes a column of mixed values (:func:`~gisgrade.output.layers.for_gdal`
     then makes the table what pyogrio hands GDAL)."""
     import pyarrow as pa
 
@@ -426,26 +390,6 @@ def _widened(types: list):
         return pa.string()
 
 
-def _for_gdal(table, kinds):
-    """A merged layer as pyogrio hands it to GDAL: a field without a value
-    anywhere as text (GDAL takes no null type), the geometry as binary, and
-    single and multi geometries of one kind in one layer all as multi (what
-    pyogrio does for a GeoPackage)."""
-    import pyarrow as pa
-
-    for i, f in enumerate(table.schema):
-        if pa.types.is_null(f.type):
-            table = table.set_column(i, pa.field(f.name, pa.string()), table[i].cast(pa.string()))
-    if not (pa.types.is_binary(table.schema.field("geometry").type)
-            or pa.types.is_large_binary(table.schema.field("geometry").type)):
-        i = table.schema.get_field_index("geometry")
-        table = table.set_column(i, pa.field("geometry", pa.binary()), table[i].cast(pa.binary()))
-    single = {k for k in kinds if not k.startswith("Multi")}
-    if len(kinds) == 2 and len(single) == 1 and f"Multi{next(iter(single))}" in kinds:
-        table = _to_multi(table, next(iter(single)))
-    return table
-
-
 def _in_crs(table, crs, target):
     """``table``'s geometries reprojected from ``crs`` to ``target`` (the same table when equal)."""
     if crs == target:
@@ -456,20 +400,6 @@ def _in_crs(table, crs, target):
     g = gpd.GeoSeries.from_wkb(table.column("geometry").to_numpy(zero_copy_only=False), crs=crs)
     i = table.schema.get_field_index("geometry")
     return table.set_column(i, "geometry", pa.array(g.to_crs(target).to_wkb(), pa.binary()))
-
-
-def _to_multi(table, single: str):
-    """The ``single`` geometries of ``table`` as their multi kind (as pyogrio writes them)."""
-    import pyarrow as pa
-    import shapely
-
-    geoms = shapely.from_wkb(table.column("geometry").to_numpy(zero_copy_only=False))
-    make = {"Point": shapely.multipoints, "LineString": shapely.multilinestrings,
-            "Polygon": shapely.multipolygons}[single]
-    mask = shapely.get_type_id(geoms) == {"Point": 0, "LineString": 1, "Polygon": 3}[single]
-    geoms[mask] = make(np.atleast_2d(geoms[mask]), axis=0)
-    i = table.schema.get_field_index("geometry")
-    return table.set_column(i, "geometry", pa.array(shapely.to_wkb(geoms), pa.binary()))
 
 
 def _write_parts(layers: dict, folder: Path) -> dict:
@@ -501,7 +431,7 @@ def run_route(project, name: str, frame, figures: bool = False,
     import time
 
     from .display import display_of
-    from .output.layers import geodataframes
+    from .output.layers import arrow_layer, geodataframes
 
     t0 = time.perf_counter()
     try:
@@ -551,21 +481,14 @@ def write_layers(layers: dict, path) -> None:
     """``routes.gpkg``: each layer's parts (:meth:`RoutesResult._parts`) merged
     (:func:`merge_parts`) and written as pyogrio's ``write_dataframe`` of one
     frame of every route would write them, one layer at a time."""
-    from pyogrio.raw import write_arrow
-
     from .cautions import CAUTIONS
-    from .output.layers import GEOMETRY, unsynced_sqlite
+    from .output.layers import unsynced_sqlite, write_gpkg_layer
 
     with unsynced_sqlite():  # the folder being built is swapped in whole
         for i, (name, parts) in enumerate(layers.items()):
             table, crs, kinds = merge_parts(parts)
-            epsg = crs.to_epsg() if crs is not None else None  # as pyogrio names a CRS
-            write_arrow(_for_gdal(table, kinds), str(path), layer=name, driver="GPKG",
-                        geometry_name="geometry", geometry_type=GEOMETRY[name], append=i > 0,
-                        crs=None if crs is None else f"EPSG:{epsg}" if epsg
-                        else crs.to_wkt("WKT1_GDAL"),
-                        layer_metadata={"DESCRIPTION": f"gisgrade {name}, every route. "
-                                                      f"CAUTION: {CAUTIONS}"})
+            write_gpkg_layer(path, name, table, kinds, crs, i > 0,
+                             f"gisgrade {name}, every route. CAUTION: {CAUTIONS}")
 
 
 def layer_groups(layers: dict, n: int) -> list[dict]:

@@ -164,7 +164,8 @@ def test_layer_groups_joined_as_one_file(tmp_path, caplog, joins):
     from pyproj import CRS
 
     from gisgrade.output.layers import GEOMETRY
-    from gisgrade.routes import LayerPart, arrow_layer, join_layers, layer_groups, write_layers
+    from gisgrade.output.layers import arrow_layer
+    from gisgrade.routes import LayerPart, join_layers, layer_groups, write_layers
 
     local = CRS.from_proj4("+proj=tmerc +lon_0=14.1 +x_0=500000 +ellps=GRS80 +units=m +no_defs")
     other = CRS.from_proj4("+proj=tmerc +lon_0=15.3 +x_0=500000 +ellps=GRS80 +units=m +no_defs")
@@ -258,7 +259,8 @@ def test_merged_layers_as_one_frame_of_every_route_would_be_written(tmp_path):
     import pyogrio
     from shapely.geometry import LineString, MultiLineString
 
-    from gisgrade.routes import LayerPart, arrow_layer, write_layers
+    from gisgrade.output.layers import arrow_layer
+    from gisgrade.routes import LayerPart, write_layers
 
     a = gpd.GeoDataFrame({"n": [1, 2], "note": [None, None], "mixed": [1.5, 2.5], "route": "a"},
                          geometry=[LineString([(0, 0), (1, 1)]), LineString([(1, 1), (2, 0)])],
