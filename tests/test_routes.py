@@ -796,3 +796,20 @@ def test_a_file_of_several_layers_read_without_layer_is_warned(tmp_path, capsys)
     said = [e for e in err if "holds 2 layers" in e]
     assert len(said) == 1 and "alignment.path: mains.gpkg holds 2 layers (proposed, existing); " \
         "the first, 'proposed', was read: name the one meant with alignment.layer" in said[0], err
+
+
+def test_the_program_exits_cleanly_after_a_cluster(tmp_path):
+    # `python -m gisgrade routes` as a planner runs it: the program freezes its
+    # objects out of the garbage collector before it exits (gisgrade.cli.entry);
+    # the cluster is closed and Dask's exit handlers run, nothing is said on stderr
+    # but the routes' own warnings, the exit status is the command's (1: one route fails)
+    import subprocess
+
+    project = make_site(tmp_path)
+    out = tmp_path / "out"
+    proc = subprocess.run([sys.executable, "-m", "gisgrade", "routes", str(project), "-o", str(out),
+                           "--workers", "1", "-q"], capture_output=True, text=True, timeout=300)
+    assert proc.returncode == 1, proc.stderr[-800:]
+    assert "Traceback" not in proc.stderr and "Exception ignored" not in proc.stderr, proc.stderr[-800:]
+    assert "leaked" not in proc.stderr, proc.stderr[-800:]
+    assert (out / "MANIFEST.json").is_file() and (out / "routes.gpkg").is_file()

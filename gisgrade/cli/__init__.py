@@ -131,3 +131,19 @@ def main(argv=None) -> int:
         click.echo("gisgrade: interrupted; the output folder is as it was before", err=True)
         return 130
     return rv or 0
+
+
+def entry() -> None:
+    """The ``gisgrade`` program (and ``python -m gisgrade``): :func:`main`,
+    then the process exits with its status. Before it does, every object is
+    frozen out of the garbage collector (``gc.freeze``): the interpreter's
+    shutdown then frees them as their references go, without collecting
+    through the hundred thousand objects of the libraries again, a fifth of
+    a second less for every command. Files are all closed by then, and
+    ``atexit`` handlers (temporary folders, Dask) still run."""
+    import gc
+
+    status = main()
+    gc.freeze()
+    sys.exit(status)
+
