@@ -254,8 +254,9 @@ class Outcome:
 @dataclass
 class LayerPart:
     """One route's features of one layer, as the Arrow table the GeoPackage
-    writer takes (:func:`~gisgrade.output.layers.arrow_layer`): in memory (``table``) or in an Arrow
-    IPC file the worker wrote into the folder being built (``path``)."""
+    writer takes (:func:`~gisgrade.output.layers.arrow_layer`): in memory
+    (``table``) or in an Arrow IPC file the worker wrote into the folder
+    being built (``path``)."""
 
     kinds: tuple  #: the geometry types present (e.g. ``("LineString",)``)
     crs: object  #: pyproj CRS of the geometries
@@ -346,7 +347,6 @@ def _read_tree(folder: Path) -> dict:
             for p in sorted(folder.rglob("*")) if p.is_file()}
 
 
-#: Shapely's geometry type ids -> names (``GeoSeries.geom_type``).
 def merge_parts(parts: list) -> tuple:
     """``(table, crs, kinds)``: the :class:`LayerPart` of every route of one
     layer as one table in the first part's CRS, in the routes' order, and

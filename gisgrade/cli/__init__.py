@@ -146,4 +146,3 @@ def entry() -> None:
     status = main()
     gc.freeze()
     sys.exit(status)
-

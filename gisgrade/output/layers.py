@@ -296,6 +296,7 @@ def geodataframes(result, display, crs=None) -> dict:
     return out
 
 
+#: Shapely's geometry type ids -> names (``GeoSeries.geom_type``).
 GEOM_TYPES = ("Point", "LineString", "LinearRing", "Polygon", "MultiPoint", "MultiLineString",
               "MultiPolygon", "GeometryCollection")
 
@@ -304,10 +305,11 @@ def arrow_layer(gdf) -> tuple:
     """``(table, kinds)``: a layer's GeoDataFrame as the Arrow table that
     ``pyogrio.write_dataframe(..., use_arrow=True)`` builds to write it
     (geometry as WKB; object columns of mixed values as text, as it does),
-    with ``route`` first where there is one, and the geometry types present. Columns that hold
-    no value stay of Arrow's null type here, so that :func:`gisgrade.routes.merge_parts`
-    gives each the type of the routes that have values, as one frame of
-    every route would; it makes what is left null text, as pyogrio does."""
+    with ``route`` first where there is one, and the geometry types present.
+    Columns that hold no value stay of Arrow's null type here, so that
+    :func:`gisgrade.routes.merge_parts` gives each the type of the routes
+    that have values, as one frame of every route would; :func:`for_gdal`
+    makes what is left null text, as pyogrio does."""
     import pandas as pd
     import pyarrow as pa
     import shapely
@@ -333,10 +335,11 @@ def arrow_layer(gdf) -> tuple:
 
 
 def for_gdal(table, kinds):
-    """A merged layer as pyogrio hands it to GDAL: a field without a value
-    anywhere as text (GDAL takes no null type), the geometry as binary, and
-    single and multi geometries of one kind in one layer all as multi (what
-    pyogrio does for a GeoPackage)."""
+    """A layer's table (one route's, or every route's merged) as pyogrio
+    hands it to GDAL: a field without a value anywhere as text (GDAL takes
+    no null type), the geometry as binary, and single and multi geometries
+    of one kind in one layer all as multi (what pyogrio does for a
+    GeoPackage)."""
     import pyarrow as pa
 
     for i, f in enumerate(table.schema):
