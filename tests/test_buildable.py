@@ -268,6 +268,21 @@ def test_long_runs_get_valves_at_the_interval(grade, kind):
     assert kinds(got) == [(500.0, kind), (1000.0, kind), (1500.0, kind)]
 
 
+def test_a_stretch_through_a_sag_gets_its_valve_up_a_side_not_beside_the_drain():
+    # common practice: air gathers at the high side of a stretch, never at the
+    # bottom of a sag, where the drain is; 2000 m falling to a low point at
+    # 1000 m and rising again, interval 1200 m: one valve is needed (the even
+    # place would be the low point itself), and it goes up a side, no stretch
+    # over the interval
+    top = 100 + 0.01 * np.abs(S - 1000.0)
+    got = site_valves(S, top, [], [100], rules=ValveRules(interval=1200.0, flat_run=1e9))
+    air = got[got["kind"] != "drain"]
+    assert len(air) == 1 and kinds(got[got["kind"] == "drain"]) == [(1000.0, "drain")]
+    at = float(air["station_m"].iloc[0])
+    assert abs(at - 1000.0) >= 200.0 and max(at, 2000.0 - at) <= 1200.0
+    assert air["kind"].iloc[0] == ("air-vacuum" if at < 1000 else "air-release")
+
+
 def test_ends_of_a_long_near_horizontal_run():
     # air gathers where the pipe leaves a level run downhill (a convex knee), not
     # where it falls into one (concave: 600 m here)

@@ -85,7 +85,7 @@ def site_valves(station, top, highs, lows, grades=(), names=(), knots=None,
             out.append((i, "air-vacuum", f"HGL {where} the top of pipe in {name}", 1))
     g = np.diff(z) / np.diff(s)
     out += _slope_changes(s, g, knots, rules)
-    out += _runs(s, g, knots, rules, [o[0] for o in out if o[1] != "drain"])
+    out += _runs(s, z, g, knots, rules, [o[0] for o in out if o[1] != "drain"])
     return _merge(s, out, rules.merge_distance)
 
 
@@ -112,10 +112,15 @@ def _slope_changes(s, g, knots, rules):
     return out
 
 
-def _runs(s, g, knots, rules, placed):
+def _runs(s, z, g, knots, rules, placed):
     """Rules 4 and 5: the ends of long near-horizontal runs; then valves so
     that no stretch between air valves (or the line's ends) is longer than
-    the interval, evenly spaced, the kind by the run each falls in."""
+    the interval, the kind by the run each falls in. Each of those goes in
+    the middle half of its even share of what is left of the stretch (and
+    no farther from the last than the interval), at the joint that stands
+    highest above the straight line across that half: where air gathers;
+    on a straight run that is its even place. A stretch through a sag so
+    gets its valve up a side, not at the bottom beside the drain."""
     cls = np.where(g > rules.flat_grade, 1, np.where(g < -rules.flat_grade, -1, 0))
     change = np.flatnonzero(np.diff(cls)) + 1
     out = []
@@ -134,8 +139,22 @@ def _runs(s, g, knots, rules, placed):
     knot_s = np.flatnonzero(knots)
     for x0, x1 in zip(at[:-1], at[1:]):  # gaps between air valves: few
         k = int(np.ceil((x1 - x0) / rules.interval - 1e-9)) - 1
-        for j in range(1, k + 1):
-            i = int(knot_s[np.argmin(np.abs(s[knot_s] - (x0 + j * (x1 - x0) / (k + 1))))])
+        prev = x0
+        for left in range(k, 0, -1):  # valves still to place in this gap
+            share = (x1 - prev) / (left + 1)
+            even = prev + share
+            # within the middle half of its share, keeping every stretch within the interval
+            lo = max(even - share / 4, x1 - left * rules.interval)
+            hi = min(even + share / 4, prev + rules.interval)
+            near = knot_s[(s[knot_s] >= lo) & (s[knot_s] <= hi)] if lo < hi else knot_s[:0]
+            if len(near):
+                zl, zh = np.interp([lo, hi], s, z)
+                rise = z[near] - (zl + (zh - zl) * (s[near] - lo) / (hi - lo))
+                best = near[rise >= rise.max() - 1e-3]  # within a millimetre: the nearest to even
+                i = int(best[np.argmin(np.abs(s[best] - even))])
+            else:
+                i = int(knot_s[np.argmin(np.abs(s[knot_s] - even))])
+            prev = float(s[i])
             c = int(cls[min(i, len(g) - 1)])
             out.append((i, kinds[c][0], kinds[c][1], 4))
     return out
