@@ -73,7 +73,8 @@ def rowwise(rows, cols, values, nrow: int):
 
 def solve_lp(program: Program):
     """The optimal ``x`` of ``program`` (an ndarray), or None when HiGHS
-    finds none (infeasible, unbounded, or stopped short).
+    finds none (infeasible, unbounded, or stopped short), with its presolve
+    and again without it.
 
     >>> p = Program(cost=np.array([-1.0, -2.0]), rows=np.array([0, 0]),
     ...             cols=np.array([0, 1]), values=np.array([1.0, 1.0]),
@@ -102,5 +103,12 @@ def solve_lp(program: Program):
         return None
     h.run()
     if h.getModelStatus() != highspy.HighsModelStatus.kOptimal:
-        return None
+        # HiGHS's presolve can call a program infeasible that is not (highspy
+        # 1.16 did so on a small design program that SciPy's HiGHS 1.12 solves,
+        # and so does 1.16 itself without presolve): once more without it
+        h.setOptionValue("presolve", "off")
+        h.clearSolver()
+        h.run()
+        if h.getModelStatus() != highspy.HighsModelStatus.kOptimal:
+            return None
     return np.asarray(h.getSolution().col_value, float)
