@@ -750,8 +750,13 @@ def _cluster(workers: int | None, scheduler: str | None, n_routes: int):
     spawn = "distributed.nanny.pre-spawn-environ"
     environ = {**dask.config.get(spawn, default={}), **worker_environment()}
     with dask.config.set({spawn: environ}):
+        # Dask's own logging: errors with -vv; else only the critical (a worker
+        # whose heartbeat meets the scheduler already closed at the end logs an
+        # ERROR with a traceback, a harmless race of Dask's shutdown; a route's
+        # own failure is its row's status either way)
+        quiet = logging.ERROR if log.isEnabledFor(logging.DEBUG) else logging.CRITICAL
         cluster = LocalCluster(n_workers=max(1, n), threads_per_worker=1, processes=True,
-                               dashboard_address=None, silence_logs=logging.ERROR)
+                               dashboard_address=None, silence_logs=quiet)
     return Client(cluster), cluster
 
 
@@ -854,24 +859,10 @@ def run_routes(project, lines=None, *, workers: int | None = None, scheduler: st
         return result
     finally:
         t1 = time.perf_counter()
-        if cluster is not None:  # our own workers: what they log while shutting down is noise
-            try:
-                client.run(_quiet_worker)
-            except Exception:  # noqa: BLE001 - a worker already gone has nothing to say
-                pass
         client.close()
         if cluster is not None:
             cluster.close()
         log.debug("routes: Dask cluster closed %.2f s", time.perf_counter() - t1)
-
-
-def _quiet_worker() -> None:
-    """Run on each worker of a LocalCluster of ours once every route is back:
-    Dask's own logging there from now on only for the critical. A worker
-    whose heartbeat meets the scheduler already closed logs an ERROR with
-    a traceback (a race of Dask's shutdown, harmless): a planner's terminal
-    should not show it."""
-    logging.getLogger("distributed").setLevel(logging.CRITICAL)
 
 
 def _on_dask(client, project, routes, places, figures, layers, arrived) -> list[Outcome]:
