@@ -749,7 +749,8 @@ def _cluster(workers: int | None, scheduler: str | None, n_routes: int):
     # Nanny's own ``env`` is applied once the process runs)
     spawn = "distributed.nanny.pre-spawn-environ"
     environ = {**dask.config.get(spawn, default={}), **worker_environment()}
-    with dask.config.set({spawn: environ}):
+    preload = [*dask.config.get("distributed.worker.preload", default=[]), __name__]  # dask_setup
+    with dask.config.set({spawn: environ, "distributed.worker.preload": preload}):
         # Dask's own logging: errors with -vv; else only the critical (a worker
         # whose heartbeat meets the scheduler already closed at the end logs an
         # ERROR with a traceback, a harmless race of Dask's shutdown; a route's
@@ -758,6 +759,19 @@ def _cluster(workers: int | None, scheduler: str | None, n_routes: int):
         cluster = LocalCluster(n_workers=max(1, n), threads_per_worker=1, processes=True,
                                dashboard_address=None, silence_logs=quiet)
     return Client(cluster), cluster
+
+
+def dask_setup(worker) -> None:
+    """Dask's preload hook (this module is named in ``distributed.worker.preload``
+    for our LocalCluster), run in each worker process as it starts: a Ctrl-C at
+    the terminal reaches every process of the group, and the workers leave it
+    to the main process, which closes the cluster and says the output folder
+    is as it was (each worker would print a traceback of its own)."""
+    import signal
+    import threading
+
+    if threading.current_thread() is threading.main_thread():
+        signal.signal(signal.SIGINT, signal.SIG_IGN)
 
 
 #: glibc's malloc settings for a LocalCluster's workers. Dask starts its

@@ -813,3 +813,33 @@ def test_the_program_exits_cleanly_after_a_cluster(tmp_path):
     assert "Traceback" not in proc.stderr and "Exception ignored" not in proc.stderr, proc.stderr[-800:]
     assert "leaked" not in proc.stderr, proc.stderr[-800:]
     assert (out / "MANIFEST.json").is_file() and (out / "routes.gpkg").is_file()
+
+
+@pytest.mark.skipif(platform.system() == "Windows", reason="process groups and SIGINT are POSIX")
+def test_ctrl_c_at_the_terminal_stops_routes_without_the_workers_tracebacks(tmp_path):
+    # a terminal's Ctrl-C sends SIGINT to every process of the group, the Dask
+    # workers too: they leave it to the main process (routes.dask_setup), which
+    # closes the cluster and exits 130 with its one line, the output folder as it was
+    import os
+    import signal
+    import subprocess
+
+    project = make_site(tmp_path)
+    project.write_text(project.read_text().replace('spacing = "10 m"', 'spacing = "0.25 m"'))
+    proc = subprocess.Popen([sys.executable, "-m", "gisgrade", "routes", str(project), "-o",
+                             str(tmp_path / "out"), "--workers", "2", "-vv"],
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
+                            start_new_session=True)
+    lines = []
+    for line in proc.stderr:  # -vv says when the cluster is up: the workers are running
+        lines.append(line)
+        if "Dask cluster" in line:
+            break
+    os.killpg(proc.pid, signal.SIGINT)
+    _, rest = proc.communicate(timeout=120)
+    err = "".join(lines) + rest
+    assert proc.returncode == 130, err[-1500:]
+    # (-vv shows Dask's own errors, e.g. a scatter cut short; no process's KeyboardInterrupt)
+    assert "KeyboardInterrupt" not in err, err[-1500:]
+    assert err.rstrip().endswith("the output folder is as it was before")
+    assert not (tmp_path / "out").exists()
