@@ -434,7 +434,8 @@ def test_lp_solver_says_none_for_an_infeasible_program():
 
 
 #: A 14-unknown program a design built (found by a fuzzed design_profile):
-#: HiGHS 1.16's presolve calls it infeasible; SciPy's linprog solves it.
+#: HiGHS 1.16's presolve calls it infeasible; SciPy's linprog (HiGHS 1.12) and
+#: the highspy release gisgrade holds to (1.12) solve it.
 PRESOLVE_TRAP = dict(
     cost=[-8.9364, -11.23, -11.1964, -23.583600000000004, -15.897200000000002, -1.5379999999999996,
         -3.4548000000000005, -3.1331999999999995, 100000.0, 100000.0, 100000.0, 100000.0, 100000.0,
@@ -484,7 +485,7 @@ PRESOLVE_TRAP = dict(
 
 def test_lp_solver_answers_where_presolve_alone_would_say_infeasible():
     # reference: scipy.optimize.linprog(method="highs") finds this program's optimum;
-    # solve_lp must too (it tries again without HiGHS's presolve)
+    # solve_lp must too (a HiGHS release whose presolve refuses it would not)
     from scipy.optimize import linprog
     from scipy.sparse import coo_matrix
 

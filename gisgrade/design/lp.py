@@ -11,9 +11,14 @@ twice at one place add up, as in a sparse matrix built from triplets.
 program) and returns the optimal ``x``, or None when there is none.
 
 HiGHS is the solver behind ``scipy.optimize.linprog(method="highs")``; the
-``highspy`` binding [2]_ reaches the same solver in a hundredth of a second,
-where importing ``scipy.optimize`` takes half a second of every run's start
-(it imports most of SciPy). An equality row has ``row_lower == row_upper``;
+``highspy`` binding [2]_ reaches it in a hundredth of a second, where
+importing ``scipy.optimize`` takes half a second of every run's start (it
+imports most of SciPy). The release is held to HiGHS 1.12, the one SciPy
+1.17 bundles, so that a design is what it was through SciPy: on programs at
+the edge of feasibility HiGHS releases differ (1.16's presolve calls some
+feasible design programs infeasible, and without presolve it accepts
+others that 1.12 rightly refuses, within 1e-7), and the design's path
+through its least-violation steps follows those verdicts. An equality row has ``row_lower == row_upper``;
 an inequality ``A x <= b`` has ``row_lower = -inf``.
 
 References
@@ -73,8 +78,7 @@ def rowwise(rows, cols, values, nrow: int):
 
 def solve_lp(program: Program):
     """The optimal ``x`` of ``program`` (an ndarray), or None when HiGHS
-    finds none (infeasible, unbounded, or stopped short), with its presolve
-    and again without it.
+    finds none (infeasible, unbounded, or stopped short).
 
     >>> p = Program(cost=np.array([-1.0, -2.0]), rows=np.array([0, 0]),
     ...             cols=np.array([0, 1]), values=np.array([1.0, 1.0]),
@@ -103,12 +107,5 @@ def solve_lp(program: Program):
         return None
     h.run()
     if h.getModelStatus() != highspy.HighsModelStatus.kOptimal:
-        # HiGHS's presolve can call a program infeasible that is not (highspy
-        # 1.16 did so on a small design program that SciPy's HiGHS 1.12 solves,
-        # and so does 1.16 itself without presolve): once more without it
-        h.setOptionValue("presolve", "off")
-        h.clearSolver()
-        h.run()
-        if h.getModelStatus() != highspy.HighsModelStatus.kOptimal:
-            return None
+        return None
     return np.asarray(h.getSolution().col_value, float)
