@@ -471,6 +471,10 @@ def align_frame(gdf, name: str, *, reverse=False, start_station=0.0,
     coords = np.asarray(line.coords)[:, :2]
     lon, lat = to_geo.transform(coords[:, 0], coords[:, 1])
     geodesic = float(geod.line_length(lon, lat))
+    if geodesic < STATION_TOLERANCE:  # (its two ends would be one station)
+        raise InputError(f"{key}: {path.name}: the centerline is {geodesic * 1000:.2g} mm long; "
+                         f"stations closer than {STATION_TOLERANCE * 1000:g} mm are one, so a line "
+                         "must be longer")
 
     scale_error = 0.0
     if src.is_projected:

@@ -292,6 +292,8 @@ CASES = [
          line([(X0, Y), (X0 + 600, Y), (X0 + 600, Y + 200), (X0 + 300, Y + 200), (X0 + 300, Y - 200),
                (X0 + 900, Y - 200)]), ("crosses or runs over itself",)),
     Case("route of zero length", "routes", line([(X0, Y), (X0, Y)]), ("zero length",)),
+    Case("route shorter than a millimetre", "routes", line([(X0, Y), (X0 + 0.0005, Y)]),
+         ("alignment.path", "0.5 mm long", "stations closer than 1 mm")),
     Case("projected coordinates labelled lon/lat", "CRS", line(LINE, crs="EPSG:4326"),
          ("alignment.path", "does not state its CRS")),
     Case("wrong UTM zone", "CRS", line(LINE, crs="EPSG:32632"),
