@@ -354,8 +354,9 @@ def merge_parts(parts: list) -> tuple:
     (``pandas.concat``) holds. A field's types across routes are widened as
     ``concat`` would (a field without values takes the others' type,
     integers and floats become floats); types that do not widen become
-    text, as pyogrio writes a column of mixed values (:func:`~gisgrade.output.layers.for_gdal`
-    then makes the table what pyogrio hands GDAL)."""
+    text, as pyogrio writes a column of mixed values
+    (:func:`~gisgrade.output.layers.for_gdal` then makes the table what
+    pyogrio hands GDAL)."""
     import pyarrow as pa
 
     crs = parts[0].crs

@@ -474,9 +474,9 @@ def _build(P: _Problem, ghat, bends, mg_dir, mode, caps, strict=False, stage=2, 
     else:
         beq = np.zeros(0)
     b = np.concatenate(rhs) if rhs else np.zeros(0)
-    join = lambda parts, dtype: np.concatenate(parts).astype(dtype) if parts else np.zeros(0, dtype)  # noqa: E731
-    program = Program(cost=np.concatenate(cost), rows=join(R, np.int64), cols=join(C, np.int64),
-                      values=join(V, float), row_lower=np.r_[np.full(len(b), -np.inf), beq],
+    cat = lambda parts: np.concatenate(parts) if parts else np.zeros(0, np.int64)  # noqa: E731
+    program = Program(cost=np.concatenate(cost), rows=cat(R), cols=cat(C), values=cat(V),
+                      row_lower=np.r_[np.full(len(b), -np.inf), beq],
                       row_upper=np.r_[b, beq], lower=np.concatenate(lo), upper=np.concatenate(hi))
     return program, layout
 
